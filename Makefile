@@ -9,7 +9,7 @@ DEB_PACKAGES := cmake ninja-build g++ make pkg-config \
   libeigen3-dev libzmq3-dev cppzmq-dev protobuf-compiler libprotobuf-dev \
   libspdlog-dev libcli11-dev libgtest-dev libgmock-dev libbenchmark-dev \
   python3 python3-zmq python3-protobuf python3-matplotlib python3-numpy \
-  python3-scipy python3-statsmodels python3-pytest r-base-core r-cran-spc
+  python3-scipy python3-statsmodels python3-mpmath python3-pytest r-base-core r-cran-spc
 
 .PHONY: deps configure build test bench demo clean
 

@@ -94,12 +94,8 @@ double StudentTCdf(double t, double dof) {
   const double t2 = t * t;
   // P(|T| > |t|) = I_{dof/(dof+t^2)}(dof/2, 1/2) = 1 - I_{t^2/(dof+t^2)}(1/2, dof/2); the form
   // whose argument is small is the accurate one.
-  double two_tail;
-  if (t2 < dof) {
-    two_tail = 1.0 - special::BetaI(0.5, 0.5 * dof, t2 / (dof + t2));
-  } else {
-    two_tail = special::BetaI(0.5 * dof, 0.5, dof / (dof + t2));
-  }
+  const double x = t2 / (dof + t2), y = dof / (dof + t2);
+  const double two_tail = special::BetaIWithComplement(0.5, 0.5 * dof, x, y, /*complement=*/true);
   return t > 0 ? 1.0 - 0.5 * two_tail : 0.5 * two_tail;
 }
 
@@ -142,6 +138,9 @@ double GammaQuantile(double p, double shape, double rate) {
   const double c = 1.0 - v + z * std::sqrt(v);
   if (shape > kGammaWilsonHilfertyShape) return shape * c * c * c / rate;
   double y0 = c > 0 ? shape * c * c * c : shape * 1e-3;
+  // Lower tail for small shape: P(shape, y) ~ y^shape / Gamma(shape + 1) as y -> 0.
+  const double y_small = std::exp((std::log(p) + special::LogGamma(shape + 1.0)) / shape);
+  if ((shape < 1.0 || c <= 0) && y_small < 1.0) y0 = y_small;
   const double y = SolveQuantile(
       p, [shape](double y) { return special::GammaP(shape, y); },
       [shape](double y) { return special::GammaQ(shape, y); },
@@ -175,7 +174,7 @@ double BetaQuantile(double p, double a, double b) {
   if (!(x0 > 0 && x0 < 1)) x0 = p < 0.5 ? 0.5 * mean : 0.5 * (1 + mean);
   return SolveQuantile(
       p, [a, b](double x) { return BetaCdf(x, a, b); },
-      [a, b](double x) { return x <= 0 ? 1.0 : (x >= 1 ? 0.0 : special::BetaI(b, a, 1.0 - x)); },
+      [a, b](double x) { return special::BetaIWithComplement(a, b, x, 1.0 - x, true); },
       [a, b](double x) { return BetaLogPdf(x, a, b); }, x0, 0.0, 1.0);
 }
 

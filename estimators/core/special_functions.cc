@@ -8,6 +8,7 @@
 
 #include <cmath>
 #include <limits>
+#include <utility>
 
 namespace bayline::est::special {
 namespace {
@@ -17,8 +18,24 @@ constexpr double kEps = 1e-16;
 constexpr double kTiny = 1e-300;
 constexpr int kMaxIterations = 100000;
 
-// log(x^a e^-x / Gamma(a)): the common prefactor of both incomplete gamma representations.
-double LogGammaPrefactor(double a, double x) { return a * std::log(x) - x - LogGamma(a); }
+constexpr double kLogSqrt2Pi = 0.91893853320467274178;
+
+// Stirling's error term log Gamma(a) - [(a - 1/2) log a - a + log sqrt(2 pi)], for a >=
+// kStirlingMin, where the first five terms of its series leave an error below 3e-16.
+constexpr double kStirlingMin = 15.0;
+double StirlingError(double a) {
+  const double inv = 1.0 / a, inv2 = inv * inv;
+  return inv * (1.0 / 12 - inv2 * (1.0 / 360 - inv2 * (1.0 / 1260 - inv2 * (1.0 / 1680 - inv2 / 1188))));
+}
+
+// log(x^a e^-x / Gamma(a)): the common prefactor of both incomplete gamma representations. For
+// large a the naive form subtracts numbers of size a log a; with t = (x - a) / a it is rewritten as
+// a (log1p(t) - t) + log(a) / 2 - log sqrt(2 pi) - StirlingError(a), which keeps full precision.
+double LogGammaPrefactor(double a, double x) {
+  if (a < kStirlingMin) return a * std::log(x) - x - LogGamma(a);
+  const double t = (x - a) / a;
+  return a * (std::log1p(t) - t) + 0.5 * std::log(a) - kLogSqrt2Pi - StirlingError(a);
+}
 
 // P(a, x) by its series; converges for any x but fast only for x < a + 1.
 double GammaPSeries(double a, double x) {
@@ -94,13 +111,24 @@ double LogGamma(double a) {
 
 double LogBeta(double a, double b) {
   if (!(a > 0 && b > 0)) return kNaN;
-  return LogGamma(a) + LogGamma(b) - LogGamma(a + b);
+  if (a < b) std::swap(a, b);  // a >= b
+  const double c = a + b;
+  if (a < kStirlingMin) return LogGamma(a) + LogGamma(b) - LogGamma(c);
+  // With a large, log Gamma(a) - log Gamma(a + b) subtracts two numbers of size a log a. Writing
+  // each by Stirling's series, the large parts combine into (a - 1/2) log1p(-b/c) - b log c + b,
+  // which keeps full precision.
+  if (b < kStirlingMin) {
+    return LogGamma(b) + (a - 0.5) * std::log1p(-b / c) - b * std::log(c) + b + StirlingError(a) -
+           StirlingError(c);
+  }
+  return (a - 0.5) * std::log1p(-b / c) + (b - 0.5) * std::log(b / c) - 0.5 * std::log(c) +
+         kLogSqrt2Pi + StirlingError(a) + StirlingError(b) - StirlingError(c);
 }
 
 double Digamma(double a) {
   if (!(a > 0)) return kNaN;
   double result = 0.0;
-  while (a < 6.0) {  // psi(a) = psi(a + 1) - 1 / a
+  while (a < 12.0) {  // psi(a) = psi(a + 1) - 1 / a
     result -= 1.0 / a;
     a += 1.0;
   }
@@ -114,7 +142,7 @@ double Digamma(double a) {
 double Trigamma(double a) {
   if (!(a > 0)) return kNaN;
   double result = 0.0;
-  while (a < 6.0) {  // psi'(a) = psi'(a + 1) + 1 / a^2
+  while (a < 12.0) {  // psi'(a) = psi'(a + 1) + 1 / a^2
     result += 1.0 / (a * a);
     a += 1.0;
   }
@@ -141,15 +169,24 @@ double GammaQ(double a, double x) {
   return GammaQContinuedFraction(a, x);
 }
 
-double BetaI(double a, double b, double x) {
-  if (!(a > 0 && b > 0) || !(x >= 0 && x <= 1)) return kNaN;
-  if (x == 0) return 0.0;
-  if (x == 1) return 1.0;
-  const double log_front = a * std::log(x) + b * std::log1p(-x) - LogBeta(a, b);
+double BetaIWithComplement(double a, double b, double x, double y, bool complement) {
+  if (!(a > 0 && b > 0) || !(x >= 0 && x <= 1) || !(y >= 0 && y <= 1)) return kNaN;
+  // x and y are each accurate on their own: only an exact zero of either is a boundary.
+  if (x == 0) return complement ? 1.0 : 0.0;
+  if (y == 0) return complement ? 0.0 : 1.0;
+  // log x and log y from whichever of x, y is small (and so relatively exact): with a or b large an
+  // ulp of error in the larger one would be multiplied by a or b.
+  const double log_x = y < 0.5 ? std::log1p(-y) : std::log(x);
+  const double log_y = x < 0.5 ? std::log1p(-x) : std::log(y);
+  const double log_front = a * log_x + b * log_y - LogBeta(a, b);
   if (x < (a + 1.0) / (a + b + 2.0)) {
-    return std::exp(log_front) * BetaContinuedFraction(a, b, x) / a;
+    const double v = std::exp(log_front) * BetaContinuedFraction(a, b, x) / a;  // I_x(a, b)
+    return complement ? 1.0 - v : v;
   }
-  return 1.0 - std::exp(log_front) * BetaContinuedFraction(b, a, 1.0 - x) / b;
+  const double w = std::exp(log_front) * BetaContinuedFraction(b, a, y) / b;  // 1 - I_x(a, b)
+  return complement ? w : 1.0 - w;
 }
+
+double BetaI(double a, double b, double x) { return BetaIWithComplement(a, b, x, 1.0 - x, false); }
 
 }  // namespace bayline::est::special

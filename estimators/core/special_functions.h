@@ -21,5 +21,9 @@ double GammaP(double a, double x);
 double GammaQ(double a, double x);
 // Regularized incomplete beta I_x(a, b), a, b > 0, 0 <= x <= 1.
 double BetaI(double a, double b, double x);
+// I_x(a, b) (complement = false) or 1 - I_x(a, b) (complement = true), given both x and y = 1 - x
+// so that callers who know y more precisely than 1 - x keep it; the small one of the two results
+// keeps full relative precision.
+double BetaIWithComplement(double a, double b, double x, double y, bool complement);
 
 }  // namespace bayline::est::special

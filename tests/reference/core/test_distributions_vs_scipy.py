@@ -1,0 +1,179 @@
+"""Special functions and distributions against scipy (Debian python3-scipy) and mpmath.
+
+Source of the reference values: scipy.special and scipy.stats, and for quantiles the distribution
+function in 40-digit arithmetic from mpmath (Debian python3-mpmath), evaluated here at run time.
+"""
+import os
+import subprocess
+
+import mpmath
+import numpy as np
+import pytest
+from scipy import special, stats
+
+PROBE = os.path.join(os.environ["BAYLINE_BINARY_DIR"], "tests/reference/core/dist_probe")
+
+
+def run_probe(calls):
+    text = "\n".join(" ".join([name] + [repr(float(a)) for a in args]) for name, args in calls)
+    out = subprocess.run([PROBE], input=text + "\n", capture_output=True, text=True, check=True)
+    return [float(v) for v in out.stdout.split()]
+
+
+def check(cases, rtol, atol=0.0):
+    """cases: list of (probe name, args, scipy value)."""
+    got = run_probe([(n, a) for n, a, _ in cases])
+    assert len(got) == len(cases)
+    bad = []
+    for (name, args, want), g in zip(cases, got):
+        if not np.isclose(g, want, rtol=rtol, atol=atol):
+            bad.append(f"{name}{tuple(args)}: got {g!r}, scipy {want!r}")
+    assert not bad, "\n".join(bad[:20])
+
+
+def check_quantiles(cases, rtol_p=1e-12, rtol_x=1e-7):
+    """cases: list of (probe name, [p, *params], scipy frozen distribution, mpmath tail function).
+
+    A quantile x_p is judged by the distribution function evaluated in 40-digit arithmetic with
+    mpmath (Debian python3-mpmath): F(x_p) must equal p, or S(x_p) = 1 - p in the upper half, so
+    both tails keep relative precision; the allowance adds what the rounding of x_p itself to a
+    double can move the tail (density * 2 ulp). scipy's ppf is checked too, more loosely: Debian's
+    scipy 1.10 t.ppf disagrees with its own cdf by up to 3e-9 in p, and its gamma tail at shape
+    1e6 by 7e-6, so it cannot be the tight reference.
+    """
+    got = run_probe([(c[0], c[1]) for c in cases])
+    bad = []
+    for (name, args, frozen, tail), x in zip(cases, got):
+        p = args[0]
+        upper = p > 0.5
+        achieved = float(tail(mpmath.mpf(x), upper))
+        wanted = 1 - p if upper else p
+        allowance = rtol_p * wanted + frozen.pdf(x) * abs(x) * 4.5e-16
+        if not abs(achieved - wanted) <= allowance:
+            bad.append(f"{name}{tuple(args)} = {x!r}: tail there {achieved!r}, want {wanted!r}")
+        if not np.isclose(x, frozen.ppf(p), rtol=rtol_x, atol=1e-15):
+            bad.append(f"{name}{tuple(args)} = {x!r}: scipy ppf {frozen.ppf(p)!r}")
+    assert not bad, "\n".join(bad[:20])
+
+
+mpmath.mp.dps = 40
+
+
+def mp_norm(x, upper):
+    return mpmath.ncdf(-x) if upper else mpmath.ncdf(x)
+
+
+def mp_t(dof):
+    nu = mpmath.mpf(dof)
+
+    def tail(x, upper):
+        t = -x if upper else x  # P(T > x) = P(T < -x)
+        half = mpmath.betainc(nu / 2, mpmath.mpf(1) / 2, 0, nu / (nu + t * t), regularized=True) / 2
+        return half if t < 0 else 1 - half
+    return tail
+
+
+def mp_gamma(shape, rate):
+    a = mpmath.mpf(shape)
+    return lambda x, upper: mpmath.gammainc(a, x * rate, mpmath.inf if upper else 0, regularized=True) \
+        if upper else mpmath.gammainc(a, 0, x * rate, regularized=True)
+
+
+def mp_beta(a, b):
+    a, b = mpmath.mpf(a), mpmath.mpf(b)
+    return lambda x, upper: mpmath.betainc(a, b, x, 1, regularized=True) if upper \
+        else mpmath.betainc(a, b, 0, x, regularized=True)
+
+
+PS = [1e-10, 1e-6, 0.001, 0.025, 0.05, 0.3, 0.5, 0.7, 0.95, 0.975, 0.999, 1 - 1e-6]
+
+
+def test_special_functions_match_scipy_special():
+    cases = []
+    for a in [1e-3, 0.1, 0.5, 1, 2.5, 7, 30, 123.4, 1e4, 1e6]:
+        cases.append(("lgamma", [a], special.gammaln(a)))
+        cases.append(("digamma", [a], special.digamma(a)))
+        cases.append(("trigamma", [a], special.polygamma(1, a)))
+        for x in [1e-3, 0.3, 1, 2, 5, 20, 100, 1e4, 1e6]:
+            cases.append(("gammainc", [a, x], special.gammainc(a, x)))
+            cases.append(("gammaincc", [a, x], special.gammaincc(a, x)))
+    for a in [0.2, 0.5, 1, 3, 20, 500, 1e5]:
+        for b in [0.3, 1, 4, 50, 2e4]:
+            for x in [1e-4, 0.01, 0.2, 0.5, 0.8, 0.99, 0.9999]:
+                cases.append(("betainc", [a, b, x], special.betainc(a, b, x)))
+    # relative 1e-11, absolute 1e-300 for underflowed tails; the incomplete beta with a parameter of
+    # 1e4 or more is judged by mpmath's 40-digit value instead (Debian's scipy 1.10 betainc is off
+    # by up to 1e-10 relative there, e.g. betainc(1e5, 0.3, 0.9999))
+    # (mpmath's series does not converge when both parameters are 1e4 or more: scipy at 1e-9 there)
+    large = [c for c in cases if c[0] == "betainc" and max(c[1][:2]) >= 1e4]
+    both_large = [c for c in large if min(c[1][:2]) >= 1e4]
+    check([c for c in cases if c not in large], rtol=1e-11, atol=1e-300)
+    check(both_large, rtol=1e-9, atol=1e-300)
+    mpmath.mp.dps = 40
+    check([(n, a, float(mpmath.betainc(a[0], a[1], 0, mpmath.mpf(a[2]), regularized=True)))
+           for n, a, _ in large if (n, a, _) not in both_large], rtol=1e-11, atol=1e-300)
+
+
+def test_normal_matches_scipy_stats():
+    check_quantiles([("norm_ppf", [p], stats.norm, mp_norm) for p in PS])
+    cases = [("norm_cdf", [z], stats.norm.cdf(z)) for z in [-30, -8, -2, 0, 0.5, 3]]
+    cases += [("norm_sf", [z], stats.norm.sf(z)) for z in [-3, 0, 2, 8, 30]]
+    cases += [("norm_logpdf", [x, 1.5, 0.2], stats.norm.logpdf(x, 1.5, 0.2)) for x in [-1, 1.5, 4]]
+    check(cases, rtol=1e-12)
+
+
+def test_student_t_matches_scipy_stats():
+    check_quantiles([("t_ppf", [p, dof], stats.t(dof), mp_t(dof)) for dof in [1, 2, 3.5, 10, 57, 1000] for p in PS])
+    # dof 1e6: the incomplete beta continued fraction near its crossover leaves about 4e-11 in p
+    check_quantiles([("t_ppf", [p, 1e6], stats.t(1e6), mp_t(1e6)) for p in PS], rtol_p=1e-10)
+    cases = []
+    for dof in [1, 2, 3.5, 10, 57, 1000, 1e6]:
+        for t in [-50, -3, -0.1, 0, 0.7, 2, 12]:
+            cases.append(("t_cdf", [t, dof], stats.t.cdf(t, dof)))
+            cases.append(("t_logpdf", [t, dof], stats.t.logpdf(t, dof)))
+    check(cases, rtol=1e-10)
+
+
+def test_gamma_and_chi_squared_match_scipy_stats():
+    shapes, rates = [0.05, 0.5, 1, 2.5, 40, 1e4, 1e6], [0.01, 1, 250]
+    check_quantiles([("gamma_ppf", [p, a, r], stats.gamma(a, scale=1 / r), mp_gamma(a, r)) for a in shapes for r in rates for p in PS])
+    check_quantiles([("chi2_ppf", [p, k], stats.chi2(k), mp_gamma(k / 2, 0.5)) for k in [1, 3, 10, 200] for p in PS])
+    cases = []
+    for shape in shapes:
+        for rate in rates:
+            for x in [1e-3, 0.5, 2, 40]:
+                x = x * shape / rate
+                cases.append(("gamma_cdf", [x, shape, rate], stats.gamma.cdf(x, shape, scale=1 / rate)))
+                cases.append(("gamma_logpdf", [x, shape, rate], stats.gamma.logpdf(x, shape, scale=1 / rate)))
+    for k in [1, 3, 10, 200]:
+        cases.append(("chi2_cdf", [k * 1.3, k], stats.chi2.cdf(k * 1.3, k)))
+    check(cases, rtol=1e-10, atol=1e-300)
+
+
+def test_beta_matches_scipy_stats():
+    As, Bs = [0.3, 1, 2, 15, 400, 1e5], [0.5, 1, 7, 300, 3e4]
+    check_quantiles([("beta_ppf", [p, a, b], stats.beta(a, b), mp_beta(a, b))
+                     for a in As for b in Bs for p in PS if min(a, b) < 1e4], rtol_p=2e-11)
+    # both parameters >= 1e4: mpmath's series does not converge; scipy's cdf at 1e-9 instead
+    check_quantiles([("beta_ppf", [p, 1e5, 3e4], stats.beta(1e5, 3e4),
+                      lambda x, upper: stats.beta(1e5, 3e4).sf(float(x)) if upper else stats.beta(1e5, 3e4).cdf(float(x)))
+                     for p in PS], rtol_p=1e-9)
+    cases = []
+    for a in As:
+        for b in Bs:
+            for x in [0.001, 0.1, 0.5, 0.9]:
+                cases.append(("beta_cdf", [x, a, b], stats.beta.cdf(x, a, b)))
+                cases.append(("beta_logpdf", [x, a, b], stats.beta.logpdf(x, a, b)))
+    check(cases, rtol=1e-9, atol=1e-300)
+
+
+def test_discrete_log_masses_match_scipy_stats():
+    cases = []
+    for mean in [0.1, 3, 250]:
+        for y in [0, 1, 5, 300]:
+            cases.append(("poisson_logpmf", [y, mean], stats.poisson.logpmf(y, mean)))
+    for n in [1, 10, 1000]:
+        for p in [0.01, 0.5, 0.97]:
+            for y in sorted({0, 1, n // 2, n}):
+                cases.append(("binom_logpmf", [y, n, p], stats.binom.logpmf(y, n, p)))
+    check(cases, rtol=1e-12)
