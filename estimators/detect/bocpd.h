@@ -1,0 +1,133 @@
+// Bayesian online changepoint detection (Adams & MacKay 2007, arXiv:0710.3742) over a conjugate
+// observation model, with a constant hazard and bounded run-length storage.
+//
+// Run length r_t = number of observations of the current segment BEFORE x_t (A&M's convention:
+// r_t = 0 means x_t is the first observation after a change). Segments are independent draws of
+// the model parameter from the prior; a new segment starts before each observation with
+// probability H (`hazard`). With pi_t(r) = p(x_t | the r observations x_{t-r..t-1} of that run)
+// the one-step predictive under run length r (the prior predictive for r = 0):
+//   P(r_t = r + 1, x_{1:t}) = (1 - H) pi_t(r + 1) P(r_{t-1} = r, x_{1:t-1})     (growth)
+//   P(r_t = 0,     x_{1:t}) =  H pi_t(0) sum_r P(r_{t-1} = r, x_{1:t-1})        (change)
+// (pi_t(r + 1) uses the run's stats before x_t; pi_t(0) the prior), then normalised. The first
+// observation has r_1 = 0 with probability 1. Per run the stats are the posterior parameters:
+//   kNormalGamma  (y real)    : (mu, kappa, a, b);  y | m, tau ~ N(m, 1/tau),
+//        m | tau ~ N(mu, 1/(kappa tau)), tau ~ Gamma(a, b); predictive Student t with 2a dof,
+//        location mu, scale^2 = b (kappa + 1) / (a kappa);
+//        update mu' = (kappa mu + y)/(kappa + 1), kappa' = kappa + 1, a' = a + 1/2,
+//        b' = b + kappa (y - mu)^2 / (2 (kappa + 1)).
+//   kGammaPoisson (y counts, exposure e) : (a, b); y | rate ~ Poisson(rate e), rate ~ Gamma(a, b);
+//        predictive negative binomial log p = lnG(a+y) - lnG(a) - lnG(y+1) + a ln(b/(b+e))
+//        + y ln(e/(b+e)); update a' = a + y, b' = b + e.
+//   kBetaBinomial (y successes of n = trials) : (a, b); predictive beta-binomial
+//        log p = ln C(n, y) + ln B(a + y, b + n - y) - ln B(a, b); update a' = a + y, b' = b + n - y.
+//
+// Pruning and its bound. After each update, run lengths whose posterior mass is below
+// `prune_epsilon` are dropped (never the most probable one), then, if more than
+// `max_run_lengths` remain, the least probable are dropped until `max_run_lengths` remain; the
+// retained masses are renormalised. Mass discarded at one step is < K * prune_epsilon (K retained
+// before pruning, K <= max_run_lengths + 1) plus, for the cap, at most d / (C + d) when the d
+// least probable of C + d candidates are dropped (C = max_run_lengths; normally d = 1, so at most
+// 1 / (C + 1), and in practice the mass of a run length near the cap is far smaller). The exact discarded mass is added up in State::discarded_mass. With
+// prune_epsilon = 0 and max_run_lengths >= the number of observations the recursion is exact.
+// Cost per observation is O(max_run_lengths); storage is allocated once at construction.
+//
+// Alarm. statistic = P(the current segment started within the last `window` (m) observations and
+// is not the origin segment | x_{1:t}) = sum over retained runs with r_t < m of P(r_t | x_{1:t}),
+// excluding the origin run (the run that began at the first observation, or the run kept at the
+// last alarm). raised when statistic >= `threshold` (while no alarm is active and not in hold-off).
+// On raise the posterior collapses onto the most probable run with r_t < m (the MAP change
+// point; that run becomes the new origin) and the next `holdoff` observations update the
+// posterior but cannot clear or raise. cleared on the first observation after the hold-off at
+// which statistic < threshold. A change inside the hold-off or while the alarm is active is folded
+// into the current alarm. onset_seq / onset_time of a raised event = the ObservationMark of the
+// first observation of the MAP-change-point run (= seq - r when sequence numbers are contiguous);
+// shift = posterior mean of the model parameter (mean, rate or probability) in that run minus the
+// one in the most probable retained run that started before the window (NaN if none).
+// map_run_length() is the overall MAP run length after the last update.
+//
+// Thread safety: none. No heap allocation in Update() after construction (except a rejection's
+// message).
+#pragma once
+
+#include <array>
+#include <cstdint>
+#include <vector>
+
+#include "estimators/core/sample.h"
+#include "estimators/core/state_codec.h"
+#include "estimators/core/status.h"
+#include "estimators/detect/alarm.h"
+
+namespace bayline::est {
+
+enum class BocpdModel : std::uint8_t { kNormalGamma = 0, kGammaPoisson = 1, kBetaBinomial = 2 };
+
+class Bocpd {
+ public:
+  struct Options {
+    BocpdModel model = BocpdModel::kNormalGamma;
+    // Prior of every new segment (all > 0 and finite except prior_mean, which is finite).
+    double prior_mean = 0.0;   // normal-gamma mu0
+    double prior_kappa = 1.0;  // normal-gamma kappa0
+    double prior_shape = 1.0;  // normal-gamma a0 (precision shape) or gamma-poisson a0
+    double prior_rate = 1.0;   // normal-gamma b0 (precision rate) or gamma-poisson b0
+    double prior_alpha = 1.0;  // beta-binomial a0
+    double prior_beta = 1.0;   // beta-binomial b0
+    double hazard = 0.01;            // H in (0, 1): prior probability of a change per observation
+    double prune_epsilon = 1e-10;    // in [0, 1): drop run lengths with posterior mass below it
+    int max_run_lengths = 1000;      // >= 2: cap on retained run lengths (storage is cap + 1)
+    int window = 5;                  // m >= 1: "change within the last m observations"
+    double threshold = 0.5;          // in (0, 1]
+    int holdoff = 0;                 // >= 0 observations after a raise
+    Status Validate() const;         // ok or kInvalidConfig naming the field
+  };
+
+  // One retained run-length hypothesis.
+  struct Run {
+    double length = 0;     // r_t
+    double log_mass = 0;   // log P(r_t | x_{1:t}) (normalised over the retained runs)
+    double start_seq = -1;              // mark of the run's first observation
+    double start_time = 0;              // NaN when untimed
+    std::array<double, 4> stats{};      // posterior parameters, see the header comment
+  };
+
+  struct State {
+    double count = 0;            // observations absorbed
+    double origin_start = 0;     // absolute index (0-based count) of the origin run's first obs
+    bool alarm_active = false;
+    double holdoff_left = 0;
+    double discarded_mass = 0;   // total posterior mass dropped by pruning so far
+    std::vector<Run> runs;       // ordered by decreasing length; empty before the first obs
+    void Pack(StateWriter& w) const;
+    Status Unpack(StateReader& r);  // kInvalidState on a short / long / malformed input
+  };
+
+  // Precondition: options.Validate().ok() (asserted). Reserves max_run_lengths + 1 runs.
+  explicit Bocpd(const Options& options);
+
+  // Absorbs one observation and returns the event. Input by model: normal-gamma y (x empty);
+  // gamma-poisson y = count (integer >= 0) in `exposure` > 0; beta-binomial y successes (integer)
+  // of `trials` (integer >= 1), y <= trials. weight must be 1 (BOCPD has no weighted form here).
+  // Rejections (nothing changes, *event untouched): CheckCommonFields -> its code; kOutOfDomain
+  // for the domain rules above; kInvalidWeight for weight != 1; kNumericalFailure if the
+  // posterior would be non-finite.
+  Status Update(const Sample& s, const ObservationMark& mark, DetectorEvent* event);
+
+  // Most probable run length now (-1 before the first observation).
+  std::int64_t map_run_length() const;
+  // P(r_t = r | x_{1:t}) for run length r (0 when r is not retained).
+  double RunLengthProbability(std::int64_t r) const;
+
+  const Options& options() const { return options_; }
+  const State& state() const { return state_; }
+  // Validates (runs <= max_run_lengths, lengths strictly decreasing and < count, finite masses and
+  // stats in their domains, holdoff_left >= 0), then replaces; kInvalidState otherwise.
+  Status Restore(const State& s);
+
+ private:
+  Options options_;
+  State state_;
+  std::vector<double> scratch_;  // preallocated: new log masses / selection buffer
+};
+
+}  // namespace bayline::est
