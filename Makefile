@@ -23,7 +23,7 @@ deps:
 	fi
 
 configure: deps
-	@cmake -S . -B $(BUILD) -G Ninja -DCMAKE_BUILD_TYPE=$(BUILD_TYPE) >/dev/null
+	@cmake -S . -B $(BUILD) -G Ninja -DCMAKE_BUILD_TYPE=$(BUILD_TYPE) -DBAYLINE_STRICT=ON >/dev/null
 
 build: configure
 	cmake --build $(BUILD) -j $(JOBS)
