@@ -95,10 +95,19 @@ class DynamicLinearModel {
   Status Restore(const State& s);
 
  private:
+  static constexpr int kAug = (P == Eigen::Dynamic) ? Eigen::Dynamic : P + 1;
+  using AugMatrix = Eigen::Matrix<double, kAug, kAug>;
+  using AugRow = Eigen::Matrix<double, 1, kAug>;
+
   Options options_;
   int p_;
   Vector sqrt_w_;  // sqrt(diag W)
   State state_;
+  // Scratch for Update, preallocated (no heap use when p is dynamic).
+  Matrix u_work_;
+  Vector ux_;
+  AugMatrix array_;
+  AugRow row_;
 };
 
 }  // namespace bayline::est

@@ -145,9 +145,15 @@ class NigRegression {
  private:
   Options options_;
   int p_;
+  using AugRow = Eigen::Matrix<double, 1, kAug>;
+  // Lambda = R'R has full rank: every diagonal of R is a positive fraction of its column's norm.
+  static bool FullRank(const AugMatrix& F, int p);
+
   AugMatrix prior_factor_;  // F0
   double prior_a_;          // a0 (or -p/2 for the flat prior)
   State state_;
+  AugMatrix work_;          // scratch for Update (preallocated: no heap use when p is dynamic)
+  AugRow row_;
 };
 
 }  // namespace bayline::est

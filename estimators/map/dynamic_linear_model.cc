@@ -1,0 +1,241 @@
+#include "estimators/map/dynamic_linear_model.h"
+
+#include <cassert>
+#include <cmath>
+#include <numbers>
+#include <string>
+
+#include "estimators/core/distributions.h"
+#include "estimators/map/posterior_util.h"
+
+namespace bayline::est {
+
+using map_internal::AbsorbRow;
+
+namespace {
+constexpr int kMaxP = 10000;
+}  // namespace
+
+template <int P>
+Status DynamicLinearModel<P>::Options::Validate() const {
+  if (p < 1 || p > kMaxP || (P != Eigen::Dynamic && p != P)) {
+    return map_internal::Config("p = " + std::to_string(p) + " does not fit this model");
+  }
+  const auto n = static_cast<std::size_t>(p);
+  if (!(obs_variance > 0) || !std::isfinite(obs_variance)) {
+    return map_internal::Config("obs_variance must be > 0 and finite");
+  }
+  if (!state_variance.empty() && state_variance.size() != n) {
+    return map_internal::Config("state_variance must have p entries");
+  }
+  for (double v : state_variance) {
+    if (!(v >= 0) || !std::isfinite(v)) {
+      return map_internal::Config("state_variance entries must be >= 0 and finite");
+    }
+  }
+  if (diffuse) {
+    if (!(diffuse_variance > 0) || !std::isfinite(diffuse_variance)) {
+      return map_internal::Config("diffuse_variance must be > 0 and finite");
+    }
+  } else {
+    if (!initial_mean.empty() && initial_mean.size() != n) {
+      return map_internal::Config("initial_mean must have p entries");
+    }
+    for (double v : initial_mean) {
+      if (!std::isfinite(v)) return map_internal::Config("initial_mean has a non-finite entry");
+    }
+    if (initial_variance.size() != n) {
+      return map_internal::Config("initial_variance must have p entries");
+    }
+    for (double v : initial_variance) {
+      if (!(v > 0) || !std::isfinite(v)) {
+        return map_internal::Config("initial_variance entries must be > 0 and finite");
+      }
+    }
+  }
+  return Status::Ok();
+}
+
+template <int P>
+DynamicLinearModel<P>::DynamicLinearModel(const Options& options)
+    : options_(options), p_(options.p) {
+  assert(options.Validate().ok());
+  sqrt_w_.setZero(p_);
+  for (int i = 0; i < p_ && !options_.state_variance.empty(); ++i) {
+    sqrt_w_(i) = std::sqrt(options_.state_variance[i]);
+  }
+  state_.m.setZero(p_);
+  state_.U.setZero(p_, p_);
+  for (int i = 0; i < p_; ++i) {
+    if (options_.diffuse) {
+      state_.U(i, i) = std::sqrt(options_.diffuse_variance);
+    } else {
+      state_.U(i, i) = std::sqrt(options_.initial_variance[i]);
+      if (!options_.initial_mean.empty()) state_.m(i) = options_.initial_mean[i];
+    }
+  }
+  u_work_.resize(p_, p_);
+  ux_.resize(p_);
+  array_.resize(p_ + 1, p_ + 1);
+  row_.resize(p_ + 1);
+}
+
+template <int P>
+Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
+  if (Status st = CheckCommonFields(s, static_cast<std::size_t>(p_)); !st.ok()) return st;
+  u_work_ = state_.U;
+  // Drift: R = C + W, the rows sqrt(W_ii) e_i absorbed into C's factor.
+  if (state_.count > 0) {
+    for (int i = 0; i < p_; ++i) {
+      if (sqrt_w_(i) == 0.0) continue;
+      auto r = row_.head(p_);
+      r.setZero();
+      r(i) = sqrt_w_(i);
+      AbsorbRow(u_work_, r, i);
+    }
+  }
+  // Measurement update by triangularising [[sqrt(V/w), 0], [U_R x, U_R]].
+  double f = 0;
+  for (int i = 0; i < p_; ++i) {
+    ux_(i) = 0;
+    f += s.x[i] * state_.m(i);
+  }
+  for (int i = 0; i < p_; ++i) {
+    for (int j = i; j < p_; ++j) ux_(i) += u_work_(i, j) * s.x[j];
+  }
+  array_.setZero();
+  array_(0, 0) = std::sqrt(options_.obs_variance / s.weight);
+  for (int i = 0; i < p_; ++i) {
+    row_(0) = ux_(i);
+    row_.tail(p_) = u_work_.row(i);
+    AbsorbRow(array_, row_, 0);
+  }
+  const double sq = array_(0, 0), Q = sq * sq, e = s.y - f;
+  if (!(sq > 0) || !array_.allFinite()) return map_internal::Numerical("Kalman update not finite");
+
+  Innovation inn;
+  inn.valid = true;
+  inn.prediction = f;
+  inn.residual = e;
+  inn.predictive_sd = sq;
+  inn.standardized = e / sq;
+  inn.log_predictive = -0.5 * std::log(2 * std::numbers::pi * Q) - 0.5 * inn.standardized *
+                                                                         inn.standardized;
+  const double ll = state_.log_likelihood + inn.log_predictive;
+  if (!std::isfinite(ll)) return map_internal::Numerical("log-likelihood not finite");
+
+  // m += K e with K = k / sqrt(Q), k' = array_(0, 1:).
+  for (int i = 0; i < p_; ++i) state_.m(i) += array_(0, i + 1) / sq * e;
+  state_.U = array_.bottomRightCorner(p_, p_);
+  state_.log_likelihood = ll;
+  state_.effective_n += s.weight;
+  state_.count += 1;
+  if (out) *out = inn;
+  return Status::Ok();
+}
+
+template <int P>
+typename DynamicLinearModel<P>::Matrix DynamicLinearModel<P>::covariance() const {
+  return state_.U.transpose() * state_.U;
+}
+
+template <int P>
+ParameterReport DynamicLinearModel<P>::Report(double level) const {
+  ParameterReport r;
+  const auto n = static_cast<std::size_t>(p_);
+  r.value.resize(n);
+  r.posterior_mean.resize(n);
+  r.std_error.resize(n);
+  r.lower.resize(n);
+  r.upper.resize(n);
+  const double zq = map_internal::LevelOk(level) ? dist::NormalQuantile(0.5 + 0.5 * level) : kNaN;
+  for (int j = 0; j < p_; ++j) {
+    const double sd = state_.U.col(j).norm();
+    r.value[j] = r.posterior_mean[j] = state_.m(j);
+    r.std_error[j] = sd;
+    r.lower[j] = state_.m(j) - zq * sd;
+    r.upper[j] = state_.m(j) + zq * sd;
+  }
+  r.level = level;
+  r.identifiable = true;
+  r.effective_n = state_.effective_n;
+  r.log_likelihood = state_.log_likelihood;
+  return r;
+}
+
+template <int P>
+Prediction DynamicLinearModel<P>::Predict(std::span<const double> x, double level) const {
+  Prediction pr;
+  pr.level = level;
+  if (x.size() != static_cast<std::size_t>(p_) || !map_internal::LevelOk(level)) return pr;
+  Vector xv = Vector::Zero(p_);
+  for (int i = 0; i < p_; ++i) {
+    if (!std::isfinite(x[i])) return pr;
+    xv(i) = x[i];
+  }
+  const double q = (state_.U * xv).squaredNorm();
+  const double zq = dist::NormalQuantile(0.5 + 0.5 * level);
+  pr.mean = xv.dot(state_.m);
+  pr.mean_sd = std::sqrt(q);
+  pr.sd = std::sqrt(q + options_.obs_variance);
+  pr.lower = pr.mean - zq * pr.sd;
+  pr.upper = pr.mean + zq * pr.sd;
+  pr.valid = std::isfinite(pr.mean) && std::isfinite(pr.sd);
+  return pr;
+}
+
+template <int P>
+void DynamicLinearModel<P>::State::Pack(StateWriter& w) const {
+  w.Put(static_cast<double>(m.size()));
+  w.Put(m);
+  w.Put(U);
+  w.Put(log_likelihood);
+  w.Put(effective_n);
+  w.Put(count);
+}
+
+template <int P>
+Status DynamicLinearModel<P>::State::Unpack(StateReader& r) {
+  double pd = 0;
+  if (!r.Get(pd)) return r.status();
+  if (!(pd >= 1 && pd <= kMaxP) || pd != std::floor(pd) || (P != Eigen::Dynamic && pd != P)) {
+    return map_internal::BadState("dynamic linear model state has p = " + std::to_string(pd));
+  }
+  const int n = static_cast<int>(pd);
+  m.resize(n);
+  U.resize(n, n);
+  r.Get(m);
+  r.Get(U);
+  r.Get(log_likelihood);
+  r.Get(effective_n);
+  r.Get(count);
+  return r.status();
+}
+
+template <int P>
+Status DynamicLinearModel<P>::Restore(const State& s) {
+  if (s.m.size() != p_ || s.U.rows() != p_ || s.U.cols() != p_) {
+    return map_internal::BadState("dynamic linear model state has the wrong size");
+  }
+  if (!s.m.allFinite() || !s.U.allFinite()) return map_internal::BadState("state not finite");
+  for (int j = 0; j < p_; ++j) {
+    if (s.U(j, j) < 0) return map_internal::BadState("factor has a negative diagonal");
+    for (int i = j + 1; i < p_; ++i) {
+      if (s.U(i, j) != 0) return map_internal::BadState("factor is not upper triangular");
+    }
+  }
+  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_likelihood, s.count, kNaN);
+      !st.ok()) {
+    return st;
+  }
+  state_ = s;
+  return Status::Ok();
+}
+
+template class DynamicLinearModel<1>;
+template class DynamicLinearModel<2>;
+template class DynamicLinearModel<3>;
+template class DynamicLinearModel<4>;
+template class DynamicLinearModel<Eigen::Dynamic>;
+
+}  // namespace bayline::est

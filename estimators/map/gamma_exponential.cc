@@ -1,0 +1,99 @@
+#include "estimators/map/gamma_exponential.h"
+
+#include <cassert>
+#include <cmath>
+
+#include "estimators/core/distributions.h"
+#include "estimators/map/posterior_util.h"
+
+namespace bayline::est {
+
+using map_internal::kInf;
+
+Status GammaExponential::Options::Validate() const {
+  if (!(a0 > 0) || !std::isfinite(a0)) return map_internal::Config("a0 must be > 0 and finite");
+  if (!(b0 > 0) || !std::isfinite(b0)) return map_internal::Config("b0 must be > 0 and finite");
+  return discount.Validate();
+}
+
+GammaExponential::GammaExponential(const Options& options) : options_(options) {
+  assert(options.Validate().ok());
+  state_.a = options_.a0;
+  state_.b = options_.b0;
+}
+
+Status GammaExponential::Update(const Sample& s, Innovation* out) {
+  if (Status st = CheckCommonFields(s, 0); !st.ok()) return st;
+  if (!(s.y > 0)) return map_internal::Domain("y must be > 0, got " + std::to_string(s.y));
+  const double y = s.y;
+  const double delta = ForgettingFactor(options_.discount, s.time, state_.last_time);
+  double a = state_.a, b = state_.b;
+  if (delta < 1.0) {
+    a = delta * a + (1.0 - delta) * options_.a0;
+    b = delta * b + (1.0 - delta) * options_.b0;
+  }
+  // Lomax(a, b): log S(y) = -a log1p(y / b); density a / b (1 + y / b)^-(a+1).
+  const double l1p = std::log1p(y / b);
+  const double log_sf = -a * l1p;
+  const double sf = std::exp(log_sf), cdf = -std::expm1(log_sf);
+  Innovation inn;
+  inn.valid = true;
+  inn.prediction = a > 1 ? b / (a - 1) : kInf;
+  inn.residual = a > 1 ? y - inn.prediction : kNaN;
+  inn.predictive_sd = a > 2 ? b / (a - 1) * std::sqrt(a / (a - 2)) : kInf;
+  inn.standardized = map_internal::NormalScoreFromTails(cdf, sf);
+  inn.log_predictive = s.weight * (std::log(a) - std::log(b) - (a + 1) * l1p);
+
+  const double a_new = a + s.weight, b_new = b + s.weight * y;
+  if (!std::isfinite(inn.log_predictive) || !std::isfinite(inn.standardized) ||
+      !std::isfinite(a_new) || !std::isfinite(b_new)) {
+    return map_internal::Numerical("gamma-exponential update not finite");
+  }
+  state_.a = a_new, state_.b = b_new;
+  state_.effective_n = delta * state_.effective_n + s.weight;
+  state_.log_marginal += inn.log_predictive;
+  state_.count += 1;
+  if (!std::isnan(s.time)) state_.last_time = s.time;
+  if (out) *out = inn;
+  return Status::Ok();
+}
+
+ParameterReport GammaExponential::Report(double level) const {
+  ParameterReport r;
+  const double a = state_.a, b = state_.b;
+  const bool ok = map_internal::LevelOk(level);
+  r.value = {a >= 1 ? (a - 1) / b : 0.0};
+  r.posterior_mean = {a / b};
+  r.std_error = {std::sqrt(a) / b};
+  r.lower = {ok ? dist::GammaQuantile(0.5 - 0.5 * level, a, b) : kNaN};
+  r.upper = {ok ? dist::GammaQuantile(0.5 + 0.5 * level, a, b) : kNaN};
+  r.level = level;
+  r.identifiable = true;
+  r.effective_n = state_.effective_n;
+  r.log_likelihood = state_.log_marginal;
+  return r;
+}
+
+void GammaExponential::State::Pack(StateWriter& w) const {
+  for (double v : {a, b, effective_n, log_marginal, count, last_time}) w.Put(v);
+}
+
+Status GammaExponential::State::Unpack(StateReader& r) {
+  for (double* v : {&a, &b, &effective_n, &log_marginal, &count, &last_time}) r.Get(*v);
+  return r.status();
+}
+
+Status GammaExponential::Restore(const State& s) {
+  if (!(s.a > 0) || !std::isfinite(s.a) || !(s.b > 0) || !std::isfinite(s.b)) {
+    return map_internal::BadState("gamma parameters must be > 0 and finite");
+  }
+  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count,
+                                                 s.last_time);
+      !st.ok()) {
+    return st;
+  }
+  state_ = s;
+  return Status::Ok();
+}
+
+}  // namespace bayline::est

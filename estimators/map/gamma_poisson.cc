@@ -1,0 +1,105 @@
+#include "estimators/map/gamma_poisson.h"
+
+#include <cassert>
+#include <cmath>
+
+#include "estimators/core/distributions.h"
+#include "estimators/core/special_functions.h"
+#include "estimators/map/posterior_util.h"
+
+namespace bayline::est {
+
+Status GammaPoisson::Options::Validate() const {
+  if (!(a0 > 0) || !std::isfinite(a0)) return map_internal::Config("a0 must be > 0 and finite");
+  if (!(b0 > 0) || !std::isfinite(b0)) return map_internal::Config("b0 must be > 0 and finite");
+  return discount.Validate();
+}
+
+GammaPoisson::GammaPoisson(const Options& options) : options_(options) {
+  assert(options.Validate().ok());
+  state_.a = options_.a0;
+  state_.b = options_.b0;
+}
+
+Status GammaPoisson::Update(const Sample& s, Innovation* out) {
+  if (Status st = CheckCommonFields(s, 0); !st.ok()) return st;
+  if (!map_internal::IsCount(s.y) || s.y < 0) {
+    return map_internal::Domain("count must be a non-negative integer, got " + std::to_string(s.y));
+  }
+  if (!(s.exposure > 0)) {
+    return map_internal::Domain("exposure must be > 0, got " + std::to_string(s.exposure));
+  }
+  const double y = std::round(s.y), e = s.exposure;
+  const double delta = ForgettingFactor(options_.discount, s.time, state_.last_time);
+  double a = state_.a, b = state_.b;
+  if (delta < 1.0) {
+    a = delta * a + (1.0 - delta) * options_.a0;
+    b = delta * b + (1.0 - delta) * options_.b0;
+  }
+  // Negative binomial: log P(y) = lgamma(a+y) - lgamma(a) - lgamma(y+1)
+  //                               + a log(b/(b+e)) + y log(e/(b+e)).
+  const double log_p = special::LogGamma(a + y) - special::LogGamma(a) -
+                       special::LogGamma(y + 1) - a * std::log1p(e / b) -
+                       (y > 0 ? y * std::log1p(b / e) : 0.0);
+  const double mean = a * e / b, var = a * e * (b + e) / (b * b);
+  Innovation inn;
+  inn.valid = true;
+  inn.prediction = mean;
+  inn.residual = y - mean;
+  inn.predictive_sd = std::sqrt(var);
+  inn.standardized = inn.residual / inn.predictive_sd;
+  inn.log_predictive = s.weight * log_p;
+
+  const double a_new = a + s.weight * y, b_new = b + s.weight * e;
+  if (!std::isfinite(inn.log_predictive) || !std::isfinite(inn.standardized) ||
+      !std::isfinite(a_new) || !std::isfinite(b_new)) {
+    return map_internal::Numerical("gamma-poisson update not finite");
+  }
+  state_.a = a_new, state_.b = b_new;
+  state_.effective_n = delta * state_.effective_n + s.weight;
+  state_.log_marginal += inn.log_predictive;
+  state_.count += 1;
+  if (!std::isnan(s.time)) state_.last_time = s.time;
+  if (out) *out = inn;
+  return Status::Ok();
+}
+
+ParameterReport GammaPoisson::Report(double level) const {
+  ParameterReport r;
+  const double a = state_.a, b = state_.b;
+  const bool ok = map_internal::LevelOk(level);
+  r.value = {a >= 1 ? (a - 1) / b : 0.0};
+  r.posterior_mean = {a / b};
+  r.std_error = {std::sqrt(a) / b};
+  r.lower = {ok ? dist::GammaQuantile(0.5 - 0.5 * level, a, b) : kNaN};
+  r.upper = {ok ? dist::GammaQuantile(0.5 + 0.5 * level, a, b) : kNaN};
+  r.level = level;
+  r.identifiable = true;
+  r.effective_n = state_.effective_n;
+  r.log_likelihood = state_.log_marginal;
+  return r;
+}
+
+void GammaPoisson::State::Pack(StateWriter& w) const {
+  for (double v : {a, b, effective_n, log_marginal, count, last_time}) w.Put(v);
+}
+
+Status GammaPoisson::State::Unpack(StateReader& r) {
+  for (double* v : {&a, &b, &effective_n, &log_marginal, &count, &last_time}) r.Get(*v);
+  return r.status();
+}
+
+Status GammaPoisson::Restore(const State& s) {
+  if (!(s.a > 0) || !std::isfinite(s.a) || !(s.b > 0) || !std::isfinite(s.b)) {
+    return map_internal::BadState("gamma parameters must be > 0 and finite");
+  }
+  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count,
+                                                 s.last_time);
+      !st.ok()) {
+    return st;
+  }
+  state_ = s;
+  return Status::Ok();
+}
+
+}  // namespace bayline::est
