@@ -1,0 +1,48 @@
+#include "estimators/ml/ml_common.h"
+
+#include "estimators/core/distributions.h"
+
+namespace bayline::est::ml_internal {
+
+double WaldZ(double level) {
+  if (!(level > 0.0 && level < 1.0)) return kNaN;
+  return dist::NormalQuantile(0.5 + 0.5 * level);
+}
+
+void FillWaldReport(std::span<const double> value, std::span<const double> std_error,
+                    bool identifiable, double level, ParameterReport* report) {
+  const std::size_t k = value.size();
+  report->level = level;
+  report->identifiable = identifiable;
+  report->value.assign(k, kNaN);
+  report->std_error.assign(k, kNaN);
+  report->lower.assign(k, kNaN);
+  report->upper.assign(k, kNaN);
+  report->posterior_mean.clear();
+  if (!identifiable) return;
+  const double z = WaldZ(level);
+  for (std::size_t i = 0; i < k; ++i) {
+    report->value[i] = value[i];
+    report->std_error[i] = std_error[i];
+    report->lower[i] = value[i] - z * std_error[i];
+    report->upper[i] = value[i] + z * std_error[i];
+  }
+}
+
+void FillInnovation(double y, double mean, double sd, double log_predictive, Innovation* out) {
+  out->prediction = mean;
+  out->residual = y - mean;
+  out->predictive_sd = sd;
+  out->standardized = (y - mean) / sd;
+  out->log_predictive = log_predictive;
+  out->valid = std::isfinite(mean) && std::isfinite(sd) && sd > 0.0 && std::isfinite(out->standardized) &&
+               !std::isnan(log_predictive);
+  if (!out->valid) *out = Innovation{};
+}
+
+Status CheckStoredTime(double last_time) {
+  if (std::isinf(last_time)) return Status::Error(ErrorCode::kInvalidState, "last time is infinite");
+  return Status::Ok();
+}
+
+}  // namespace bayline::est::ml_internal
