@@ -76,7 +76,7 @@ class Bocpd {
     double hazard = 0.01;            // H in (0, 1): prior probability of a change per observation
     double prune_epsilon = 1e-10;    // in [0, 1): drop run lengths with posterior mass below it
     int max_run_lengths = 1000;      // >= 2: cap on retained run lengths (storage is cap + 1)
-    int window = 5;                  // m >= 1: "change within the last m observations"
+    int window = 10;                 // m >= 1: "change within the last m observations"
     double threshold = 0.5;          // in (0, 1]
     int holdoff = 0;                 // >= 0 observations after a raise
     Status Validate() const;         // ok or kInvalidConfig naming the field
@@ -127,7 +127,8 @@ class Bocpd {
  private:
   Options options_;
   State state_;
-  std::vector<double> scratch_;  // preallocated: new log masses / selection buffer
+  std::vector<double> scratch_;     // preallocated: new log masses / selection buffer
+  std::vector<double> half_gamma_;  // normal-gamma: log G(a + 1/2) - log G(a) by observation count
 };
 
 }  // namespace bayline::est
