@@ -19,7 +19,7 @@
 //   asymptotic limits: a(v) = 1 + int a(u) K(u | v) du solved on the nodes; ARL = a(0). This is
 //     what R spc's xewma.arl(l, L, mu, sided = "two", limits = "fix") computes.
 //   exact (time-varying) limits: the density of the not-yet-stopped Z_i is propagated over the
-//     nodes of [-L sigma_i, L sigma_i] step by step until (1 - lambda)^(2 i) < 1e-10, then
+//     nodes of [-L sigma_i, L sigma_i] step by step until (1 - lambda)^(2 i) < 1e-6, then
 //     ARL = sum_{i<T} P(no alarm by i) + int f_T(v) a(v) dv with a() the fixed-limit solution. R spc
 //     calls these limits "vacl" (xewma.arl(..., limits = "vacl")).
 // A one-sided EWMA (kUp / kDown) is solved on [-(L + 4) sigma, L sigma]: the EWMA below the

@@ -5,8 +5,12 @@
 //   CUSUM: k = D / 2 (the optimal reference value for a shift D), h solves ARL(h; shift 0) = ARL0
 //          (arl.h, Markov chain). With a head start fraction f the head start is f h while solving.
 //   EWMA:  for each lambda, L(lambda) solves ARL(lambda, L; 0) = ARL0; lambda is the value in
-//          [0.02, 1] minimising ARL(lambda, L(lambda); D) (golden-section search on log lambda).
-//          The chart's `limits` (exact or asymptotic) are kept and used in every ARL.
+//          [0.02, 1] minimising ARL(lambda, L(lambda); D) (golden-section search on log lambda to
+//          3%, then rounded to two significant digits), both ARLs taken with asymptotic limits.
+//          (With exact limits the zero-state ARL at D keeps falling as lambda shrinks, because the
+//          narrow early limits catch a shift present from the start; a shift that arrives later
+//          meets the asymptotic limits, so they are the right yardstick for lambda.) L is then
+//          solved for the chart's own `limits`.
 //   Page-Hinkley: delta = D / 2; threshold by simulation (the record trick below).
 //   GLR:   window: kept if > 0, else W = clamp(round(8 ln(ARL0) / D^2), 10, 1000) (a few times
 //          the detection delay at D; our rule). Threshold by simulation.
