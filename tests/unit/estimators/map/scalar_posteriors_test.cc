@@ -222,7 +222,7 @@ TEST(GammaExponentialTest, NormalScoreIsStandardNormalUnderTheModel) {
       Innovation inn;
       ASSERT_TRUE(est.Update(s, &inn).ok());
       s1 += inn.standardized, s2 += inn.standardized * inn.standardized;
-      tail += std::fabs(inn.standardized) > 1.959963984540054;
+      tail += std::fabs(inn.standardized) > 1.959963984540054;  // z_0.975, from memory
       ++m;
     }
   }
