@@ -1,5 +1,6 @@
 # Unit tests of the model-based detectors (bocpd, recursive-residual tests, band).
 bayline_add_gtest(unit_detect_models
   SOURCES ${CMAKE_CURRENT_LIST_DIR}/bocpd_test.cc
+          ${CMAKE_CURRENT_LIST_DIR}/recursive_residual_tests_test.cc
   LIBS bayline_est_detect_models
   LABELS unit detect)
