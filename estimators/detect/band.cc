@@ -54,14 +54,15 @@ Status ToleranceBand::Update(const ParameterReport& report, const ObservationMar
   DetectorEvent ev;
   ev.threshold = 0;
   ev.direction = Direction::kBoth;
-  if (!report.identifiable) {
+  const double v = report.value[i], lower = report.lower[i], upper = report.upper[i];
+  // No interval yet (not identifiable, or no degrees of freedom for a standard error).
+  if (!report.identifiable || std::isnan(lower) || std::isnan(upper)) {
     if (state_.holdoff_left > 0) state_.holdoff_left -= 1;
     if (event) *event = ev;
     return Status::Ok();
   }
-  const double v = report.value[i], lower = report.lower[i], upper = report.upper[i];
-  if (!std::isfinite(v) || !std::isfinite(lower) || !std::isfinite(upper)) {
-    return Status::Error(ErrorCode::kNonFinite, "band parameter " + std::to_string(i) + " has a non-finite estimate or interval");
+  if (!std::isfinite(v)) {
+    return Status::Error(ErrorCode::kNonFinite, "band parameter " + std::to_string(i) + " estimate is " + std::to_string(v));
   }
   if (lower > upper) return Status::Error(ErrorCode::kOutOfDomain, "band interval has lower > upper");
 

@@ -15,8 +15,9 @@
 // Onset: the observation from which the point estimate report.value[i] has been outside [lo, hi]
 // without interruption (the current one if that is unknown); shift = value - nearest band edge
 // (signed, in the parameter's units).
-// A report with identifiable == false is "nothing yet": the event has statistic NaN, no raise, no
-// clear, and only the hold-off counter advances.
+// A report with identifiable == false, or with a NaN bound at the index (e.g. no degrees of freedom
+// for a standard error yet), is "nothing yet": the event has statistic NaN, no raise, no clear,
+// and only the hold-off counter advances. An infinite bound is a valid (unbounded) interval.
 //
 // Thread safety: none. No heap allocation in Update().
 #pragma once
@@ -52,8 +53,8 @@ class ToleranceBand {
   explicit ToleranceBand(const Options& options);  // precondition: Validate().ok() (asserted)
 
   // Rejections (nothing changes, *event untouched): kOutOfDomain when the report has no parameter
-  // `parameter`; kNonFinite when an identifiable report has a non-finite value, lower or upper at
-  // that index; kOutOfDomain when lower > upper.
+  // `parameter`; kNonFinite when a report with an interval has a non-finite value at that index;
+  // kOutOfDomain when lower > upper.
   Status Update(const ParameterReport& report, const ObservationMark& mark, DetectorEvent* event);
 
   const Options& options() const { return options_; }
