@@ -1,0 +1,144 @@
+#include "daemon/server/config_file.h"
+
+#include <google/protobuf/descriptor.h>
+#include <google/protobuf/io/coded_stream.h>
+#include <google/protobuf/io/tokenizer.h>
+#include <google/protobuf/io/zero_copy_stream_impl_lite.h>
+
+#include <cerrno>
+#include <cstring>
+#include <fstream>
+#include <sstream>
+
+namespace bayline::server {
+namespace {
+
+using google::protobuf::Descriptor;
+using google::protobuf::FieldDescriptor;
+using ParseInfoTree = google::protobuf::TextFormat::ParseInfoTree;
+
+class CollectErrors : public google::protobuf::io::ErrorCollector {
+ public:
+  explicit CollectErrors(std::string file) : file_(std::move(file)) {}
+  void AddError(int line, google::protobuf::io::ColumnNumber column,
+                const std::string& message) override {
+    Add(line, column, message);
+  }
+  void AddWarning(int line, google::protobuf::io::ColumnNumber column,
+                  const std::string& message) override {
+    Add(line, column, "warning: " + message);
+  }
+  const std::string& text() const { return text_; }
+
+ private:
+  void Add(int line, int column, const std::string& message) {
+    if (!text_.empty()) text_ += '\n';
+    text_ += file_ + ":" + std::to_string(line + 1) + ":" + std::to_string(column + 1) + ": " +
+             message;
+  }
+  std::string file_;
+  std::string text_;
+};
+
+// Splits "name[3]" into ("name", 3); a plain name gives index -1.
+std::pair<std::string, int> SplitIndex(std::string_view part) {
+  size_t open = part.find('[');
+  if (open == std::string_view::npos || part.back() != ']') return {std::string(part), -1};
+  int index = 0;
+  for (char c : part.substr(open + 1, part.size() - open - 2)) {
+    if (c < '0' || c > '9') return {std::string(part.substr(0, open)), -1};
+    index = index * 10 + (c - '0');
+  }
+  return {std::string(part.substr(0, open)), index};
+}
+
+}  // namespace
+
+FieldLocator::FieldLocator() : tree_(std::make_unique<ParseInfoTree>()) {}
+FieldLocator::~FieldLocator() = default;
+
+int FieldLocator::LineOf(std::string_view field_path) const {
+  const Descriptor* descriptor = bayline::v1::DaemonConfig::descriptor();
+  const ParseInfoTree* tree = tree_.get();
+  int best = 0;
+  while (!field_path.empty() && tree != nullptr && descriptor != nullptr) {
+    size_t dot = field_path.find('.');
+    std::string_view part = field_path.substr(0, dot);
+    field_path = dot == std::string_view::npos ? std::string_view() : field_path.substr(dot + 1);
+    auto [name, index] = SplitIndex(part);
+    const FieldDescriptor* field = descriptor->FindFieldByName(name);
+    if (field == nullptr) break;
+    if (field->is_repeated() && index < 0) index = 0;
+    if (!field->is_repeated()) index = -1;
+    auto location = tree->GetLocation(field, index);
+    if (location.line < 0) break;
+    best = location.line + 1;
+    if (field->cpp_type() != FieldDescriptor::CPPTYPE_MESSAGE) break;
+    tree = tree->GetTreeForNested(field, index);
+    descriptor = field->message_type();
+  }
+  return best;
+}
+
+bool ParseConfigFile(const std::filesystem::path& path, bayline::v1::DaemonConfig* out,
+                     FieldLocator* locator, std::string* error) {
+  out->Clear();
+  std::ifstream in(path, std::ios::binary);
+  if (!in) {
+    *error = path.string() + ": cannot open: " + std::strerror(errno);
+    return false;
+  }
+  std::ostringstream text;
+  text << in.rdbuf();
+  CollectErrors errors(path.string());
+  google::protobuf::TextFormat::Parser parser;
+  parser.RecordErrorsTo(&errors);
+  if (locator != nullptr) parser.WriteLocationsTo(locator->tree());
+  if (!parser.ParseFromString(text.str(), out)) {
+    *error = errors.text().empty() ? path.string() + ": parse error" : errors.text();
+    return false;
+  }
+  return true;
+}
+
+void MergeConfigOver(const bayline::v1::DaemonConfig& overlay, bayline::v1::DaemonConfig* base) {
+  const auto& oe = overlay.endpoints();
+  auto* be = base->mutable_endpoints();
+  if (oe.pull_bind_size() > 0) *be->mutable_pull_bind() = oe.pull_bind();
+  if (oe.sub_connect_size() > 0) *be->mutable_sub_connect() = oe.sub_connect();
+  if (!oe.publish_bind().empty()) be->set_publish_bind(oe.publish_bind());
+  if (!oe.control_bind().empty()) be->set_control_bind(oe.control_bind());
+  if (!overlay.state_dir().empty()) base->set_state_dir(overlay.state_dir());
+  if (overlay.snapshot_every_s() != 0) base->set_snapshot_every_s(overlay.snapshot_every_s());
+  if (overlay.workers() != 0) base->set_workers(overlay.workers());
+  const auto& ol = overlay.limits();
+  auto* bl = base->mutable_limits();
+  if (ol.max_channels() != 0) bl->set_max_channels(ol.max_channels());
+  if (ol.max_channel_name_bytes() != 0) bl->set_max_channel_name_bytes(ol.max_channel_name_bytes());
+  if (ol.max_frame_bytes() != 0) bl->set_max_frame_bytes(ol.max_frame_bytes());
+  if (ol.max_regressors() != 0) bl->set_max_regressors(ol.max_regressors());
+  if (!overlay.log_level().empty()) base->set_log_level(overlay.log_level());
+  if (overlay.rules_size() > 0) *base->mutable_rules() = overlay.rules();
+  if (!overlay.shard().empty()) base->set_shard(overlay.shard());
+}
+
+uint64_t ConfigDigest(const bayline::v1::DaemonConfig& config) {
+  bayline::v1::DaemonConfig shaping;
+  *shaping.mutable_rules() = config.rules();
+  *shaping.mutable_limits() = config.limits();
+  std::string bytes;
+  {
+    google::protobuf::io::StringOutputStream stream(&bytes);
+    google::protobuf::io::CodedOutputStream coded(&stream);
+    coded.SetSerializationDeterministic(true);
+    shaping.SerializeToCodedStream(&coded);
+  }
+  uint64_t h = 0xcbf29ce484222325ull;
+  for (unsigned char c : bytes) {
+    h ^= c;
+    h *= 0x100000001b3ull;
+  }
+  return h;
+}
+
+}  // namespace bayline::server

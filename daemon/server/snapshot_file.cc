@@ -1,0 +1,246 @@
+#include "daemon/server/snapshot_file.h"
+
+#include <fcntl.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <cerrno>
+#include <cstring>
+#include <fstream>
+#include <sstream>
+#include <system_error>
+
+#include "daemon/server/crc32.h"
+
+namespace bayline::server {
+namespace {
+
+constexpr char kMagic[8] = {'B', 'A', 'Y', 'L', 'S', 'N', 'A', 'P'};
+constexpr std::string_view kPrefix = "snapshot-";
+constexpr std::string_view kSuffix = ".bls";
+constexpr std::string_view kTempSuffix = ".tmp";
+
+void PutU32(std::string& out, uint32_t v) {
+  for (int i = 0; i < 4; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
+}
+void PutU64(std::string& out, uint64_t v) {
+  for (int i = 0; i < 8; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
+}
+uint32_t GetU32(std::string_view in, size_t at) {
+  uint32_t v = 0;
+  for (int i = 0; i < 4; ++i) v |= uint32_t(static_cast<unsigned char>(in[at + i])) << (8 * i);
+  return v;
+}
+uint64_t GetU64(std::string_view in, size_t at) {
+  uint64_t v = 0;
+  for (int i = 0; i < 8; ++i) v |= uint64_t(static_cast<unsigned char>(in[at + i])) << (8 * i);
+  return v;
+}
+
+std::string ErrnoText(std::string_view step, const std::filesystem::path& path) {
+  return std::string(step) + " " + path.string() + ": " + std::strerror(errno);
+}
+
+// Generation number of a snapshot file name, or 0 when the name is not one of ours.
+uint64_t GenerationOf(const std::string& name) {
+  if (name.size() <= kPrefix.size() + kSuffix.size()) return 0;
+  if (name.compare(0, kPrefix.size(), kPrefix) != 0) return 0;
+  if (name.compare(name.size() - kSuffix.size(), kSuffix.size(), kSuffix) != 0) return 0;
+  std::string digits = name.substr(kPrefix.size(), name.size() - kPrefix.size() - kSuffix.size());
+  if (digits.empty() || digits.size() > 20) return 0;
+  uint64_t g = 0;
+  for (char c : digits) {
+    if (c < '0' || c > '9') return 0;
+    g = g * 10 + uint64_t(c - '0');
+  }
+  return g;
+}
+
+bool FsyncDirectory(const std::filesystem::path& dir, std::string* error) {
+  int fd = ::open(dir.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+  if (fd < 0) {
+    *error = ErrnoText("open directory", dir);
+    return false;
+  }
+  bool ok = ::fsync(fd) == 0;
+  if (!ok) *error = ErrnoText("fsync directory", dir);
+  ::close(fd);
+  return ok;
+}
+
+}  // namespace
+
+std::string EncodeSnapshotFile(std::string_view payload, uint64_t config_digest) {
+  std::string out;
+  out.reserve(kSnapshotHeaderBytes + payload.size());
+  out.append(kMagic, sizeof kMagic);
+  PutU32(out, kSnapshotFormatVersion);
+  PutU32(out, Crc32(payload));
+  PutU64(out, payload.size());
+  PutU64(out, config_digest);
+  PutU32(out, Crc32(std::string_view(out.data(), 32)));
+  PutU32(out, 0);
+  out.append(payload);
+  return out;
+}
+
+bool DecodeSnapshotFile(std::string_view bytes, SnapshotFileContents* out, std::string* error) {
+  if (bytes.size() < kSnapshotHeaderBytes) {
+    *error = "truncated header (" + std::to_string(bytes.size()) + " bytes)";
+    return false;
+  }
+  if (std::memcmp(bytes.data(), kMagic, sizeof kMagic) != 0) {
+    *error = "not a snapshot file (bad magic)";
+    return false;
+  }
+  if (GetU32(bytes, 32) != Crc32(bytes.substr(0, 32))) {
+    *error = "header checksum mismatch";
+    return false;
+  }
+  const uint32_t version = GetU32(bytes, 8);
+  if (version != kSnapshotFormatVersion) {
+    *error = "unsupported format version " + std::to_string(version);
+    return false;
+  }
+  const uint64_t length = GetU64(bytes, 16);
+  const uint64_t present = bytes.size() - kSnapshotHeaderBytes;
+  if (present != length) {
+    *error = (present < length ? "truncated payload: " : "trailing bytes after payload: ") +
+             std::to_string(present) + " bytes present, header says " + std::to_string(length);
+    return false;
+  }
+  std::string_view payload = bytes.substr(kSnapshotHeaderBytes);
+  if (Crc32(payload) != GetU32(bytes, 12)) {
+    *error = "payload checksum mismatch";
+    return false;
+  }
+  out->payload.assign(payload);
+  out->config_digest = GetU64(bytes, 24);
+  return true;
+}
+
+bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* out,
+                      std::string* error) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) {
+    *error = ErrnoText("open", path);
+    return false;
+  }
+  std::ostringstream buffer;
+  buffer << in.rdbuf();
+  if (in.bad()) {
+    *error = ErrnoText("read", path);
+    return false;
+  }
+  std::string bytes = std::move(buffer).str();
+  std::string why;
+  if (!DecodeSnapshotFile(bytes, out, &why)) {
+    *error = path.string() + ": " + why;
+    return false;
+  }
+  return true;
+}
+
+bool WriteFileAtomically(const std::filesystem::path& path, std::string_view bytes,
+                         std::string* error) {
+  const std::filesystem::path temp = path.string() + std::string(kTempSuffix);
+  int fd = ::open(temp.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+  if (fd < 0) {
+    *error = ErrnoText("create", temp);
+    return false;
+  }
+  size_t done = 0;
+  while (done < bytes.size()) {
+    ssize_t n = ::write(fd, bytes.data() + done, bytes.size() - done);
+    if (n < 0 && errno == EINTR) continue;
+    if (n < 0) {
+      *error = ErrnoText("write", temp);
+      ::close(fd);
+      ::unlink(temp.c_str());
+      return false;
+    }
+    done += size_t(n);
+  }
+  if (::fsync(fd) != 0) {
+    *error = ErrnoText("fsync", temp);
+    ::close(fd);
+    ::unlink(temp.c_str());
+    return false;
+  }
+  if (::close(fd) != 0) {
+    *error = ErrnoText("close", temp);
+    ::unlink(temp.c_str());
+    return false;
+  }
+  if (::rename(temp.c_str(), path.c_str()) != 0) {
+    *error = ErrnoText("rename " + temp.string() + " to", path);
+    ::unlink(temp.c_str());
+    return false;
+  }
+  return FsyncDirectory(path.parent_path().empty() ? "." : path.parent_path(), error);
+}
+
+SnapshotStore::SnapshotStore(std::filesystem::path dir, int keep)
+    : dir_(std::move(dir)), keep_(std::max(keep, 2)) {}
+
+bool SnapshotStore::Open(std::string* error) {
+  std::error_code ec;
+  std::filesystem::create_directories(dir_, ec);
+  if (ec) {
+    *error = "create state directory " + dir_.string() + ": " + ec.message();
+    return false;
+  }
+  newest_generation_ = 0;
+  for (const auto& entry : std::filesystem::directory_iterator(dir_, ec)) {
+    const std::string name = entry.path().filename().string();
+    if (name.starts_with(kPrefix) && name.ends_with(kTempSuffix)) {
+      std::filesystem::remove(entry.path(), ec);  // left by an interrupted write
+      continue;
+    }
+    newest_generation_ = std::max(newest_generation_, GenerationOf(name));
+  }
+  if (ec) {
+    *error = "list state directory " + dir_.string() + ": " + ec.message();
+    return false;
+  }
+  return true;
+}
+
+std::vector<std::filesystem::path> SnapshotStore::ListNewestFirst() const {
+  std::vector<std::pair<uint64_t, std::filesystem::path>> found;
+  std::error_code ec;
+  for (const auto& entry : std::filesystem::directory_iterator(dir_, ec)) {
+    uint64_t g = GenerationOf(entry.path().filename().string());
+    if (g != 0) found.emplace_back(g, entry.path());
+  }
+  std::sort(found.begin(), found.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
+  std::vector<std::filesystem::path> paths;
+  for (auto& [g, p] : found) paths.push_back(std::move(p));
+  return paths;
+}
+
+std::filesystem::path SnapshotStore::PathOf(uint64_t generation) const {
+  char name[64];
+  std::snprintf(name, sizeof name, "snapshot-%020llu.bls",
+                static_cast<unsigned long long>(generation));
+  return dir_ / name;
+}
+
+bool SnapshotStore::Write(std::string_view payload, uint64_t config_digest,
+                          std::filesystem::path* written_path, uint64_t* written_bytes,
+                          std::string* error) {
+  const uint64_t generation = newest_generation_ + 1;
+  const std::filesystem::path path = PathOf(generation);
+  const std::string bytes = EncodeSnapshotFile(payload, config_digest);
+  if (!WriteFileAtomically(path, bytes, error)) return false;
+  newest_generation_ = generation;
+  *written_path = path;
+  *written_bytes = bytes.size();
+  // Prune only after the new generation is durable.
+  std::vector<std::filesystem::path> all = ListNewestFirst();
+  std::error_code ec;
+  for (size_t i = size_t(keep_); i < all.size(); ++i) std::filesystem::remove(all[i], ec);
+  return true;
+}
+
+}  // namespace bayline::server

@@ -1,0 +1,83 @@
+// Snapshot files: the on-disk container of a serialized bayline.v1.Snapshot.
+//
+// Layout (all integers little-endian), 40-byte header then the payload:
+//   offset  size  field
+//        0     8  magic "BAYLSNAP"
+//        8     4  format version (kSnapshotFormatVersion)
+//       12     4  CRC-32 of the payload
+//       16     8  payload length in bytes
+//       24     8  config digest (ConfigDigest of the configuration that produced the state)
+//       32     4  CRC-32 of bytes 0..31 (so a damaged length is caught before it is trusted)
+//       36     4  reserved, 0
+//       40     -  payload (exactly `payload length` bytes; anything more or less is an error)
+//
+// SnapshotStore keeps numbered generations in one directory, `snapshot-<generation>.bls`
+// (generation zero-padded to 20 digits, so names sort like numbers). A write goes to a temporary
+// file that is fsynced, renamed into place, and the directory fsynced; only then are generations
+// older than the newest `keep` removed. A reader therefore always finds the newest complete file,
+// and when that one is damaged, the one before it.
+//
+// Thread safety: none; the daemon's supervisor thread owns its store.
+#pragma once
+
+#include <cstdint>
+#include <filesystem>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace bayline::server {
+
+inline constexpr uint32_t kSnapshotFormatVersion = 1;
+inline constexpr size_t kSnapshotHeaderBytes = 40;
+
+// The container's content once verified.
+struct SnapshotFileContents {
+  std::string payload;
+  uint64_t config_digest = 0;
+};
+
+// Header + payload, ready to be written.
+std::string EncodeSnapshotFile(std::string_view payload, uint64_t config_digest);
+
+// Verifies magic, version, both checksums and the exact length. On success fills *out and returns
+// true; otherwise returns false with a one-line reason in *error (and *out unspecified).
+bool DecodeSnapshotFile(std::string_view bytes, SnapshotFileContents* out, std::string* error);
+
+// Reads and decodes one file. False with *error naming the path on I/O or format errors.
+bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* out,
+                      std::string* error);
+
+// Writes `bytes` to `path` atomically: temporary file in the same directory, fsync, rename, fsync
+// the directory. On failure returns false, *error names the failing step and path, and `path`
+// still holds its previous content (the temporary file is removed).
+bool WriteFileAtomically(const std::filesystem::path& path, std::string_view bytes,
+                         std::string* error);
+
+class SnapshotStore {
+ public:
+  // `dir` is created (with parents) by Open(). `keep` >= 2 generations are retained.
+  explicit SnapshotStore(std::filesystem::path dir, int keep = 2);
+
+  // Creates the directory if needed, removes stale temporary files, learns the newest generation.
+  bool Open(std::string* error);
+
+  // Snapshot files present, newest first (names only; contents are not checked).
+  std::vector<std::filesystem::path> ListNewestFirst() const;
+
+  // Writes the next generation. On success returns true, sets *written_path and *written_bytes,
+  // and prunes generations beyond `keep`. On failure nothing already on disk is touched.
+  bool Write(std::string_view payload, uint64_t config_digest,
+             std::filesystem::path* written_path, uint64_t* written_bytes, std::string* error);
+
+  const std::filesystem::path& dir() const { return dir_; }
+
+ private:
+  std::filesystem::path PathOf(uint64_t generation) const;
+
+  std::filesystem::path dir_;
+  int keep_;
+  uint64_t newest_generation_ = 0;
+};
+
+}  // namespace bayline::server
