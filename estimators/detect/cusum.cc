@@ -61,7 +61,7 @@ Status Cusum::State::Unpack(StateReader& r) {
       r.Get(upper_onset_time) && r.Get(ls) && r.Get(lower_onset_time) && cycle.Unpack(r);
   upper_onset_seq = static_cast<std::int64_t>(us);
   lower_onset_seq = static_cast<std::int64_t>(ls);
-  if (Status s = r.status(); !s.ok()) return s;
+  if (Status s = r.status(false); !s.ok()) return s;
   if (!ValidSide(upper, upper_count) || !ValidSide(lower, lower_count) || !cycle.Valid())
     return Status::Error(ErrorCode::kInvalidState, "cusum state holds invalid values");
   return Status::Ok();

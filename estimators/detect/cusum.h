@@ -50,8 +50,9 @@ class Cusum {
     AlarmCycle cycle;
 
     void Pack(StateWriter& w) const;
-    // kInvalidState when the input is short, long, or holds impossible values; *this may then be
-    // partly overwritten (callers unpack into a temporary, as Restore does).
+    // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
+    // refuse trailing values). kInvalidState on a short input or impossible values; *this may then
+    // be partly overwritten, so unpack into a temporary (as a restore does).
     Status Unpack(StateReader& r);
   };
 

@@ -23,21 +23,26 @@ void Ewma::State::Pack(StateWriter& w) const {
   w.Put(decay);
   w.Put(static_cast<double>(onset_seq));
   w.Put(onset_time);
+  w.Put(run_sum);
+  w.Put(run_count);
   cycle.Pack(w);
 }
 
 namespace {
 bool ValidEwmaState(const Ewma::State& s) {
   return std::isfinite(s.z) && s.count >= 0.0 && std::isfinite(s.count) &&
-         s.count == std::floor(s.count) && s.decay >= 0.0 && s.decay <= 1.0 && s.cycle.Valid();
+         s.count == std::floor(s.count) && s.decay >= 0.0 && s.decay <= 1.0 &&
+         std::isfinite(s.run_sum) && s.run_count >= 0.0 && std::isfinite(s.run_count) &&
+         s.run_count == std::floor(s.run_count) && s.cycle.Valid();
 }
 }  // namespace
 
 Status Ewma::State::Unpack(StateReader& r) {
   double seq = 0;
-  r.Get(z) && r.Get(count) && r.Get(decay) && r.Get(seq) && r.Get(onset_time) && cycle.Unpack(r);
+  r.Get(z) && r.Get(count) && r.Get(decay) && r.Get(seq) && r.Get(onset_time) && r.Get(run_sum) &&
+      r.Get(run_count) && cycle.Unpack(r);
   onset_seq = static_cast<std::int64_t>(seq);
-  if (Status s = r.status(); !s.ok()) return s;
+  if (Status s = r.status(false); !s.ok()) return s;
   if (!ValidEwmaState(*this)) return Status::Error(ErrorCode::kInvalidState, "ewma state holds invalid values");
   return Status::Ok();
 }
@@ -79,7 +84,11 @@ DetectorEvent Ewma::Update(double z, const ObservationMark& mark) {
   if (st.count == 1.0 || (previous > 0.0) != (st.z > 0.0) || previous == 0.0) {
     st.onset_seq = mark.seq;
     st.onset_time = mark.time;
+    st.run_sum = 0.0;
+    st.run_count = 0.0;
   }
+  st.run_sum += z;
+  st.run_count += 1.0;
   const double limit = options_.L * LimitSd(st.count, st.decay);
   ev.threshold = limit;
   ev.statistic = statistic(st.z);
@@ -89,7 +98,7 @@ DetectorEvent Ewma::Update(double z, const ObservationMark& mark) {
     ev.direction = up ? Direction::kUp : Direction::kDown;
     ev.onset_seq = st.onset_seq;
     ev.onset_time = st.onset_time;
-    ev.shift = st.z / (1.0 - st.decay);
+    ev.shift = st.run_sum / st.run_count;
     ev.raised = !st.cycle.active;
     st.cycle.active = true;
     st.cycle.holdoff_left = static_cast<double>(options_.holdoff);

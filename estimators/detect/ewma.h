@@ -11,7 +11,7 @@
 // them limits = "vacl" and "fix").
 // The event's statistic is |Z_i| (kBoth), Z_i (kUp) or -Z_i (kDown); its threshold is L sigma_i.
 // Onset at an alarm: the observation after Z last was on the other side of zero (common practice,
-// no source). Shift estimate: Z_i / (1 - (1 - lambda)^i), the EWMA corrected for its zero start.
+// no source). Shift estimate: the mean of z over the observations since that onset.
 // Alarm life cycle and hold-off: see chart_cycle.h; a restart sets Z = 0 and i = 0.
 // Cost: O(1) per observation (one sqrt), no allocation. Thread safety: none.
 #pragma once
@@ -47,10 +47,13 @@ class Ewma {
     double decay = 1;  // (1 - lambda)^i, kept as a running product
     std::int64_t onset_seq = -1;  // observation after Z last crossed zero
     double onset_time = kNaN;
+    double run_sum = 0, run_count = 0;  // sum and number of z since the onset
     AlarmCycle cycle;
 
     void Pack(StateWriter& w) const;
-    // kInvalidState on a short or long input or impossible values (unpack into a temporary).
+    // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
+    // refuse trailing values). kInvalidState on a short input or impossible values; *this may then
+    // be partly overwritten, so unpack into a temporary (as a restore does).
     Status Unpack(StateReader& r);
   };
 

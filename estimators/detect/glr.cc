@@ -28,7 +28,7 @@ void Glr::State::Pack(StateWriter& w) const {
 
 Status Glr::State::Unpack(StateReader& r) {
   double n = 0;
-  if (!r.Get(n)) return r.status();
+  if (!r.Get(n)) return r.status(false);
   if (!(n >= 0 && n <= 100000 && n == std::floor(n)))
     return Status::Error(ErrorCode::kInvalidState, "glr state window length is invalid");
   const auto m = static_cast<std::size_t>(n);
@@ -40,7 +40,7 @@ Status Glr::State::Unpack(StateReader& r) {
   for (double& v : time) r.Get(v);
   r.Get(since_rebase);
   cycle.Unpack(r);
-  return r.status();
+  return r.status(false);
 }
 
 Glr::Glr(const GlrOptions& options) : options_(options) {

@@ -50,7 +50,10 @@ class Glr {
     AlarmCycle cycle;
 
     void Pack(StateWriter& w) const;  // n first, then the vectors
-    Status Unpack(StateReader& r);    // kInvalidState on bad input
+    // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
+    // refuse trailing values). kInvalidState on a short input or impossible values; *this may then
+    // be partly overwritten, so unpack into a temporary (as a restore does).
+    Status Unpack(StateReader& r);
   };
 
   // Precondition: options.Validate().ok() (asserted). Allocates the window once.

@@ -64,7 +64,7 @@ Status PageHinkley::State::Unpack(StateReader& r) {
       r.Get(lower_onset_time) && cycle.Unpack(r);
   upper_onset_seq = static_cast<std::int64_t>(us);
   lower_onset_seq = static_cast<std::int64_t>(ls);
-  if (Status s = r.status(); !s.ok()) return s;
+  if (Status s = r.status(false); !s.ok()) return s;
   if (!ValidPhState(*this))
     return Status::Error(ErrorCode::kInvalidState, "page_hinkley state holds invalid values");
   return Status::Ok();

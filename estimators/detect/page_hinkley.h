@@ -49,7 +49,10 @@ class PageHinkley {
     AlarmCycle cycle;
 
     void Pack(StateWriter& w) const;
-    Status Unpack(StateReader& r);  // kInvalidState on bad input (unpack into a temporary)
+    // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
+    // refuse trailing values). kInvalidState on a short input or impossible values; *this may then
+    // be partly overwritten, so unpack into a temporary (as a restore does).
+    Status Unpack(StateReader& r);
   };
 
   // Precondition: options.Validate().ok() (asserted).

@@ -33,7 +33,7 @@ void SelfStartingStandardizer::State::Pack(StateWriter& w) const {
 
 Status SelfStartingStandardizer::State::Unpack(StateReader& r) {
   r.Get(count) && r.Get(mean) && r.Get(m2);
-  if (Status s = r.status(); !s.ok()) return s;
+  if (Status s = r.status(false); !s.ok()) return s;
   if (!IsCount(count) || !std::isfinite(mean) || !(m2 >= 0.0) || !std::isfinite(m2))
     return Status::Error(ErrorCode::kInvalidState, "self-starting state holds invalid values");
   return Status::Ok();
@@ -75,7 +75,7 @@ void RecursiveResidualStandardizer::State::Pack(StateWriter& w) const {
 
 Status RecursiveResidualStandardizer::State::Unpack(StateReader& r) {
   r.Get(count) && r.Get(sum_sq);
-  if (Status s = r.status(); !s.ok()) return s;
+  if (Status s = r.status(false); !s.ok()) return s;
   if (!IsCount(count) || !(sum_sq >= 0.0) || !std::isfinite(sum_sq))
     return Status::Error(ErrorCode::kInvalidState, "recursive-residual state holds invalid values");
   return Status::Ok();

@@ -43,7 +43,10 @@ class SelfStartingStandardizer {
     double m2 = 0;     // their sum of squared deviations from the mean (Welford)
 
     void Pack(StateWriter& w) const;
-    Status Unpack(StateReader& r);  // kInvalidState on bad input
+    // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
+    // refuse trailing values). kInvalidState on a short input or impossible values; *this may then
+    // be partly overwritten, so unpack into a temporary (as a restore does).
+    Status Unpack(StateReader& r);
   };
 
   // Absorbs y and returns its z through *z: NaN for the first two observations and while all
@@ -66,6 +69,9 @@ class RecursiveResidualStandardizer {
     double sum_sq = 0;  // their sum of squares (= RSS of the regression so far)
 
     void Pack(StateWriter& w) const;
+    // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
+    // refuse trailing values). kInvalidState on a short input or impossible values; *this may then
+    // be partly overwritten, so unpack into a temporary (as a restore does).
     Status Unpack(StateReader& r);
   };
 
