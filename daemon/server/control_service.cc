@@ -1,0 +1,140 @@
+#include "daemon/server/control_service.h"
+
+#include <algorithm>
+
+#include "daemon/pipeline/pipeline.h"
+#include "daemon/server/routing.h"
+
+namespace bayline::server {
+namespace {
+
+bayline::v1::Reply Error(std::string message) {
+  bayline::v1::Reply reply;
+  reply.set_ok(false);
+  reply.set_error(std::move(message));
+  return reply;
+}
+
+}  // namespace
+
+ControlService::ControlService(const std::vector<std::unique_ptr<Worker>>& workers,
+                               const Ingest& ingest, Shard shard, DaemonActions& actions)
+    : workers_(workers), ingest_(ingest), shard_(shard), actions_(actions) {}
+
+bayline::v1::Reply ControlService::HandleBytes(std::string_view bytes) {
+  bayline::v1::Request request;
+  if (!request.ParseFromArray(bytes.data(), int(bytes.size()))) {
+    return Error("malformed request: not a bayline.v1.Request (" + std::to_string(bytes.size()) +
+                 " bytes)");
+  }
+  return Handle(request);
+}
+
+bayline::v1::Reply ControlService::Handle(const bayline::v1::Request& request) {
+  using R = bayline::v1::Request;
+  switch (request.op_case()) {
+    case R::kList:
+      return List(request.list().glob());
+    case R::kAsk:
+      return Ask(request.ask().channel());
+    case R::kReset:
+      return Reset(request.reset().channel());
+    case R::kStats:
+      return Stats();
+    case R::kSnapshot: {
+      bayline::v1::Reply reply;
+      std::string error;
+      if (!actions_.SnapshotNow(reply.mutable_snapshot(), &error)) return Error(error);
+      reply.set_ok(true);
+      return reply;
+    }
+    case R::kReload: {
+      std::string message;
+      if (!actions_.Reload(&message)) return Error(message);
+      bayline::v1::Reply reply;
+      reply.set_ok(true);
+      reply.set_message(message);
+      return reply;
+    }
+    default:
+      return Error("empty request: set one of list, ask, reset, stats, snapshot, reload");
+  }
+}
+
+Worker* ControlService::OwnerOf(std::string_view channel) const {
+  const uint64_t h = pipeline::ChannelHash(channel);
+  if (!InShard(h, shard_)) return nullptr;
+  return workers_[WorkerOf(h, shard_, workers_.size())].get();
+}
+
+bayline::v1::Reply ControlService::List(const std::string& glob) {
+  bayline::v1::Reply reply;
+  auto* channels = reply.mutable_channels()->mutable_channels();
+  for (const auto& worker : workers_) {
+    bayline::v1::ChannelList part =
+        worker->Call([&glob](pipeline::Pipeline& p) { return p.List(glob); });
+    for (auto& info : *part.mutable_channels()) channels->Add()->Swap(&info);
+  }
+  std::sort(channels->begin(), channels->end(),
+            [](const auto& a, const auto& b) { return a.name() < b.name(); });
+  reply.set_ok(true);
+  return reply;
+}
+
+bayline::v1::Reply ControlService::Ask(const std::string& channel) {
+  Worker* owner = OwnerOf(channel);
+  std::optional<bayline::v1::ChannelReport> report;
+  if (owner != nullptr) {
+    report = owner->Call([&channel](pipeline::Pipeline& p) { return p.Ask(channel); });
+  }
+  if (!report) return Error("unknown channel: \"" + channel + "\"");
+  bayline::v1::Reply reply;
+  reply.set_ok(true);
+  *reply.mutable_channel() = std::move(*report);
+  return reply;
+}
+
+bayline::v1::Reply ControlService::Reset(const std::string& channel) {
+  Worker* owner = OwnerOf(channel);
+  const bool known =
+      owner != nullptr && owner->Call([&channel](pipeline::Pipeline& p) { return p.Reset(channel); });
+  if (!known) return Error("unknown channel: \"" + channel + "\"");
+  bayline::v1::Reply reply;
+  reply.set_ok(true);
+  reply.set_message("channel \"" + channel + "\" reset");
+  return reply;
+}
+
+bayline::v1::Reply ControlService::Stats() {
+  bayline::v1::Reply reply;
+  auto* stats = reply.mutable_stats();
+  const auto now = std::chrono::steady_clock::now();
+  stats->set_uptime_s(std::chrono::duration<double>(now - started_).count());
+  stats->set_frames_received(ingest_.frames_received());
+  const uint64_t received = ingest_.observations_received();
+  stats->set_observations_received(received);
+  for (const auto& worker : workers_) {
+    stats->add_worker_queue_depth(worker->queue_depth());
+    const pipeline::Counters c =
+        worker->Call([](pipeline::Pipeline& p) { return p.counters(); });
+    stats->set_observations_accepted(stats->observations_accepted() + c.accepted);
+    stats->set_channels(stats->channels() + c.channels);
+    stats->set_publications(stats->publications() + c.publications);
+    stats->set_seq_gaps(stats->seq_gaps() + c.seq_gaps);
+    stats->set_seq_duplicates(stats->seq_duplicates() + c.seq_duplicates);
+    stats->set_seq_reordered(stats->seq_reordered() + c.seq_reordered);
+    auto& by_reason = *stats->mutable_rejected_by_reason();
+    for (const auto& [reason, count] : c.rejected_by_reason) by_reason[reason] += count;
+  }
+  stats->set_snapshots_written(actions_.snapshots_written());
+  const double interval = std::chrono::duration<double>(now - last_stats_time_).count();
+  if (interval > 0) {
+    stats->set_observations_per_second(double(received - last_stats_observations_) / interval);
+  }
+  last_stats_time_ = now;
+  last_stats_observations_ = received;
+  reply.set_ok(true);
+  return reply;
+}
+
+}  // namespace bayline::server

@@ -1,0 +1,62 @@
+// The control API: turns one bayline.v1.Request into one bayline.v1.Reply.
+//   list     ChannelList of every worker's channels matching the glob, sorted by name
+//   ask      ChannelReport of one channel, from the worker that owns it
+//   reset    forgets one channel (it restarts from its rule)
+//   stats    counters summed over the workers, ingest counters, queue depths, rates, uptime
+//   snapshot writes a snapshot now; SnapshotInfo
+//   reload   re-reads the config file; message lists what changed
+// Workers are asked by message passing (Worker::Call): nothing here touches a pipeline directly.
+// Errors (unknown channel, malformed request, failed snapshot or reload) are replies with
+// ok = false and `error` set; the daemon keeps running and nothing changes.
+// Thread safety: supervisor thread only.
+#pragma once
+
+#include <chrono>
+#include <memory>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "bayline/v1/control.pb.h"
+#include "daemon/server/daemon_options.h"
+#include "daemon/server/ingest.h"
+#include "daemon/server/worker.h"
+
+namespace bayline::server {
+
+// What the control API asks of the daemon itself.
+class DaemonActions {
+ public:
+  virtual ~DaemonActions() = default;
+  virtual bool SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) = 0;
+  // On success *message says what was applied; on failure *message is the error.
+  virtual bool Reload(std::string* message) = 0;
+  virtual uint64_t snapshots_written() const = 0;
+};
+
+class ControlService {
+ public:
+  ControlService(const std::vector<std::unique_ptr<Worker>>& workers, const Ingest& ingest,
+                 Shard shard, DaemonActions& actions);
+
+  bayline::v1::Reply Handle(const bayline::v1::Request& request);
+  // Decodes a request frame and handles it; a frame that does not decode gets an error reply.
+  bayline::v1::Reply HandleBytes(std::string_view bytes);
+
+ private:
+  bayline::v1::Reply List(const std::string& glob);
+  bayline::v1::Reply Ask(const std::string& channel);
+  bayline::v1::Reply Reset(const std::string& channel);
+  bayline::v1::Reply Stats();
+  Worker* OwnerOf(std::string_view channel) const;  // nullptr: another shard's channel
+
+  const std::vector<std::unique_ptr<Worker>>& workers_;
+  const Ingest& ingest_;
+  Shard shard_;
+  DaemonActions& actions_;
+  const std::chrono::steady_clock::time_point started_ = std::chrono::steady_clock::now();
+  std::chrono::steady_clock::time_point last_stats_time_ = started_;
+  uint64_t last_stats_observations_ = 0;
+};
+
+}  // namespace bayline::server

@@ -1,0 +1,66 @@
+// Daemon: assembles and runs baylined.
+//
+// Threads: the supervisor (the thread calling Run: control socket, signals, periodic snapshots,
+// reload), one ingest thread, N worker threads each owning one pipeline partition, one publisher
+// thread owning the PUB socket. Start-up order: signals blocked -> configuration -> state restored
+// into the pipelines -> sockets bound (any failure: exit 1 before a thread starts) -> threads
+// started -> "ready" log line with every resolved endpoint.
+// Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
+// queues, a snapshot is written, the threads end, exit 0.
+#pragma once
+
+#include <zmq.hpp>
+
+#include <chrono>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "bayline/v1/config.pb.h"
+#include "daemon/server/control_service.h"
+#include "daemon/server/daemon_options.h"
+#include "daemon/server/ingest.h"
+#include "daemon/server/publisher.h"
+#include "daemon/server/signals.h"
+#include "daemon/server/snapshot_file.h"
+#include "daemon/server/worker.h"
+
+namespace bayline::server {
+
+class Daemon : public DaemonActions {
+ public:
+  explicit Daemon(DaemonOptions options);
+  ~Daemon() override;
+
+  // Runs until SIGTERM/SIGINT. Returns the process exit code.
+  int Run();
+
+  bool SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) override;
+  bool Reload(std::string* message) override;
+  uint64_t snapshots_written() const override { return snapshots_written_; }
+
+ private:
+  bool Start();  // everything up to the threads running; false: logged, exit 1
+  void Serve();  // the supervisor loop
+  void Shutdown();
+  void HandleControl();
+  void ApplyRuntimeSettings();
+
+  DaemonOptions options_;
+  SignalWatcher signals_;  // first member: blocks signals before any thread exists
+  bayline::v1::DaemonConfig config_;
+  Shard shard_;
+  std::unique_ptr<SnapshotStore> store_;
+  zmq::context_t context_;
+  std::unique_ptr<Publisher> publisher_;
+  std::vector<std::unique_ptr<Worker>> workers_;
+  std::unique_ptr<Ingest> ingest_;
+  std::unique_ptr<zmq::socket_t> control_;
+  std::unique_ptr<ControlService> control_service_;
+  uint64_t snapshots_written_ = 0;
+  std::chrono::steady_clock::duration snapshot_period_{};
+  std::chrono::steady_clock::time_point next_snapshot_{};
+  bool stop_requested_ = false;
+};
+
+}  // namespace bayline::server
