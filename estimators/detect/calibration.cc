@@ -104,6 +104,16 @@ bool SimulatedThreshold(const Options& chart_options, double arl0, const Simulat
     if (arl_at(h_hi) >= 1.3 * arl0) break;
     h_hi = grow > 1.0 ? h_hi * grow : h_hi - grow;
   }
+  // Tighten the bracket to where the pilot's ARL is 1.25 ARL0 (5 pilot standard errors above the
+  // target at the minimum 200 pilot runs), so the full runs stop soon after the threshold sought.
+  {
+    double lo = 0.0, hi = h_hi;
+    for (int i = 0; i < 100 && hi - lo > 1e-6 * hi; ++i) {
+      const double mid = 0.5 * (lo + hi);
+      (arl_at(mid) < 1.25 * arl0 ? lo : hi) = mid;
+    }
+    h_hi = hi;
+  }
   for (int i = 0; i < 40; ++i) {
     simulate(budget.runs, h_hi);
     if (arl_at(h_hi) >= arl0) break;
@@ -260,7 +270,7 @@ Status CalibrateGlr(const AlarmTarget& target, GlrOptions* options, const Simula
   if (Status s = o.Validate(); !s.ok()) return s;
   double h = 0;
   // Grow additively: the in-control ARL rises about e-fold per unit of threshold.
-  if (!SimulatedThreshold<Glr>(o, target.arl0, budget, std::log(target.arl0) + 1.0, -0.5, &h))
+  if (!SimulatedThreshold<Glr>(o, target.arl0, budget, std::log(target.arl0), -0.5, &h))
     return Status::Error(ErrorCode::kNumericalFailure, "glr: threshold not found by simulation");
   o.threshold = h;
   *options = o;

@@ -65,30 +65,69 @@ void Glr::Restart() {
   prefix_[0] = 0.0;
 }
 
+namespace {
+
+// max over j in [j0, j1] of g_j for prefix sums p[j] = P_{n-j} laid out contiguously (p[0] = P_n).
+// Four partial maxima break the dependency chain so the loop runs at the multiply-add rate.
+template <Direction kDir>
+double MaxTerm(const double* p, const double* inv, double pn, std::int64_t j0, std::int64_t j1) {
+  auto term = [&](std::int64_t j) {
+    double s = pn - p[j];
+    if constexpr (kDir == Direction::kUp) s = s > 0.0 ? s : 0.0;
+    if constexpr (kDir == Direction::kDown) s = s < 0.0 ? s : 0.0;
+    return s * s * inv[j];
+  };
+  double m0 = 0.0, m1 = 0.0, m2 = 0.0, m3 = 0.0;
+  std::int64_t j = j0;
+  for (; j + 3 <= j1; j += 4) {
+    const double a = term(j), b = term(j + 1), c = term(j + 2), d = term(j + 3);
+    m0 = a > m0 ? a : m0;
+    m1 = b > m1 ? b : m1;
+    m2 = c > m2 ? c : m2;
+    m3 = d > m3 ? d : m3;
+  }
+  for (; j <= j1; ++j) {
+    const double a = term(j);
+    m0 = a > m0 ? a : m0;
+  }
+  return std::max(std::max(m0, m1), std::max(m2, m3));
+}
+
+template <Direction kDir>
+double MaxOverWindow(const double* ring, const double* inv, std::int64_t head, std::int64_t count,
+                     std::int64_t cap) {
+  // P_{n-j} sits at ring[head + j] until the end of the ring, then wraps to ring[head + j - cap].
+  const double pn = ring[head];
+  const std::int64_t first = std::min(count, cap - 1 - head);
+  double best = MaxTerm<kDir>(ring + head, inv, pn, 1, first);
+  if (count > first) {
+    // j in (first, count]: ring index head + j - cap = j - (cap - head).
+    const std::int64_t shift = cap - head;
+    best = std::max(best, MaxTerm<kDir>(ring - shift, inv, pn, first + 1, count));
+  }
+  return best;
+}
+
+}  // namespace
+
 double Glr::Scan(std::int64_t* best_j) const {
   const std::int64_t cap = options_.window + 1;
+  if (best_j == nullptr) {
+    switch (options_.direction) {
+      case Direction::kUp: return MaxOverWindow<Direction::kUp>(prefix_.data(), inv_two_j_.data(), head_, count_, cap);
+      case Direction::kDown: return MaxOverWindow<Direction::kDown>(prefix_.data(), inv_two_j_.data(), head_, count_, cap);
+      default: return MaxOverWindow<Direction::kBoth>(prefix_.data(), inv_two_j_.data(), head_, count_, cap);
+    }
+  }
+  // Slow path, only at an alarm: the maximising j (the smallest on ties).
   const double pn = prefix_[head_];
-  const double* p = prefix_.data();
-  const double* inv = inv_two_j_.data();
-  const Direction d = options_.direction;
-  // j = 1..count_ walks the ring backwards from head_ - 1; split into two contiguous runs.
   double best = 0.0;
   std::int64_t arg = 0;
-  auto term = [&](double s) {
-    if (d == Direction::kUp) s = std::max(s, 0.0);
-    else if (d == Direction::kDown) s = std::min(s, 0.0);
-    return s * s;
-  };
-  const std::int64_t first_run = std::min<std::int64_t>(count_, head_);  // indices head_-1 .. head_-first_run
-  if (best_j == nullptr) {
-    for (std::int64_t j = 1; j <= first_run; ++j) best = std::max(best, term(pn - p[head_ - j]) * inv[j]);
-    for (std::int64_t j = first_run + 1; j <= count_; ++j)
-      best = std::max(best, term(pn - p[head_ - j + cap]) * inv[j]);
-    return best;
-  }
   for (std::int64_t j = 1; j <= count_; ++j) {
-    const std::int64_t idx = j <= first_run ? head_ - j : head_ - j + cap;
-    const double g = term(pn - p[idx]) * inv[j];
+    double s = pn - prefix_[(head_ + j) % cap];
+    if (options_.direction == Direction::kUp) s = std::max(s, 0.0);
+    if (options_.direction == Direction::kDown) s = std::min(s, 0.0);
+    const double g = s * s * inv_two_j_[j];
     if (g > best) {
       best = g;
       arg = j;
@@ -109,7 +148,7 @@ DetectorEvent Glr::Update(double z, const ObservationMark& mark) {
   }
   const std::int64_t cap = options_.window + 1;
   const double next = prefix_[head_] + z;
-  head_ = head_ + 1 == cap ? 0 : head_ + 1;
+  head_ = head_ == 0 ? cap - 1 : head_ - 1;  // newer prefix sums at lower ring indices
   prefix_[head_] = next;
   seq_[head_] = static_cast<double>(mark.seq);
   time_[head_] = mark.time;
@@ -123,8 +162,8 @@ DetectorEvent Glr::Update(double z, const ObservationMark& mark) {
   if (g > options_.threshold) {
     std::int64_t j = 0;
     Scan(&j);
-    const std::int64_t first = (head_ - j + 1 + cap) % cap;  // ring index of the window's first obs
-    const double s = prefix_[head_] - prefix_[(head_ - j + cap) % cap];
+    const std::int64_t first = (head_ + j - 1) % cap;  // ring index of the window's first obs
+    const double s = prefix_[head_] - prefix_[(head_ + j) % cap];
     ev.direction = s > 0.0 ? Direction::kUp : Direction::kDown;
     ev.onset_seq = static_cast<std::int64_t>(seq_[first]);
     ev.onset_time = time_[first];
@@ -143,9 +182,9 @@ DetectorEvent Glr::Update(double z, const ObservationMark& mark) {
 Glr::State Glr::state() const {
   State s;
   const std::int64_t cap = options_.window + 1;
-  for (std::int64_t j = count_; j >= 0; --j) s.prefix.push_back(prefix_[(head_ - j + cap) % cap]);
+  for (std::int64_t j = count_; j >= 0; --j) s.prefix.push_back(prefix_[(head_ + j) % cap]);
   for (std::int64_t j = count_ - 1; j >= 0; --j) {
-    const std::int64_t idx = (head_ - j + cap) % cap;
+    const std::int64_t idx = (head_ + j) % cap;  // the observation that produced P_{n-j}
     s.seq.push_back(seq_[idx]);
     s.time.push_back(time_[idx]);
   }
@@ -165,12 +204,13 @@ Status Glr::Restore(const State& s) {
                    s.since_rebase == std::floor(s.since_rebase)) ||
       !s.cycle.Valid())
     return Status::Error(ErrorCode::kInvalidState, "glr state does not fit this window or holds invalid values");
-  for (std::size_t i = 0; i <= n; ++i) prefix_[i] = s.prefix[i];
+  // Lay the window out with head_ = 0: P_{n-j} at index j.
+  for (std::size_t i = 0; i <= n; ++i) prefix_[n - i] = s.prefix[i];
   for (std::size_t i = 0; i < n; ++i) {
-    seq_[i + 1] = s.seq[i];
-    time_[i + 1] = s.time[i];
+    seq_[n - 1 - i] = s.seq[i];
+    time_[n - 1 - i] = s.time[i];
   }
-  head_ = static_cast<std::int64_t>(n);
+  head_ = 0;
   count_ = static_cast<std::int64_t>(n);
   since_rebase_ = static_cast<std::int64_t>(s.since_rebase);
   cycle_ = s.cycle;

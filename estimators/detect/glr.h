@@ -8,8 +8,9 @@
 //   g_j = max(S_j, 0)^2 / (2 j)  (kUp),   max(-S_j, 0)^2 / (2 j)  (kDown)
 // alarm when G_n > threshold. Onset: the first observation of the maximising window j*; shift
 // estimate: S_{j*} / j*.
-// Each S_j is P_n - P_{n-j} from a ring of prefix sums P, so an update is one pass of W independent
-// multiply-adds (O(W), no allocation). The prefix sums are re-based every W observations, keeping
+// Each S_j is P_n - P_{n-j} from a ring of prefix sums P (newest at the lowest index, so the scan
+// walks memory forwards), so an update is one pass of W independent multiply-adds (O(W), no
+// allocation). The prefix sums are re-based every W observations, keeping
 // them of the size of a W-term sum, so precision does not decay on long streams.
 // A window bounds cost and memory; a change older than W observations is judged on its last W
 // only. Choose W a few times the detection delay wanted (delay ~ 2 threshold / mu^2).
