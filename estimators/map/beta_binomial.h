@@ -50,7 +50,7 @@ class BetaBinomial {
   struct State {
     double alpha = 1, beta = 1;
     double effective_n = 0, log_marginal = 0, count = 0;
-    double last_time = kNaN;
+    double last_time = kNaN;  // latest time among accepted observations (NaN: none timed)
     void Pack(StateWriter& w) const;
     Status Unpack(StateReader& r);  // kInvalidState on a short / long input
   };

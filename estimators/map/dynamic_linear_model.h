@@ -7,7 +7,7 @@
 //   beta_1 ~ N(m1, C1)   (the prior of the coefficients AT THE FIRST OBSERVATION: no drift step is
 //                         applied before it; this is the state-space convention of a known initial
 //                         state for the first period)
-// V and W are given (not learned).
+// V and W are given (not learned); W is per observation (Sample::time is not used).
 // Recursions, with C = U'U (U upper triangular, the state's factor):
 //   drift (before every observation but the first):  a = m,  R = C + W;
 //   predictive:  f = x' a,  Q = x' R x + V / w;   e = y - f;

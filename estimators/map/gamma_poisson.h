@@ -45,7 +45,7 @@ class GammaPoisson {
   struct State {
     double a = 1, b = 1e-3;
     double effective_n = 0, log_marginal = 0, count = 0;
-    double last_time = kNaN;
+    double last_time = kNaN;  // latest time among accepted observations (NaN: none timed)
     void Pack(StateWriter& w) const;
     Status Unpack(StateReader& r);  // kInvalidState on a short / long input
   };

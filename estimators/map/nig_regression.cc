@@ -160,7 +160,7 @@ Status NigRegression<P>::Update(const Sample& s, Innovation* out) {
   state_.effective_n = delta * state_.effective_n + s.weight;
   if (inn.valid) state_.log_marginal += inn.log_predictive;
   state_.count += 1;
-  if (!std::isnan(s.time)) state_.last_time = s.time;
+  state_.last_time = map_internal::LatestTime(state_.last_time, s.time);
   if (out) *out = inn;
   return Status::Ok();
 }

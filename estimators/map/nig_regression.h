@@ -104,7 +104,7 @@ class NigRegression {
     double effective_n = 0;     // discounted sum of weights
     double log_marginal = 0;    // sum of log predictive densities of the valid innovations
     double count = 0;           // accepted observations
-    double last_time = kNaN;    // time of the last accepted observation (NaN if untimed / none)
+    double last_time = kNaN;    // latest time among accepted observations (NaN: none timed)
 
     void Pack(StateWriter& w) const;
     // Reads a packed state; on failure returns kInvalidState (this State may be partly written).

@@ -76,7 +76,7 @@ Status NormalGamma::Update(const Sample& s, Innovation* out) {
   state_.effective_n = delta * state_.effective_n + w;
   if (inn.valid) state_.log_marginal += inn.log_predictive;
   state_.count += 1;
-  if (!std::isnan(s.time)) state_.last_time = s.time;
+  state_.last_time = map_internal::LatestTime(state_.last_time, s.time);
   if (out) *out = inn;
   return Status::Ok();
 }

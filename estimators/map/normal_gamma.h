@@ -60,7 +60,7 @@ class NormalGamma {
   struct State {
     double m = 0, kappa = 0, a = 0, b = 0;
     double effective_n = 0, log_marginal = 0, count = 0;
-    double last_time = kNaN;
+    double last_time = kNaN;  // latest time among accepted observations (NaN: none timed)
     void Pack(StateWriter& w) const;
     Status Unpack(StateReader& r);  // kInvalidState on a short / long input
   };

@@ -52,6 +52,13 @@ inline double StudentTNormalScore(double t, double nu) {
   return t > 0 ? z : -z;
 }
 
+// The time kept for the next discount: the latest time seen (untimed or out-of-order samples do not
+// move it back, so a late sample cannot make the next step over-discount).
+inline double LatestTime(double last, double t) {
+  if (std::isnan(t)) return last;
+  return std::isnan(last) || t > last ? t : last;
+}
+
 inline bool LevelOk(double level) { return level > 0.0 && level < 1.0; }
 
 // true when v is an integer to within 1e-9 relative (counts arriving as doubles).

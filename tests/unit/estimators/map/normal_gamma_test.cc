@@ -154,6 +154,25 @@ TEST(NormalGammaTest, DiscountOneIsExactAndDiscountMatchesWeightedClosedForm) {
   EXPECT_TRUE(RelNear(disc.state().b, b, 1e-10));
 }
 
+TEST(NormalGammaTest, HalfLifeDiscountIgnoresLateSamplesForTheClock) {
+  // Half-life 10 s, flat prior (n0 = 0). Times 0, 10, 5 (late), 20: the late sample neither decays
+  // the past nor moves the clock back, so the final weights are 0.25, 0.5, 0.5, 1.
+  NormalGamma::Options o;
+  o.flat_prior = true;
+  o.discount.half_life = 10.0;
+  NormalGamma est(o);
+  const double times[4] = {0, 10, 5, 20}, ys[4] = {1, 2, 3, 4};
+  for (int i = 0; i < 4; ++i) {
+    Sample s;
+    s.y = ys[i];
+    s.time = times[i];
+    ASSERT_TRUE(est.Update(s).ok());
+  }
+  EXPECT_TRUE(RelNear(est.state().m, (0.25 * 1 + 0.5 * 2 + 0.5 * 3 + 4) / 2.25, 1e-14));
+  EXPECT_TRUE(RelNear(est.state().effective_n, 2.25, 1e-14));
+  EXPECT_EQ(est.state().last_time, 20.0);
+}
+
 TEST(NormalGammaTest, LargeOffsetDataKeepPrecision) {
   // NIST StRD NumAcc4 by construction (tests/reference/data/nist-strd README, REFERENCES.md):
   // 10000000.2 then 500 pairs of 10000000.1, 10000000.3: mean 10000000.2, sd 0.1. The decimal data
