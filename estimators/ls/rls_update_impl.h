@@ -12,6 +12,7 @@
 
 #include "estimators/core/distributions.h"
 #include "estimators/ls/double_double.h"
+#include "estimators/ls/t_log_density.h"
 
 namespace bayline::est {
 
@@ -52,7 +53,7 @@ inline void Set(M& hi, ML& lo, Eigen::Index i, Eigen::Index k, const Real& v) {
 // diagonal non-negative. Returns the leftover response entry (the recursive residual of the row)
 // and multiplies *cprod by the cosines.
 template <typename Real, typename M, typename V, typename RV>
-Real Annihilate(M& r, M& r_lo, V& z, V& z_lo, RV& row, RV& row_lo, int first, int p,
+[[gnu::always_inline]] inline Real Annihilate(M& r, M& r_lo, V& z, V& z_lo, RV& row, RV& row_lo, int first, int p,
                 double* cprod) {
   for (int i = first; i < p; ++i) {
     const Real b = Get<Real>(row, row_lo, i, 0);
@@ -182,7 +183,7 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
                                             double y_lo, Innovation* out, RecursiveResidual* rr) {
   using namespace rls_detail;
   constexpr bool kExt = !std::is_same_v<Real, double>;
-  const int p = state_.p;
+  const int p = kDynamic ? state_.p : P;  // compile-time bound for fixed P (unrolled loops)
   const State& cur = state_;
 
   const double lambda = ForgettingFactor(options_.forgetting, s.time, cur.previous_time);
@@ -206,7 +207,7 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
   const int j = static_cast<int>(cur.anchor);
 
   // Forgets, anchors and absorbs the row with weight `weight` into the work copy. Returns eta.
-  auto run = [&](double weight, double* cprod) -> Real {
+  auto run = [&](double weight, double* cprod) __attribute__((always_inline)) -> Real {
     w.r.template triangularView<Eigen::Upper>() = cur.r;
     w.z = cur.z;
     if constexpr (kExt) {
@@ -284,7 +285,7 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
       inn.predictive_sd = std::sqrt(s2_prev) / scale;
       inn.standardized = eta_d / std::sqrt(s2_prev);
       inn.log_predictive =
-          dist::StudentTLogPdf(inn.standardized, dof_prev) - std::log(inn.predictive_sd);
+          StudentTLogDensity(inn.standardized, dof_prev) - std::log(inn.predictive_sd);
     }
     *out = inn;
   }
@@ -327,7 +328,7 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
 
 template <int P>
 bool RecursiveLeastSquares<P>::RankTest(const Matrix& r) const {
-  const int p = state_.p;
+  const int p = kDynamic ? state_.p : P;
   for (int j = 0; j < p; ++j) {
     double norm2 = 0.0;
     for (int i = 0; i <= j; ++i) norm2 += r(i, j) * r(i, j);
