@@ -3,8 +3,6 @@
 #include <cmath>
 #include <string>
 
-#include "estimators/core/distributions.h"
-#include "estimators/core/special_functions.h"
 
 namespace bayline::est {
 
@@ -72,16 +70,19 @@ Status BinomialMl::Update(const Sample& s, Innovation* out) {
                                                       std::to_string(s.trials));
   }
 
+  const double log_choose = (s.y == 0 || s.y == s.trials)
+                                ? 0.0
+                                : ml_internal::LogFactorial(s.trials) - ml_internal::LogFactorial(s.y) -
+                                      ml_internal::LogFactorial(s.trials - s.y);
   Innovation inn;
   const double p = probability();
   if (p > 0 && p < 1) {
     const double mu = s.trials * p;
-    ml_internal::FillInnovation(s.y, mu, std::sqrt(mu * (1.0 - p)), dist::BinomialLogPmf(s.y, s.trials, p), &inn);
+    const double log_mass = log_choose + s.y * std::log(p) + (s.trials - s.y) * std::log1p(-p);
+    ml_internal::FillInnovation(s.y, mu, std::sqrt(mu * (1.0 - p)), log_mass, &inn);
   }
 
   const double f = ml_internal::StepFactor(options_.forgetting, s.time, state_.last_time);
-  const double log_choose = special::LogGamma(s.trials + 1.0) - special::LogGamma(s.y + 1.0) -
-                            special::LogGamma(s.trials - s.y + 1.0);
   State next = state_;
   next.weight_sum = f * state_.weight_sum + s.weight;
   next.sum_y = f * state_.sum_y + s.weight * s.y;

@@ -55,8 +55,8 @@ struct LogitFamily {
   // log P(y | eta) without the binomial coefficient.
   static double LogKernel(double y, double eta, double m) { return -y * Softplus(-eta) - (m - y) * Softplus(eta); }
   static double LogConst(double y, double m) {
-    if (m == 1.0) return 0.0;
-    return special::LogGamma(m + 1.0) - special::LogGamma(y + 1.0) - special::LogGamma(m - y + 1.0);
+    if (y == 0.0 || y == m) return 0.0;
+    return ml_internal::LogFactorial(m) - ml_internal::LogFactorial(y) - ml_internal::LogFactorial(m - y);
   }
   static Status CheckDomain(const Sample& s) {
     if (!(s.trials >= 1) || !ml_internal::IsWholeNumber(s.trials)) {
@@ -83,7 +83,7 @@ struct PoissonLogFamily {
     *var = *mean;
   }
   static double LogKernel(double y, double eta, double /*e*/) { return (y > 0 ? y * eta : 0.0) - std::exp(eta); }
-  static double LogConst(double y, double /*e*/) { return y > 1.0 ? -special::LogGamma(y + 1.0) : 0.0; }
+  static double LogConst(double y, double /*e*/) { return -ml_internal::LogFactorial(y); }
   static Status CheckDomain(const Sample& s) {
     if (!(s.y >= 0) || !ml_internal::IsWholeNumber(s.y)) {
       return Status::Error(ErrorCode::kOutOfDomain, "poisson count must be a whole number >= 0, got " + std::to_string(s.y));

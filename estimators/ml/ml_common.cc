@@ -1,8 +1,23 @@
 #include "estimators/ml/ml_common.h"
 
+#include <array>
+
 #include "estimators/core/distributions.h"
+#include "estimators/core/special_functions.h"
 
 namespace bayline::est::ml_internal {
+
+double LogFactorial(double n) {
+  constexpr int kTable = 256;
+  // Built once, on first use (thread-safe static initialisation), by summing logs: exact to rounding.
+  static const std::array<double, kTable> table = [] {
+    std::array<double, kTable> t{};
+    for (int i = 2; i < kTable; ++i) t[i] = t[i - 1] + std::log(static_cast<double>(i));
+    return t;
+  }();
+  if (n >= 0 && n < kTable) return table[static_cast<int>(n)];
+  return special::LogGamma(n + 1.0);
+}
 
 double WaldZ(double level) {
   if (!(level > 0.0 && level < 1.0)) return kNaN;

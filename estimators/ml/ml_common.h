@@ -48,6 +48,9 @@ inline double NextLastTime(double time, double last_time) {
 // True for finite whole numbers (counts are stored in doubles).
 inline bool IsWholeNumber(double v) { return std::isfinite(v) && std::floor(v) == v; }
 
+// log(n!) for a whole number n >= 0: a table below 256 (counts are mostly small), LogGamma above.
+double LogFactorial(double n);
+
 // z such that a two-sided normal interval +-z*se has coverage `level`; NaN unless 0 < level < 1.
 double WaldZ(double level);
 

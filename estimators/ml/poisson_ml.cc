@@ -3,8 +3,6 @@
 #include <cmath>
 #include <string>
 
-#include "estimators/core/distributions.h"
-#include "estimators/core/special_functions.h"
 
 namespace bayline::est {
 
@@ -68,7 +66,8 @@ Status PoissonMl::Update(const Sample& s, Innovation* out) {
   const double r = rate();
   if (r > 0) {
     const double mu = r * s.exposure;
-    ml_internal::FillInnovation(s.y, mu, std::sqrt(mu), dist::PoissonLogPmf(s.y, mu), &inn);
+    const double log_mass = (s.y > 0 ? s.y * std::log(mu) : 0.0) - mu - ml_internal::LogFactorial(s.y);
+    ml_internal::FillInnovation(s.y, mu, std::sqrt(mu), log_mass, &inn);
   }
 
   const double f = ml_internal::StepFactor(options_.forgetting, s.time, state_.last_time);
@@ -77,7 +76,7 @@ Status PoissonMl::Update(const Sample& s, Innovation* out) {
   next.sum_y = f * state_.sum_y + s.weight * s.y;
   next.sum_exposure = f * state_.sum_exposure + s.weight * s.exposure;
   next.log_const = f * state_.log_const +
-                   s.weight * ((s.y > 0 ? s.y * std::log(s.exposure) : 0.0) - special::LogGamma(s.y + 1.0));
+                   s.weight * ((s.y > 0 && s.exposure != 1.0 ? s.y * std::log(s.exposure) : 0.0) - ml_internal::LogFactorial(s.y));
   next.count = state_.count + 1;
   next.last_time = ml_internal::NextLastTime(s.time, state_.last_time);
   if (!std::isfinite(next.weight_sum) || !std::isfinite(next.sum_y) || !std::isfinite(next.sum_exposure) ||
