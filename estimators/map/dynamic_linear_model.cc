@@ -22,7 +22,14 @@ Status DynamicLinearModel<P>::Options::Validate() const {
     return map_internal::Config("p = " + std::to_string(p) + " does not fit this model");
   }
   const auto n = static_cast<std::size_t>(p);
-  if (!(obs_variance > 0) || !std::isfinite(obs_variance)) {
+  if (learn_obs_variance) {
+    if (!(obs_variance_shape > 0) || !std::isfinite(obs_variance_shape)) {
+      return map_internal::Config("obs_variance_shape must be > 0 and finite");
+    }
+    if (!(obs_variance_scale > 0) || !std::isfinite(obs_variance_scale)) {
+      return map_internal::Config("obs_variance_scale must be > 0 and finite");
+    }
+  } else if (!(obs_variance > 0) || !std::isfinite(obs_variance)) {
     return map_internal::Config("obs_variance must be > 0 and finite");
   }
   if (!state_variance.empty() && state_variance.size() != n) {
@@ -74,6 +81,10 @@ DynamicLinearModel<P>::DynamicLinearModel(const Options& options)
       if (!options_.initial_mean.empty()) state_.m(i) = options_.initial_mean[i];
     }
   }
+  if (options_.learn_obs_variance) {
+    state_.v_shape = options_.obs_variance_shape;
+    state_.v_scale = options_.obs_variance_scale;
+  }
   u_work_.resize(p_, p_);
   ux_.resize(p_);
   array_.resize(p_ + 1, p_ + 1);
@@ -104,7 +115,8 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
     for (int j = i; j < p_; ++j) ux_(i) += u_work_(i, j) * s.x[j];
   }
   array_.setZero();
-  array_(0, 0) = std::sqrt(options_.obs_variance / s.weight);
+  const bool learn = options_.learn_obs_variance;
+  array_(0, 0) = std::sqrt((learn ? 1.0 : options_.obs_variance) / s.weight);
   for (int i = 0; i < p_; ++i) {
     row_(0) = ux_(i);
     row_.tail(p_) = u_work_.row(i);
@@ -117,17 +129,32 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
   inn.valid = true;
   inn.prediction = f;
   inn.residual = e;
-  inn.predictive_sd = sq;
-  inn.standardized = e / sq;
-  inn.log_predictive = -0.5 * std::log(2 * std::numbers::pi * Q) - 0.5 * inn.standardized *
-                                                                         inn.standardized;
+  double v_shape = state_.v_shape, v_scale = state_.v_scale;
+  if (learn) {
+    // Q here is Q* (V = 1); the predictive is Student-t with scale^2 = (bV / aV) Q*.
+    const double nu = 2 * v_shape, scale = std::sqrt(v_scale / v_shape * Q), t = e / scale;
+    inn.predictive_sd = nu > 2 ? scale * std::sqrt(nu / (nu - 2)) : map_internal::kInf;
+    inn.standardized = map_internal::StudentTNormalScore(t, nu);
+    inn.log_predictive = dist::StudentTLogPdf(t, nu) - std::log(scale);
+    v_shape += 0.5;
+    v_scale += 0.5 * e * e / Q;
+  } else {
+    inn.predictive_sd = sq;
+    inn.standardized = e / sq;
+    inn.log_predictive = -0.5 * std::log(2 * std::numbers::pi * Q) - 0.5 * inn.standardized *
+                                                                           inn.standardized;
+  }
   const double ll = state_.log_likelihood + inn.log_predictive;
-  if (!std::isfinite(ll)) return map_internal::Numerical("log-likelihood not finite");
+  if (!std::isfinite(ll) || !std::isfinite(inn.standardized) || !std::isfinite(v_scale)) {
+    return map_internal::Numerical("log-likelihood not finite");
+  }
 
   // m += K e with K = k / sqrt(Q), k' = array_(0, 1:).
   for (int i = 0; i < p_; ++i) state_.m(i) += array_(0, i + 1) / sq * e;
   state_.U = array_.bottomRightCorner(p_, p_);
   state_.log_likelihood = ll;
+  state_.v_shape = v_shape;
+  state_.v_scale = v_scale;
   state_.effective_n += s.weight;
   state_.count += 1;
   if (out) *out = inn;
@@ -136,7 +163,12 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
 
 template <int P>
 typename DynamicLinearModel<P>::Matrix DynamicLinearModel<P>::covariance() const {
-  return state_.U.transpose() * state_.U;
+  Matrix c = state_.U.transpose() * state_.U;
+  if (options_.learn_obs_variance) {
+    const double a = state_.v_shape;
+    c *= a > 1 ? state_.v_scale / (a - 1) : map_internal::kInf;
+  }
+  return c;
 }
 
 template <int P>
@@ -148,16 +180,24 @@ ParameterReport DynamicLinearModel<P>::Report(double level) const {
   r.std_error.resize(n);
   r.lower.resize(n);
   r.upper.resize(n);
-  const double zq = map_internal::LevelOk(level) ? dist::NormalQuantile(0.5 + 0.5 * level) : kNaN;
+  const bool learn = options_.learn_obs_variance;
+  const double a = state_.v_shape, b = state_.v_scale, nu = 2 * a;
+  const bool ok = map_internal::LevelOk(level);
+  // Given V: normal marginals. Learned V: Student-t with scale^2 = (bV / aV) C*_jj.
+  const double zq = !ok ? kNaN
+                        : (learn ? dist::StudentTQuantile(0.5 + 0.5 * level, nu)
+                                 : dist::NormalQuantile(0.5 + 0.5 * level));
   for (int j = 0; j < p_; ++j) {
-    const double sd = state_.U.col(j).norm();
-    r.value[j] = r.posterior_mean[j] = state_.m(j);
-    r.std_error[j] = sd;
-    r.lower[j] = state_.m(j) - zq * sd;
-    r.upper[j] = state_.m(j) + zq * sd;
+    const double u = state_.U.col(j).norm();  // sqrt(C_jj) or sqrt(C*_jj)
+    const double scale = learn ? std::sqrt(b / a) * u : u;
+    r.value[j] = state_.m(j);
+    r.posterior_mean[j] = learn && !(nu > 1) ? kNaN : state_.m(j);
+    r.std_error[j] = !learn ? u : (a > 1 ? std::sqrt(b / (a - 1)) * u : map_internal::kInf);
+    r.lower[j] = state_.m(j) - zq * scale;
+    r.upper[j] = state_.m(j) + zq * scale;
   }
   r.level = level;
-  r.identifiable = true;
+  r.identifiable = !learn || a > 1;
   r.effective_n = state_.effective_n;
   r.log_likelihood = state_.log_likelihood;
   return r;
@@ -174,13 +214,23 @@ Prediction DynamicLinearModel<P>::Predict(std::span<const double> x, double leve
     xv(i) = x[i];
   }
   const double q = (state_.U * xv).squaredNorm();
-  const double zq = dist::NormalQuantile(0.5 + 0.5 * level);
   pr.mean = xv.dot(state_.m);
-  pr.mean_sd = std::sqrt(q);
-  pr.sd = std::sqrt(q + options_.obs_variance);
-  pr.lower = pr.mean - zq * pr.sd;
-  pr.upper = pr.mean + zq * pr.sd;
-  pr.valid = std::isfinite(pr.mean) && std::isfinite(pr.sd);
+  if (options_.learn_obs_variance) {
+    const double a = state_.v_shape, b = state_.v_scale, nu = 2 * a;
+    const double scale = std::sqrt(b / a * (q + 1.0));
+    const double tq = dist::StudentTQuantile(0.5 + 0.5 * level, nu);
+    pr.mean_sd = a > 1 ? std::sqrt(b / (a - 1) * q) : map_internal::kInf;
+    pr.sd = nu > 2 ? scale * std::sqrt(nu / (nu - 2)) : map_internal::kInf;
+    pr.lower = pr.mean - tq * scale;
+    pr.upper = pr.mean + tq * scale;
+  } else {
+    const double zq = dist::NormalQuantile(0.5 + 0.5 * level);
+    pr.mean_sd = std::sqrt(q);
+    pr.sd = std::sqrt(q + options_.obs_variance);
+    pr.lower = pr.mean - zq * pr.sd;
+    pr.upper = pr.mean + zq * pr.sd;
+  }
+  pr.valid = std::isfinite(pr.mean) && std::isfinite(pr.lower) && std::isfinite(pr.upper);
   return pr;
 }
 
@@ -192,6 +242,8 @@ void DynamicLinearModel<P>::State::Pack(StateWriter& w) const {
   w.Put(log_likelihood);
   w.Put(effective_n);
   w.Put(count);
+  w.Put(v_shape);
+  w.Put(v_scale);
 }
 
 template <int P>
@@ -209,6 +261,8 @@ Status DynamicLinearModel<P>::State::Unpack(StateReader& r) {
   r.Get(log_likelihood);
   r.Get(effective_n);
   r.Get(count);
+  r.Get(v_shape);
+  r.Get(v_scale);
   return r.status();
 }
 
@@ -223,6 +277,13 @@ Status DynamicLinearModel<P>::Restore(const State& s) {
     for (int i = j + 1; i < p_; ++i) {
       if (s.U(i, j) != 0) return map_internal::BadState("factor is not upper triangular");
     }
+  }
+  const bool learned = s.v_shape > 0 && s.v_scale > 0;
+  if (options_.learn_obs_variance ? !learned : (s.v_shape != 0 || s.v_scale != 0)) {
+    return map_internal::BadState("observation variance posterior does not fit the options");
+  }
+  if (!std::isfinite(s.v_shape) || !std::isfinite(s.v_scale)) {
+    return map_internal::BadState("observation variance posterior not finite");
   }
   if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_likelihood, s.count, kNaN);
       !st.ok()) {

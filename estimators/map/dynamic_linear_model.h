@@ -7,7 +7,8 @@
 //   beta_1 ~ N(m1, C1)   (the prior of the coefficients AT THE FIRST OBSERVATION: no drift step is
 //                         applied before it; this is the state-space convention of a known initial
 //                         state for the first period)
-// V and W are given (not learned); W is per observation (Sample::time is not used).
+// V and W are given (Options::learn_obs_variance = false, the default) or V is learned (below);
+// W is per observation (Sample::time is not used).
 // Recursions, with C = U'U (U upper triangular, the state's factor):
 //   drift (before every observation but the first):  a = m,  R = C + W;
 //   predictive:  f = x' a,  Q = x' R x + V / w;   e = y - f;
@@ -29,6 +30,21 @@
 // log_likelihood in Report() = their running sum (the exact Gaussian log-likelihood of the data).
 // Predict(x): the current (filtered) coefficients, no further drift: mean x'm, mean_sd^2 = x'Cx,
 // sd^2 = x'Cx + V, normal prediction interval.
+//
+// Learned observation variance (Options::learn_obs_variance = true): the conjugate "variance
+// learning" form of the model, with every variance in units of the unknown V:
+//   v_t ~ N(0, V / w_t),  u_t ~ N(0, V W*),  beta_1 | V ~ N(m1, V C1*),  V ~ InvGamma(aV, bV)
+// where W* = diag(state_variance), C1* from the initialisation options (also in units of V) and
+// (aV, bV) = (obs_variance_shape, obs_variance_scale) at the start. The recursions above run with
+// V = 1 (giving Q*, K, C*), then aV += 1/2 and bV += e^2 / (2 Q*). Consequences:
+//   predictive  y_t | past ~ f + sqrt((bV/aV) Q*) StudentT(2 aV) (standardized = its normal score,
+//               as in nig_regression.h; log_predictive its log density);
+//   marginals   beta_j | D ~ m_j + sqrt((bV/aV) C*_jj) StudentT(2 aV), std_error
+//               sqrt(bV/(aV-1) C*_jj) (+Inf if aV <= 1), Student-t credible intervals,
+//               identifiable = aV > 1; covariance() = bV/(aV-1) C* (+Inf if aV <= 1);
+//   Predict(x)  Student-t with scale^2 = (bV/aV)(x'C*x + 1).
+// With W* = 0 this is exactly the normal-inverse-gamma regression (nig_regression.h) with
+// Lambda0 = C1*^{-1}, m0 = m1, a0 = aV, b0 = bV.
 //
 // Thread safety: none. No heap allocation in Update() for fixed P (except a rejection's message).
 // Instantiations provided: P = 1, 2, 3, 4 and Eigen::Dynamic.
@@ -61,6 +77,11 @@ class DynamicLinearModel {
     double diffuse_variance = 1e6;          // > 0, finite (used when diffuse)
     std::vector<double> initial_mean;       // used when !diffuse: length p, finite (empty = zeros)
     std::vector<double> initial_variance;   // used when !diffuse: length p, each > 0 and finite
+    bool learn_obs_variance = false;        // true: V unknown (see the header comment); then
+                                            // obs_variance is ignored and state, diffuse and
+                                            // initial variances are in units of V
+    double obs_variance_shape = 1e-3;       // aV at the start, > 0 (used when learning)
+    double obs_variance_scale = 1e-3;       // bV at the start, > 0 (used when learning)
     Status Validate() const;                // ok or kInvalidConfig naming the field
   };
 
@@ -70,6 +91,8 @@ class DynamicLinearModel {
     double log_likelihood = 0;
     double effective_n = 0;  // sum of weights
     double count = 0;        // accepted observations (0: no drift step before the next one)
+    double v_shape = 0;      // aV (learned V; 0 when V is given)
+    double v_scale = 0;      // bV (learned V; 0 when V is given)
     void Pack(StateWriter& w) const;  // first value is p
     Status Unpack(StateReader& r);    // kInvalidState on a short / long / wrong-p input
   };
@@ -86,12 +109,12 @@ class DynamicLinearModel {
   Prediction Predict(std::span<const double> x, double level = 0.95) const;
 
   Vector mean() const { return state_.m; }
-  Matrix covariance() const;  // C = U'U
+  Matrix covariance() const;  // Cov(beta | D): U'U (given V) or bV/(aV-1) U'U (learned V)
   int p() const { return p_; }
   const Options& options() const { return options_; }
   const State& state() const { return state_; }
-  // Validates (size p, finite, U upper triangular with diagonal >= 0), then replaces;
-  // kInvalidState else.
+  // Validates (size p, finite, U upper triangular with diagonal >= 0, aV and bV > 0 when V is
+  // learned, both 0 when it is given), then replaces; kInvalidState else.
   Status Restore(const State& s);
 
  private:

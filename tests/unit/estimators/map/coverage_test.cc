@@ -187,5 +187,41 @@ TEST(CoverageTest, DynamicLinearModelFilteredState) {
   for (int j = 0; j < 2; ++j) EXPECT_NEAR(cover[j] / double(kReplicates), kLevel, kBand) << j;
 }
 
+TEST(CoverageTest, DynamicLinearModelLearnedVariance) {
+  // V ~ InvGamma(3, 2); beta_1 | V ~ N(m1, V C1*); drift V W*; data given them.
+  DynamicLinearModel<2>::Options o;
+  o.learn_obs_variance = true;
+  o.obs_variance_shape = 3.0;
+  o.obs_variance_scale = 2.0;
+  o.state_variance = {0.1, 0.05};
+  o.diffuse = false;
+  o.initial_mean = {0.0, 1.0};
+  o.initial_variance = {1.0, 0.5};
+  std::mt19937_64 rng(107);
+  std::normal_distribution<double> N(0, 1);
+  int cover[2] = {0, 0};
+  for (int rep = 0; rep < kReplicates; ++rep) {
+    const double V = 1.0 / DrawGamma(rng, 3.0, 2.0), sv = std::sqrt(V);
+    double beta[2] = {sv * N(rng), 1.0 + sv * std::sqrt(0.5) * N(rng)};
+    DynamicLinearModel<2> f(o);
+    for (int t = 0; t < 6; ++t) {
+      if (t > 0) {
+        beta[0] += sv * std::sqrt(0.1) * N(rng);
+        beta[1] += sv * std::sqrt(0.05) * N(rng);
+      }
+      const double x[2] = {1.0, N(rng)};
+      Sample s;
+      s.x = x;
+      s.y = beta[0] + beta[1] * x[1] + sv * N(rng);
+      ASSERT_TRUE(f.Update(s).ok());
+    }
+    const ParameterReport r = f.Report(kLevel);
+    for (int j = 0; j < 2; ++j) cover[j] += Covers(r, j, beta[j]);
+  }
+  Print("dlm learned-V beta0", cover[0]);
+  Print("dlm learned-V beta1", cover[1]);
+  for (int j = 0; j < 2; ++j) EXPECT_NEAR(cover[j] / double(kReplicates), kLevel, kBand) << j;
+}
+
 }  // namespace
 }  // namespace bayline::est

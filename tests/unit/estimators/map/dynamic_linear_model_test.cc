@@ -8,6 +8,7 @@
 #include <Eigen/Dense>
 #include <gtest/gtest.h>
 
+#include "estimators/map/nig_regression.h"
 #include "tests/unit/estimators/map/map_test_util.h"
 
 namespace bayline::est {
@@ -121,6 +122,57 @@ TEST(DynamicLinearModelTest, StaticCoefficientsGiveTheBatchGaussianPosterior) {
   EXPECT_TRUE(RelNear(rep.upper[1] - rep.value[1], 1.959963984540054 * rep.std_error[1], 1e-12));
 }
 
+TEST(DynamicLinearModelTest, LearnedVarianceWithStaticCoefficientsIsTheNigRegression) {
+  // With W* = 0 the variance-learning tracker is the normal-inverse-gamma regression with
+  // Lambda0 = C1*^{-1}: two different algorithms (covariance-factor Kalman vs information-factor
+  // Givens) for the same posterior.
+  const Series s = RandomWalkRegression(60, 3, 0.7, {0, 0, 0}, 8);
+  DynamicLinearModel<3>::Options o;
+  o.learn_obs_variance = true;
+  o.obs_variance_shape = 2.0;
+  o.obs_variance_scale = 1.5;
+  o.diffuse = false;
+  o.initial_mean = {0.5, -1.0, 0.0};
+  o.initial_variance = {2.0, 0.5, 4.0};
+  DynamicLinearModel<3> f(o);
+  NigRegression<3>::Options no;
+  no.prior_mean = {0.5, -1.0, 0.0};
+  no.prior_precision = {0.5, 2.0, 0.25};
+  no.a0 = 2.0;
+  no.b0 = 1.5;
+  NigRegression<3> nig(no);
+  for (int t = 0; t < 60; ++t) {
+    Innovation a, b;
+    ASSERT_TRUE(Feed(f, s, t, &a).ok());
+    std::vector<double> row = {s.X(t, 0), s.X(t, 1), s.X(t, 2)};
+    Sample smp;
+    smp.y = s.y(t);
+    smp.x = row;
+    ASSERT_TRUE(nig.Update(smp, &b).ok());
+    EXPECT_TRUE(RelNear(a.log_predictive, b.log_predictive, 1e-10));
+    EXPECT_TRUE(RelNear(a.standardized, b.standardized, 1e-8, 1e-6));
+    EXPECT_TRUE(RelNear(a.predictive_sd, b.predictive_sd, 1e-10));
+  }
+  const ParameterReport a = f.Report(0.9), b = nig.Report(0.9);
+  ASSERT_TRUE(a.identifiable);
+  for (int j = 0; j < 3; ++j) {
+    EXPECT_TRUE(RelNear(a.value[j], b.value[j], 1e-10));
+    EXPECT_TRUE(RelNear(a.std_error[j], b.std_error[j], 1e-10));
+    EXPECT_TRUE(RelNear(a.lower[j], b.lower[j], 1e-10));
+    EXPECT_TRUE(RelNear(a.upper[j], b.upper[j], 1e-10));
+  }
+  EXPECT_TRUE(RelNear(a.log_likelihood, b.log_likelihood, 1e-10));
+  EXPECT_TRUE(RelNear(f.state().v_scale, nig.b(), 1e-10));
+  const double x[3] = {1.0, 0.3, -2.0};
+  const Prediction pa = f.Predict(x, 0.8), pb = nig.Predict(x, 0.8);
+  EXPECT_TRUE(RelNear(pa.lower, pb.lower, 1e-10));
+  EXPECT_TRUE(RelNear(pa.mean_sd, pb.mean_sd, 1e-10));
+  const Eigen::Matrix3d ca = f.covariance();
+  const Eigen::Matrix3d cb = nig.b() / (nig.a() - 1) * nig.precision_inverse();
+  for (int i = 0; i < 3; ++i)
+    for (int j = 0; j < 3; ++j) EXPECT_TRUE(RelNear(ca(i, j), cb(i, j), 1e-9, 1e-12));
+}
+
 TEST(DynamicLinearModelTest, LongIllConditionedRunStaysPositiveDefinite) {
   // 1e5 updates, nearly collinear regressors (x2 = x1 + 1e-6 noise), tiny drift: the covariance
   // factor must stay finite with a non-negative diagonal, and the innovations standard.
@@ -227,6 +279,10 @@ TEST(DynamicLinearModelTest, CaptureRestoreContinueIsBitIdenticalAndBadStatesRej
   bad = a.state();
   bad.m(0) = INFINITY;
   EXPECT_EQ(a.Restore(bad).code(), ErrorCode::kInvalidState);
+  DynamicLinearModel<>::Options lo = o;
+  lo.learn_obs_variance = true;
+  DynamicLinearModel<> learning(lo);
+  EXPECT_EQ(learning.Restore(a.state()).code(), ErrorCode::kInvalidState);  // no V posterior
   DynamicLinearModel<2> two(DynamicLinearModel<2>::Options{});
   DynamicLinearModel<2>::State st2;
   StateReader r2(packed);
@@ -259,6 +315,12 @@ TEST(DynamicLinearModelTest, PredictionAndOptions) {
   EXPECT_EQ(bad.Validate().code(), ErrorCode::kInvalidConfig);
   bad = {};
   bad.p = 3;
+  EXPECT_EQ(bad.Validate().code(), ErrorCode::kInvalidConfig);
+  bad = {};
+  bad.learn_obs_variance = true;
+  bad.obs_variance = 0;  // ignored when learning
+  EXPECT_TRUE(bad.Validate().ok());
+  bad.obs_variance_scale = 0;
   EXPECT_EQ(bad.Validate().code(), ErrorCode::kInvalidConfig);
 }
 

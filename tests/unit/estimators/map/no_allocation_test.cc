@@ -80,6 +80,9 @@ TEST(NoAllocationTest, FixedSizeRegressionAndTrackerUpdates) {
   d.state_variance = {1e-3, 1e-3, 0.0, 1e-4};
   DynamicLinearModel<4> dlm(d);
   EXPECT_EQ(RegressionUpdates(dlm, 4), 0);
+  d.learn_obs_variance = true;
+  DynamicLinearModel<4> dlm_learning(d);
+  EXPECT_EQ(RegressionUpdates(dlm_learning, 4), 0);
 }
 
 TEST(NoAllocationTest, DynamicSizeUsesPreallocatedBuffers) {
