@@ -74,8 +74,8 @@ class Bocpd {
     double prior_alpha = 1.0;  // beta-binomial a0
     double prior_beta = 1.0;   // beta-binomial b0
     double hazard = 0.01;            // H in (0, 1): prior probability of a change per observation
-    double prune_epsilon = 1e-10;    // in [0, 1): drop run lengths with posterior mass below it
-    int max_run_lengths = 1000;      // >= 2: cap on retained run lengths (storage is cap + 1)
+    double prune_epsilon = 1e-5;     // in [0, 1): drop run lengths with posterior mass below it
+    int max_run_lengths = 300;       // >= 2: cap on retained run lengths (storage is cap + 1)
     int window = 10;                 // m >= 1: "change within the last m observations"
     double threshold = 0.5;          // in (0, 1]
     int holdoff = 0;                 // >= 0 observations after a raise

@@ -305,14 +305,18 @@ TEST(BocpdTest, InControlFalseAlarmRateIsMeasured) {
     std::normal_distribution<double> n01;
     const int n = 20000;
     int alarms = 0;
+    double runs = 0;
     for (int t = 0; t < n; ++t) {
       DetectorEvent ev;
       ASSERT_TRUE(d.Update(Y(3 + 1.5 * n01(rng)), {t, NAN}, &ev).ok());
       alarms += ev.raised;
+      runs += static_cast<double>(d.state().runs.size());
     }
     const double rate = static_cast<double>(alarms) / n;
-    std::printf("BOCPD in-control: hazard %.4g window %d threshold %.2g -> %d alarms in %d obs (%.3g per obs)\n",
-                hazard, o.window, o.threshold, alarms, n, rate);
+    std::printf("BOCPD in-control: hazard %.4g window %d threshold %.2g -> %d alarms in %d obs (%.3g per obs);"
+                " mean retained run lengths %.1f, pruned mass %.2g per obs (epsilon %.0e, cap %d)\n",
+                hazard, o.window, o.threshold, alarms, n, rate, runs / n, d.state().discarded_mass / n,
+                o.prune_epsilon, o.max_run_lengths);
     EXPECT_LT(rate, hazard);
   }
 }
