@@ -81,14 +81,12 @@ DetectorEvent Ewma::Update(double z, const ObservationMark& mark) {
   st.count += 1.0;
   st.decay *= decay_step_;
   // Onset: the first observation of the current run of Z on one side of zero.
-  if (st.count == 1.0 || (previous > 0.0) != (st.z > 0.0) || previous == 0.0) {
-    st.onset_seq = mark.seq;
-    st.onset_time = mark.time;
-    st.run_sum = 0.0;
-    st.run_count = 0.0;
-  }
-  st.run_sum += z;
-  st.run_count += 1.0;
+  // Branch-free: sign changes of Z are unpredictable on in-control data.
+  const bool starts = previous == 0.0 || (previous > 0.0) != (st.z > 0.0);
+  st.onset_seq = starts ? mark.seq : st.onset_seq;
+  st.onset_time = starts ? mark.time : st.onset_time;
+  st.run_sum = (starts ? 0.0 : st.run_sum) + z;
+  st.run_count = (starts ? 0.0 : st.run_count) + 1.0;
   const double limit = options_.L * LimitSd(st.count, st.decay);
   ev.threshold = limit;
   ev.statistic = statistic(st.z);

@@ -10,16 +10,13 @@ namespace {
 
 inline void StepSide(double x, const ObservationMark& mark, double& c, double& count,
                      std::int64_t& onset_seq, double& onset_time) {
+  // Branch-free: whether C is positive flips unpredictably on in-control data.
   c = std::max(0.0, c + x);
-  if (c > 0.0) {
-    if (count == 0.0) {
-      onset_seq = mark.seq;
-      onset_time = mark.time;
-    }
-    count += 1.0;
-  } else {
-    count = 0.0;
-  }
+  const bool positive = c > 0.0;
+  const bool starts = positive && count == 0.0;
+  onset_seq = starts ? mark.seq : onset_seq;
+  onset_time = starts ? mark.time : onset_time;
+  count = positive ? count + 1.0 : 0.0;
 }
 
 bool IsCount(double c) { return std::isfinite(c) && c >= 0.0 && c == std::floor(c); }

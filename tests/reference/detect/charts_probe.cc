@@ -3,6 +3,7 @@
 //
 //   charts_probe arl cusum <k> <h> <head_start> <shift>        -> one ARL (two-sided CUSUM)
 //   charts_probe arl ewma <lambda> <L> <fix|vacl> <shift>      -> one ARL (two-sided EWMA)
+//   charts_probe markdown <arl0>                               -> README table for one ARL0
 //   charts_probe table                                         -> calibration table, CSV rows
 //     chart,limits,arl0,design_shift,p1,p2,shift,arl
 //     (cusum: p1 = k, p2 = h; ewma: p1 = lambda, p2 = L; limits fix|vacl|-)
@@ -49,11 +50,39 @@ int Table() {
   return 0;
 }
 
+// Calibrated settings for design shifts 0.5..3 at one ARL0, and their ARLs at shifts 0.5..3, as
+// a Markdown table (CUSUM; EWMA with exact and with asymptotic limits), zero-state ARLs.
+int Markdown(double arl0) {
+  const std::vector<double> ds = {0.5, 1.0, 1.5, 2.0, 2.5, 3.0};
+  std::printf("| chart | design shift D | settings | ARL0 | ARL at 0.5 | 1 | 1.5 | 2 | 2.5 | 3 |\n");
+  std::printf("|---|---|---|---|---|---|---|---|---|---|\n");
+  for (double d : ds) {
+    CusumOptions c;
+    EwmaOptions e;
+    if (!CalibrateCusum({arl0, d}, &c).ok() || !CalibrateEwma({arl0, d}, &e).ok()) return 1;
+    std::printf("| CUSUM | %g | k = %.3g, h = %.3f | %.0f |", d, c.k, c.h, CusumArl(c, 0.0));
+    for (double mu : ds) std::printf(" %.3g |", CusumArl(c, mu));
+    std::printf("\n| EWMA (exact limits) | %g | lambda = %.2g, L = %.3f | %.0f |", d, e.lambda, e.L,
+                EwmaArl(e, 0.0));
+    for (double mu : ds) std::printf(" %.3g |", EwmaArl(e, mu));
+    // Same lambda with asymptotic limits: what a shift arriving long after the start meets.
+    EwmaOptions a = e;
+    a.limits = EwmaLimits::kAsymptotic;
+    if (!CalibrateEwmaWidth(arl0, &a).ok()) return 1;
+    std::printf("\n| EWMA (asymptotic limits) | %g | lambda = %.2g, L = %.3f | %.0f |", d, a.lambda, a.L,
+                EwmaArl(a, 0.0));
+    for (double mu : ds) std::printf(" %.3g |", EwmaArl(a, mu));
+    std::printf("\n");
+  }
+  return 0;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
   const std::vector<std::string> a(argv + 1, argv + argc);
   if (a.size() == 1 && a[0] == "table") return Table();
+  if (a.size() == 2 && a[0] == "markdown") return Markdown(std::atof(a[1].c_str()));
   if (a.size() == 6 && a[0] == "arl" && a[1] == "cusum") {
     CusumOptions c;
     c.k = std::atof(a[2].c_str());
@@ -70,6 +99,6 @@ int main(int argc, char** argv) {
     std::printf("%.10g\n", EwmaArl(e, std::atof(a[5].c_str())));
     return 0;
   }
-  std::fprintf(stderr, "usage: charts_probe table | arl cusum k h hs shift | arl ewma lambda L fix|vacl shift\n");
+  std::fprintf(stderr, "usage: charts_probe table | markdown arl0 | arl cusum k h hs shift | arl ewma lambda L fix|vacl shift\n");
   return 2;
 }
