@@ -13,8 +13,10 @@ Status Bad(const std::string& what) { return Status::Error(ErrorCode::kInvalidCo
 
 Status ToleranceBand::Options::Validate() const {
   if (parameter < 0) return Bad("band parameter index must be >= 0");
-  if (!std::isfinite(lo) || !std::isfinite(hi) || !(lo < hi)) return Bad("band needs finite lo < hi");
-  if (!(hysteresis >= 0) || !(2 * hysteresis <= hi - lo)) return Bad("band hysteresis must be in [0, (hi - lo) / 2]");
+  if (!std::isfinite(lo) || !std::isfinite(hi) || !(lo < hi))
+    return Bad("band needs finite lo < hi");
+  if (!(hysteresis >= 0) || !(2 * hysteresis <= hi - lo))
+    return Bad("band hysteresis must be in [0, (hi - lo) / 2]");
   if (holdoff < 0) return Bad("band holdoff must be >= 0");
   return Status::Ok();
 }
@@ -47,9 +49,9 @@ Status ToleranceBand::Update(const ParameterReport& report, const ObservationMar
                              DetectorEvent* event) {
   const auto i = static_cast<std::size_t>(options_.parameter);
   if (i >= report.value.size() || i >= report.lower.size() || i >= report.upper.size()) {
-    return Status::Error(ErrorCode::kOutOfDomain, "band parameter " + std::to_string(i) +
-                                                      " is not in a report of " +
-                                                      std::to_string(report.value.size()) + " parameters");
+    return Status::Error(ErrorCode::kOutOfDomain,
+                         "band parameter " + std::to_string(i) + " is not in a report of " +
+                             std::to_string(report.value.size()) + " parameters");
   }
   DetectorEvent ev;
   ev.threshold = 0;
@@ -62,9 +64,11 @@ Status ToleranceBand::Update(const ParameterReport& report, const ObservationMar
     return Status::Ok();
   }
   if (!std::isfinite(v)) {
-    return Status::Error(ErrorCode::kNonFinite, "band parameter " + std::to_string(i) + " estimate is " + std::to_string(v));
+    return Status::Error(ErrorCode::kNonFinite, "band parameter " + std::to_string(i) +
+                                                    " estimate is " + std::to_string(v));
   }
-  if (lower > upper) return Status::Error(ErrorCode::kOutOfDomain, "band interval has lower > upper");
+  if (lower > upper)
+    return Status::Error(ErrorCode::kOutOfDomain, "band interval has lower > upper");
 
   const double lo = options_.lo, hi = options_.hi, h = options_.hysteresis;
   State& s = state_;
@@ -104,7 +108,8 @@ Status ToleranceBand::Update(const ParameterReport& report, const ObservationMar
 }
 
 Status ToleranceBand::Restore(const State& s) {
-  if (!(s.holdoff_left >= 0) || s.holdoff_left > options_.holdoff || s.holdoff_left != std::floor(s.holdoff_left))
+  if (!(s.holdoff_left >= 0) || s.holdoff_left > options_.holdoff ||
+      s.holdoff_left != std::floor(s.holdoff_left))
     return Status::Error(ErrorCode::kInvalidState, "band holdoff_left out of range");
   if (!std::isfinite(s.outside_seq) || std::isinf(s.outside_time))
     return Status::Error(ErrorCode::kInvalidState, "band onset mark invalid");

@@ -3,9 +3,10 @@
 //
 // Input per observation: a ParameterReport (core/report.h) and the index i of the watched
 // parameter, with interval [L, U] = [report.lower[i], report.upper[i]] at report.level.
-//   gap = max(lo - U, L - hi)                    (> 0 iff the interval lies wholly outside the band)
-//   raised  when gap > 0 (statistic = gap, threshold = 0); direction kUp if L > hi, kDown if U < lo;
-//   cleared when the interval overlaps the shrunk band [lo + h, hi - h] again (h = `hysteresis`
+//   gap = max(lo - U, L - hi)                    (> 0 iff the interval lies wholly outside the
+//   band) raised  when gap > 0 (statistic = gap, threshold = 0); direction kUp if L > hi, kDown if
+//   U < lo; cleared when the interval overlaps the shrunk band [lo + h, hi - h] again (h =
+//   `hysteresis`
 //           >= 0, 2 h <= hi - lo), i.e. gap_h = max(lo + h - U, L - (hi - h)) <= 0.
 // So with level 0.95 an alarm says the parameter is outside the band at 95% confidence (one-sided
 // 97.5% per side for an equal-tailed interval). If the true value sits inside the band by several
@@ -34,8 +35,8 @@ namespace bayline::est {
 class ToleranceBand {
  public:
   struct Options {
-    int parameter = 0;        // index into the report's vectors, >= 0
-    double lo = -1.0;         // band, finite, lo < hi
+    int parameter = 0;  // index into the report's vectors, >= 0
+    double lo = -1.0;   // band, finite, lo < hi
     double hi = 1.0;
     double hysteresis = 0.0;  // h >= 0 with 2 h <= hi - lo
     int holdoff = 0;          // >= 0
@@ -44,7 +45,7 @@ class ToleranceBand {
   struct State {
     bool alarm_active = false;
     double holdoff_left = 0;
-    bool value_outside = false;               // estimate outside [lo, hi] at the last report
+    bool value_outside = false;                 // estimate outside [lo, hi] at the last report
     double outside_seq = -1, outside_time = 0;  // mark where it went outside
     void Pack(StateWriter& w) const;
     Status Unpack(StateReader& r);

@@ -98,9 +98,12 @@ Stats Absorb(BocpdModel model, const Stats& p, const Sample& s) {
 // Posterior mean of the watched parameter (mean, rate or probability).
 double ParameterMean(BocpdModel model, const Stats& p) {
   switch (model) {
-    case BocpdModel::kNormalGamma: return p[0];
-    case BocpdModel::kGammaPoisson: return p[0] / p[1];
-    case BocpdModel::kBetaBinomial: return p[0] / (p[0] + p[1]);
+    case BocpdModel::kNormalGamma:
+      return p[0];
+    case BocpdModel::kGammaPoisson:
+      return p[0] / p[1];
+    case BocpdModel::kBetaBinomial:
+      return p[0] / (p[0] + p[1]);
   }
   return kNaN;
 }
@@ -109,9 +112,11 @@ bool StatsValid(BocpdModel model, const Stats& p) {
   for (double v : p)
     if (!std::isfinite(v)) return false;
   switch (model) {
-    case BocpdModel::kNormalGamma: return p[1] > 0 && p[2] > 0 && p[3] > 0;
+    case BocpdModel::kNormalGamma:
+      return p[1] > 0 && p[2] > 0 && p[3] > 0;
     case BocpdModel::kGammaPoisson:
-    case BocpdModel::kBetaBinomial: return p[0] > 0 && p[1] > 0;
+    case BocpdModel::kBetaBinomial:
+      return p[0] > 0 && p[1] > 0;
   }
   return false;
 }
@@ -119,23 +124,29 @@ bool StatsValid(BocpdModel model, const Stats& p) {
 Status CheckDomain(BocpdModel model, const Sample& s) {
   if (Status c = CheckCommonFields(s, 0); !c.ok()) return c;
   if (s.weight != 1.0) {
-    return Status::Error(ErrorCode::kInvalidWeight,
-                         "bocpd takes unweighted observations, weight is " + std::to_string(s.weight));
+    return Status::Error(
+        ErrorCode::kInvalidWeight,
+        "bocpd takes unweighted observations, weight is " + std::to_string(s.weight));
   }
   switch (model) {
-    case BocpdModel::kNormalGamma: break;
+    case BocpdModel::kNormalGamma:
+      break;
     case BocpdModel::kGammaPoisson:
       if (!(s.y >= 0) || !IsInteger(s.y))
-        return Status::Error(ErrorCode::kOutOfDomain, "count must be an integer >= 0, got " + std::to_string(s.y));
+        return Status::Error(ErrorCode::kOutOfDomain,
+                             "count must be an integer >= 0, got " + std::to_string(s.y));
       if (!(s.exposure > 0))
-        return Status::Error(ErrorCode::kOutOfDomain, "exposure must be > 0, got " + std::to_string(s.exposure));
+        return Status::Error(ErrorCode::kOutOfDomain,
+                             "exposure must be > 0, got " + std::to_string(s.exposure));
       break;
     case BocpdModel::kBetaBinomial:
       if (!IsInteger(s.trials) || !(s.trials >= 1))
-        return Status::Error(ErrorCode::kOutOfDomain, "trials must be an integer >= 1, got " + std::to_string(s.trials));
+        return Status::Error(ErrorCode::kOutOfDomain,
+                             "trials must be an integer >= 1, got " + std::to_string(s.trials));
       if (!IsInteger(s.y) || !(s.y >= 0) || !(s.y <= s.trials))
-        return Status::Error(ErrorCode::kOutOfDomain, "successes must be an integer in [0, trials], got " +
-                                                          std::to_string(s.y));
+        return Status::Error(
+            ErrorCode::kOutOfDomain,
+            "successes must be an integer in [0, trials], got " + std::to_string(s.y));
       break;
   }
   return Status::Ok();
@@ -152,7 +163,8 @@ Status Bocpd::Options::Validate() const {
   if (!PositiveFinite(prior_alpha)) return Bad("bocpd prior_alpha must be > 0 and finite");
   if (!PositiveFinite(prior_beta)) return Bad("bocpd prior_beta must be > 0 and finite");
   if (!(hazard > 0 && hazard < 1)) return Bad("bocpd hazard must be in (0, 1)");
-  if (!(prune_epsilon >= 0 && prune_epsilon < 1)) return Bad("bocpd prune_epsilon must be in [0, 1)");
+  if (!(prune_epsilon >= 0 && prune_epsilon < 1))
+    return Bad("bocpd prune_epsilon must be in [0, 1)");
   if (max_run_lengths < 2) return Bad("bocpd max_run_lengths must be >= 2");
   if (window < 1) return Bad("bocpd window must be >= 1");
   if (!(threshold > 0 && threshold <= 1)) return Bad("bocpd threshold must be in (0, 1]");
@@ -212,7 +224,8 @@ Bocpd::Bocpd(const Options& options) : options_(options) {
   if (options_.model == BocpdModel::kNormalGamma) {
     // half_gamma_[k] for the shape after k observations, a0 + k / 2.
     half_gamma_.resize(cap + 1);
-    for (std::size_t k = 0; k <= cap; ++k) half_gamma_[k] = HalfGamma(options_.prior_shape + 0.5 * k);
+    for (std::size_t k = 0; k <= cap; ++k)
+      half_gamma_[k] = HalfGamma(options_.prior_shape + 0.5 * k);
   }
 }
 
@@ -253,12 +266,14 @@ Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent
   scratch_[old_size] = (old_size == 0 ? 0.0 : log_h) + log_prior_pred;
   max_lm = std::max(max_lm, scratch_[old_size]);
   if (!std::isfinite(max_lm)) {
-    return Status::Error(ErrorCode::kNumericalFailure, "bocpd predictive is not finite for y = " + std::to_string(s.y));
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "bocpd predictive is not finite for y = " + std::to_string(s.y));
   }
   double total = 0;
   for (std::size_t i = 0; i <= old_size; ++i) {
     if (std::isnan(scratch_[i])) {
-      return Status::Error(ErrorCode::kNumericalFailure, "bocpd predictive is NaN for y = " + std::to_string(s.y));
+      return Status::Error(ErrorCode::kNumericalFailure,
+                           "bocpd predictive is NaN for y = " + std::to_string(s.y));
     }
     total += std::exp(scratch_[i] - max_lm);
   }
@@ -309,7 +324,8 @@ Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent
     // The cap-th largest log mass; keep strictly larger ones plus enough ties.
     scratch_.resize(runs.size());
     for (std::size_t i = 0; i < runs.size(); ++i) scratch_[i] = runs[i].log_mass;
-    std::nth_element(scratch_.begin(), scratch_.begin() + (cap - 1), scratch_.end(), std::greater<>());
+    std::nth_element(scratch_.begin(), scratch_.begin() + (cap - 1), scratch_.end(),
+                     std::greater<>());
     const double cut = scratch_[cap - 1];
     std::size_t above = 0;
     for (const Run& r : runs) above += r.log_mass > cut;
@@ -398,13 +414,18 @@ double Bocpd::RunLengthProbability(std::int64_t r) const {
 }
 
 Status Bocpd::Restore(const State& s) {
-  auto bad = [](const std::string& why) { return Status::Error(ErrorCode::kInvalidState, "bocpd " + why); };
+  auto bad = [](const std::string& why) {
+    return Status::Error(ErrorCode::kInvalidState, "bocpd " + why);
+  };
   if (!(s.count >= 0) || !IsInteger(s.count)) return bad("count invalid");
-  if (!IsInteger(s.origin_start) || s.origin_start < 0 || s.origin_start > s.count) return bad("origin invalid");
+  if (!IsInteger(s.origin_start) || s.origin_start < 0 || s.origin_start > s.count)
+    return bad("origin invalid");
   if (!(s.holdoff_left >= 0 && s.holdoff_left <= options_.holdoff) || !IsInteger(s.holdoff_left))
     return bad("holdoff_left invalid");
-  if (!(s.discarded_mass >= 0) || !std::isfinite(s.discarded_mass)) return bad("discarded_mass invalid");
-  if (s.runs.size() > static_cast<std::size_t>(options_.max_run_lengths)) return bad("more runs than the cap");
+  if (!(s.discarded_mass >= 0) || !std::isfinite(s.discarded_mass))
+    return bad("discarded_mass invalid");
+  if (s.runs.size() > static_cast<std::size_t>(options_.max_run_lengths))
+    return bad("more runs than the cap");
   if ((s.count == 0) != s.runs.empty()) return bad("runs do not match count");
   double prev = kInf, total = 0;
   for (const Run& r : s.runs) {
@@ -417,7 +438,8 @@ Status Bocpd::Restore(const State& s) {
       // kappa and a are fixed by the run length (the tabulated predictive relies on it).
       const double k = r.length + 1;
       if (std::abs(r.stats[1] - (options_.prior_kappa + k)) > 1e-9 * (options_.prior_kappa + k) ||
-          std::abs(r.stats[2] - (options_.prior_shape + 0.5 * k)) > 1e-9 * (options_.prior_shape + k))
+          std::abs(r.stats[2] - (options_.prior_shape + 0.5 * k)) >
+              1e-9 * (options_.prior_shape + k))
         return bad("normal-gamma run statistics do not match the run length");
     }
     if (std::isinf(r.start_time) || !std::isfinite(r.start_seq)) return bad("run mark invalid");

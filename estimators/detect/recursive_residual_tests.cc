@@ -89,8 +89,10 @@ std::vector<double> BdeCusumSquaresPath(std::span<const double> w) {
 
 Status RecursiveCusum::Options::Validate() const {
   if (horizon < 2) return Bad("recursive_cusum horizon must be >= 2");
-  if (std::isnan(BdeCusumCoefficient(alpha))) return Bad("recursive_cusum alpha must be 0.10, 0.05 or 0.01");
-  if (!(sigma >= 0) || !std::isfinite(sigma)) return Bad("recursive_cusum sigma must be finite and >= 0");
+  if (std::isnan(BdeCusumCoefficient(alpha)))
+    return Bad("recursive_cusum alpha must be 0.10, 0.05 or 0.01");
+  if (!(sigma >= 0) || !std::isfinite(sigma))
+    return Bad("recursive_cusum sigma must be finite and >= 0");
   if (holdoff < 0) return Bad("recursive_cusum holdoff must be >= 0");
   return Status::Ok();
 }
@@ -107,8 +109,8 @@ void RecursiveCusum::State::Pack(StateWriter& w) const {
 
 Status RecursiveCusum::State::Unpack(StateReader& r) {
   State s;
-  for (double* v : {&s.j, &s.sum, &s.sum_sq, &s.min_sum, &s.min_j, &s.min_next_seq, &s.min_next_time,
-                    &s.max_sum, &s.max_j, &s.max_next_seq, &s.max_next_time})
+  for (double* v : {&s.j, &s.sum, &s.sum_sq, &s.min_sum, &s.min_j, &s.min_next_seq,
+                    &s.min_next_time, &s.max_sum, &s.max_j, &s.max_next_seq, &s.max_next_time})
     r.Get(*v);
   r.Get(s.pending_min);
   r.Get(s.pending_max);
@@ -313,13 +315,15 @@ Status RecursiveCusumSquares::Update(double w, const ObservationMark& mark, Dete
 }
 
 Status RecursiveCusumSquares::Restore(const State& s) {
-  if (!IsCount(s.j) || s.j >= options_.horizon) return BadState("recursive_cusum_sq j out of range");
+  if (!IsCount(s.j) || s.j >= options_.horizon)
+    return BadState("recursive_cusum_sq j out of range");
   const auto n = static_cast<std::size_t>(s.j);
   if (s.cum_sq.size() != n || s.seq.size() != n || s.time.size() != n)
     return BadState("recursive_cusum_sq block arrays do not match j");
   double prev = 0;
   for (double v : s.cum_sq) {
-    if (!std::isfinite(v) || v < prev) return BadState("recursive_cusum_sq sums must be finite and non-decreasing");
+    if (!std::isfinite(v) || v < prev)
+      return BadState("recursive_cusum_sq sums must be finite and non-decreasing");
     prev = v;
   }
   if (!IsCount(s.holdoff_left) || s.holdoff_left > options_.holdoff)

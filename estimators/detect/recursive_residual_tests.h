@@ -64,22 +64,23 @@ double BdeCusumSquaresCriticalValue(double n_residuals, double alpha);
 // Batch paths over all N = w.size() residuals, exactly as defined above. W has N entries
 // (W_1..W_N), S has N entries (S_N = 1). Empty input, or N < 2 for W, gives an empty path; an all
 // zero input gives NaN entries.
-std::vector<double> BdeCusumPath(std::span<const double> w, BdeSigma sigma = BdeSigma::kResidualRms);
+std::vector<double> BdeCusumPath(std::span<const double> w,
+                                 BdeSigma sigma = BdeSigma::kResidualRms);
 std::vector<double> BdeCusumSquaresPath(std::span<const double> w);
 
 class RecursiveCusum {
  public:
   struct Options {
-    int horizon = 100;     // N >= 2 residuals per test block
-    double alpha = 0.05;   // 0.10, 0.05 or 0.01
-    double sigma = 0.0;    // known residual sd > 0, or 0 to estimate it (running, per block)
-    int holdoff = 0;       // >= 0 residuals ignored after a raise
+    int horizon = 100;    // N >= 2 residuals per test block
+    double alpha = 0.05;  // 0.10, 0.05 or 0.01
+    double sigma = 0.0;   // known residual sd > 0, or 0 to estimate it (running, per block)
+    int holdoff = 0;      // >= 0 residuals ignored after a raise
     Status Validate() const;
   };
   struct State {
-    double j = 0;             // residuals in the current block
-    double sum = 0;           // sum w_i in the block
-    double sum_sq = 0;        // sum w_i^2 in the block
+    double j = 0;       // residuals in the current block
+    double sum = 0;     // sum w_i in the block
+    double sum_sq = 0;  // sum w_i^2 in the block
     double min_sum = 0, min_j = 0, min_next_seq = -1, min_next_time = 0;  // running minimum
     double max_sum = 0, max_j = 0, max_next_seq = -1, max_next_time = 0;  // running maximum
     bool pending_min = true, pending_max = true;  // next residual is "the one after" the extremum
@@ -105,8 +106,8 @@ class RecursiveCusum {
 class RecursiveCusumSquares {
  public:
   struct Options {
-    int horizon = 100;     // N >= 10 residuals per test block
-    double alpha = 0.05;   // 0.20, 0.10, 0.05, 0.02 or 0.01
+    int horizon = 100;    // N >= 10 residuals per test block
+    double alpha = 0.05;  // 0.20, 0.10, 0.05, 0.02 or 0.01
     int holdoff = 0;
     Status Validate() const;
   };

@@ -1,10 +1,10 @@
 // Cost per observation of the model-based detectors. BOCPD also reports the mean number of retained
 // run lengths (counter "runs"), which is what its cost scales with.
+#include <benchmark/benchmark.h>
+
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <benchmark/benchmark.h>
 
 #include "estimators/detect/band.h"
 #include "estimators/detect/bocpd.h"
@@ -47,8 +47,14 @@ void BM_BocpdNormalGamma(benchmark::State& st) {
   st.counters["runs"] = runs / static_cast<double>(n);
 }
 BENCHMARK(BM_BocpdNormalGamma)
-    ->Args({100, 1000, 10})->Args({100, 1000, 5})->Args({100, 1000, 4})->Args({100, 200, 10})
-    ->Args({1000, 1000, 10})->Args({1000, 1000, 5})->Args({1000, 1000, 4})->Args({1000, 200, 10});
+    ->Args({100, 1000, 10})
+    ->Args({100, 1000, 5})
+    ->Args({100, 1000, 4})
+    ->Args({100, 200, 10})
+    ->Args({1000, 1000, 10})
+    ->Args({1000, 1000, 5})
+    ->Args({1000, 1000, 4})
+    ->Args({1000, 200, 10});
 
 void BM_BocpdGammaPoisson(benchmark::State& st) {
   Bocpd::Options o;
@@ -59,7 +65,8 @@ void BM_BocpdGammaPoisson(benchmark::State& st) {
   Bocpd d(o);
   std::mt19937_64 rng(2);
   std::vector<double> y(1 << 16);
-  for (std::size_t i = 0; i < y.size(); ++i) y[i] = std::poisson_distribution<int>((i / 2000) % 2 ? 6.0 : 4.0)(rng);
+  for (std::size_t i = 0; i < y.size(); ++i)
+    y[i] = std::poisson_distribution<int>((i / 2000) % 2 ? 6.0 : 4.0)(rng);
   std::size_t i = 0;
   double runs = 0;
   std::int64_t n = 0;
@@ -73,7 +80,11 @@ void BM_BocpdGammaPoisson(benchmark::State& st) {
   }
   st.counters["runs"] = runs / static_cast<double>(n);
 }
-BENCHMARK(BM_BocpdGammaPoisson)->Args({100, 1000, 10})->Args({100, 1000, 5})->Args({1000, 1000, 10})->Args({1000, 1000, 5});
+BENCHMARK(BM_BocpdGammaPoisson)
+    ->Args({100, 1000, 10})
+    ->Args({100, 1000, 5})
+    ->Args({1000, 1000, 10})
+    ->Args({1000, 1000, 5});
 
 void BM_RecursiveCusum(benchmark::State& st) {
   RecursiveCusum d(RecursiveCusum::Options{});

@@ -1,7 +1,6 @@
-// bde_probe: recursive residuals from the project's RLS and the Brown-Durbin-Evans paths and bounds,
-// for the statsmodels reference test (test_recursive_cusum_vs_statsmodels.py).
-// stdin : "n k" then n rows "y x_1 ... x_k".
-// stdout: one line per quantity, "<name> v1 v2 ..." (%.17g):
+// bde_probe: recursive residuals from the project's RLS and the Brown-Durbin-Evans paths and
+// bounds, for the statsmodels reference test (test_recursive_cusum_vs_statsmodels.py). stdin : "n
+// k" then n rows "y x_1 ... x_k". stdout: one line per quantity, "<name> v1 v2 ..." (%.17g):
 //   w           recursive residuals w_{k+1..n}
 //   cusum_sd    W_j with sigma_hat = sample sd of the w's (ddof 1)
 //   cusum_rms   W_j with BDE's sigma_hat^2 = sum w^2 / (n - k)
@@ -61,7 +60,8 @@ int main() {
   o.horizon = static_cast<int>(w.size());
   RecursiveCusumSquares online(o);
   DetectorEvent ev;
-  for (std::size_t i = 0; i < w.size(); ++i) online.Update(w[i], {static_cast<std::int64_t>(i), 0.0}, &ev);
+  for (std::size_t i = 0; i < w.size(); ++i)
+    online.Update(w[i], {static_cast<std::int64_t>(i), 0.0}, &ev);
   Print("online_sq", {ev.statistic});
   return 0;
 }

@@ -10,18 +10,19 @@
 // segmentations whose last segment holds r + 1 observations, divided by the total over all.
 // Here every one of the 2^(t-1) segmentations is enumerated (no pruning, no recursion) and m is the
 // closed-form marginal likelihood (product form, not a product of one-step predictives):
-//   normal-gamma : Gamma(a_n)/Gamma(a_0) * b_0^a_0 / b_n^a_n * sqrt(kappa_0/kappa_n) * (2 pi)^(-n/2)
+//   normal-gamma : Gamma(a_n)/Gamma(a_0) * b_0^a_0 / b_n^a_n * sqrt(kappa_0/kappa_n) * (2
+//   pi)^(-n/2)
 //                  (Murphy 2007, "Conjugate Bayesian analysis of the Gaussian distribution",
 //                  eq. for the normal-gamma marginal likelihood; from memory)
-//   gamma-poisson: prod e_i^y_i / y_i! * b_0^a_0 / Gamma(a_0) * Gamma(a_0 + Y) / (b_0 + E)^(a_0 + Y)
-//   beta-binomial: prod C(n_i, y_i) * B(a_0 + Y, b_0 + N - Y) / B(a_0, b_0)
+//   gamma-poisson: prod e_i^y_i / y_i! * b_0^a_0 / Gamma(a_0) * Gamma(a_0 + Y) / (b_0 + E)^(a_0 +
+//   Y) beta-binomial: prod C(n_i, y_i) * B(a_0 + Y, b_0 + N - Y) / B(a_0, b_0)
 // (the last two: standard conjugate identities, common practice, no source).
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <numbers>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/detect/bocpd.h"
 
@@ -53,16 +54,20 @@ double LogMarginal(BocpdModel model, const Bocpd::Options& o, const Obs* x, int 
         es += x[i].exposure;
       }
       const double a0 = o.prior_shape, b0 = o.prior_rate;
-      return lp + a0 * std::log(b0) - std::lgamma(a0) + std::lgamma(a0 + ys) - (a0 + ys) * std::log(b0 + es);
+      return lp + a0 * std::log(b0) - std::lgamma(a0) + std::lgamma(a0 + ys) -
+             (a0 + ys) * std::log(b0 + es);
     }
     case BocpdModel::kBetaBinomial: {
       double lp = 0, ys = 0, fs = 0;
       for (int i = 0; i < n; ++i) {
-        lp += std::lgamma(x[i].trials + 1) - std::lgamma(x[i].y + 1) - std::lgamma(x[i].trials - x[i].y + 1);
+        lp += std::lgamma(x[i].trials + 1) - std::lgamma(x[i].y + 1) -
+              std::lgamma(x[i].trials - x[i].y + 1);
         ys += x[i].y;
         fs += x[i].trials - x[i].y;
       }
-      auto lbeta = [](double a, double b) { return std::lgamma(a) + std::lgamma(b) - std::lgamma(a + b); };
+      auto lbeta = [](double a, double b) {
+        return std::lgamma(a) + std::lgamma(b) - std::lgamma(a + b);
+      };
       return lp + lbeta(o.prior_alpha + ys, o.prior_beta + fs) - lbeta(o.prior_alpha, o.prior_beta);
     }
   }
@@ -108,9 +113,9 @@ std::vector<double> BruteForcePosterior(BocpdModel model, const Bocpd::Options& 
 void CheckModel(BocpdModel model, const std::vector<Obs>& x, const Bocpd::Options& base) {
   Bocpd::Options o = base;
   o.model = model;
-  o.prune_epsilon = 0;          // exact recursion
-  o.max_run_lengths = 64;       // > t
-  o.threshold = 1;              // no alarm collapse during the check
+  o.prune_epsilon = 0;     // exact recursion
+  o.max_run_lengths = 64;  // > t
+  o.threshold = 1;         // no alarm collapse during the check
   o.window = 1;
   Bocpd d(o);
   for (int t = 1; t <= static_cast<int>(x.size()); ++t) {
@@ -122,7 +127,8 @@ void CheckModel(BocpdModel model, const std::vector<Obs>& x, const Bocpd::Option
     const std::vector<double> want = BruteForcePosterior(model, o, x, t);
     for (int r = 0; r < t; ++r) {
       // Adams & MacKay (2007) run-length posterior vs enumeration of all segmentations: 1e-10
-      EXPECT_NEAR(d.RunLengthProbability(r), want[r], 1e-10) << "model " << int(model) << " t=" << t << " r=" << r;
+      EXPECT_NEAR(d.RunLengthProbability(r), want[r], 1e-10)
+          << "model " << int(model) << " t=" << t << " r=" << r;
     }
   }
 }
@@ -131,7 +137,8 @@ TEST(BocpdReferenceTest, NormalGammaRunLengthPosteriorEqualsEnumerationOfSegment
   std::mt19937_64 rng(17);
   std::normal_distribution<double> n01;
   std::vector<Obs> x;
-  for (int t = 0; t < 14; ++t) x.push_back({(t >= 7 ? 2.5 : 0.0) + (t >= 10 ? -4.0 : 0.0) + n01(rng)});
+  for (int t = 0; t < 14; ++t)
+    x.push_back({(t >= 7 ? 2.5 : 0.0) + (t >= 10 ? -4.0 : 0.0) + n01(rng)});
   Bocpd::Options o;
   o.hazard = 0.2;
   o.prior_mean = 0.3;

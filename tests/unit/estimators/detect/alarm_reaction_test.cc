@@ -11,12 +11,12 @@
 // criterion uses the mean of g_hat(t) over 20 seeded runs: re-convergence time = the first t after
 // the step from which |mean g_hat(t) - 1.10| <= se_ref holds for 20 consecutive observations.
 // (A single run's g_hat keeps fluctuating by about se_ref, so a per-run criterion measures luck.)
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstdio>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/detect/cusum.h"
 #include "estimators/ls/rls.h"
@@ -91,10 +91,11 @@ TEST(AlarmReactionTest, InflatingUncertaintyOnCusumAlarmReconvergesThreeTimesFas
   }
   const int plain_time = ReconvergenceTime(plain_g, se_ref);
   const int react_time = ReconvergenceTime(react_g, se_ref);
-  std::printf("re-convergence of the mean estimate to within one se (%.4f) after a 10%% gain step, "
-              "%d runs: forgetting alone %d obs, with CUSUM alarm + InflateUncertainty %d obs "
-              "(%d runs detected, %d false alarms in %d in-control obs)\n",
-              se_ref, runs, plain_time, react_time, detections, false_alarms, runs * kStep);
+  std::printf(
+      "re-convergence of the mean estimate to within one se (%.4f) after a 10%% gain step, "
+      "%d runs: forgetting alone %d obs, with CUSUM alarm + InflateUncertainty %d obs "
+      "(%d runs detected, %d false alarms in %d in-control obs)\n",
+      se_ref, runs, plain_time, react_time, detections, false_alarms, runs * kStep);
   EXPECT_EQ(detections, runs);
   EXPECT_GT(plain_time, 0);
   EXPECT_LE(3 * react_time, plain_time);

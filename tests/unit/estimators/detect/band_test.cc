@@ -2,12 +2,12 @@
 // restore, and simulated in-control behaviour (synthetic reports and a real RLS gain estimate).
 #include "estimators/detect/band.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstring>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ls/rls.h"
 
@@ -48,13 +48,16 @@ TEST(ToleranceBandTest, RaisesOnlyWhenIntervalIsWhollyOutsideAndNamesOnset) {
     bool raised;
   };
   // value leaves the band at seq 2 (1.025) but the interval still overlaps until seq 4.
-  const std::vector<Step> steps = {{1.00, 0.01, false}, {1.015, 0.01, false}, {1.025, 0.01, false},
+  const std::vector<Step> steps = {{1.00, 0.01, false},  {1.015, 0.01, false}, {1.025, 0.01, false},
                                    {1.028, 0.01, false}, {1.035, 0.01, true},  {1.04, 0.01, false}};
   for (std::size_t i = 0; i < steps.size(); ++i) {
     DetectorEvent ev;
-    ASSERT_TRUE(d.Update(Report1(steps[i].value, steps[i].half), {static_cast<std::int64_t>(i), 10.0 + i}, &ev).ok());
+    ASSERT_TRUE(d.Update(Report1(steps[i].value, steps[i].half),
+                         {static_cast<std::int64_t>(i), 10.0 + i}, &ev)
+                    .ok());
     EXPECT_EQ(ev.raised, steps[i].raised) << i;
-    EXPECT_NEAR(ev.statistic, std::max(0.98 - (steps[i].value + 0.01), (steps[i].value - 0.01) - 1.02), 1e-15);
+    EXPECT_NEAR(ev.statistic,
+                std::max(0.98 - (steps[i].value + 0.01), (steps[i].value - 0.01) - 1.02), 1e-15);
     if (ev.raised) {
       EXPECT_EQ(ev.direction, Direction::kUp);
       EXPECT_EQ(ev.onset_seq, 2);
@@ -128,7 +131,8 @@ TEST(ToleranceBandTest, BadInputRejectedAndStateRestoresBitIdentically) {
   ASSERT_TRUE(d.Update(two, {7, 1.0}, &ev).ok());
   ASSERT_TRUE(ev.raised);
   const auto before = Packed(d);
-  EXPECT_EQ(d.Update(Report1(1.0, 0.01), {8, NAN}, &ev).code(), ErrorCode::kOutOfDomain);  // no index 1
+  EXPECT_EQ(d.Update(Report1(1.0, 0.01), {8, NAN}, &ev).code(),
+            ErrorCode::kOutOfDomain);  // no index 1
   ParameterReport nan_report = two;
   nan_report.value[1] = NAN;
   EXPECT_EQ(d.Update(nan_report, {8, NAN}, &ev).code(), ErrorCode::kNonFinite);

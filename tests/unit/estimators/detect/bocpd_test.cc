@@ -2,13 +2,13 @@
 // and bounded storage, alarm life cycle, capture / restore.
 #include "estimators/detect/bocpd.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 namespace bayline::est {
 namespace {
@@ -41,8 +41,8 @@ bool BitEqual(const std::vector<double>& a, const std::vector<double>& b) {
   return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(double)) == 0;
 }
 std::vector<double> Flat(const DetectorEvent& e) {
-  return {double(e.raised), double(e.cleared), e.statistic, e.threshold, double(e.direction),
-          double(e.onset_seq), e.onset_time, e.shift};
+  return {double(e.raised),    double(e.cleared),   e.statistic,  e.threshold,
+          double(e.direction), double(e.onset_seq), e.onset_time, e.shift};
 }
 
 TEST(BocpdTest, OptionsValidateRejectsEachBadField) {
@@ -85,7 +85,7 @@ TEST(BocpdTest, BadInputIsRejectedAndChangesNothing) {
     Bocpd::Options o;
     o.model = c.model;
     Bocpd d(o);
-    const Sample good = c.model == BocpdModel::kNormalGamma ? Y(0.3)
+    const Sample good = c.model == BocpdModel::kNormalGamma    ? Y(0.3)
                         : c.model == BocpdModel::kGammaPoisson ? Count(3, 1)
                                                                : Successes(2, 5);
     for (int i = 0; i < 5; ++i) ASSERT_TRUE(d.Update(good, {i, NAN}, nullptr).ok());
@@ -246,7 +246,8 @@ TEST(BocpdTest, AlarmLifeCycleRaisesOnceHoldsOffThenClears) {
 }
 
 TEST(BocpdTest, CaptureRestoreContinuesBitIdentically) {
-  for (BocpdModel model : {BocpdModel::kNormalGamma, BocpdModel::kGammaPoisson, BocpdModel::kBetaBinomial}) {
+  for (BocpdModel model :
+       {BocpdModel::kNormalGamma, BocpdModel::kGammaPoisson, BocpdModel::kBetaBinomial}) {
     Bocpd::Options o;
     o.model = model;
     o.max_run_lengths = 60;
@@ -313,10 +314,12 @@ TEST(BocpdTest, InControlFalseAlarmRateIsMeasured) {
       runs += static_cast<double>(d.state().runs.size());
     }
     const double rate = static_cast<double>(alarms) / n;
-    std::printf("BOCPD in-control: hazard %.4g window %d threshold %.2g -> %d alarms in %d obs (%.3g per obs);"
-                " mean retained run lengths %.1f, pruned mass %.2g per obs (epsilon %.0e, cap %d)\n",
-                hazard, o.window, o.threshold, alarms, n, rate, runs / n, d.state().discarded_mass / n,
-                o.prune_epsilon, o.max_run_lengths);
+    std::printf(
+        "BOCPD in-control: hazard %.4g window %d threshold %.2g -> %d alarms in %d obs (%.3g per "
+        "obs);"
+        " mean retained run lengths %.1f, pruned mass %.2g per obs (epsilon %.0e, cap %d)\n",
+        hazard, o.window, o.threshold, alarms, n, rate, runs / n, d.state().discarded_mass / n,
+        o.prune_epsilon, o.max_run_lengths);
     EXPECT_LT(rate, hazard);
   }
 }

@@ -1,13 +1,13 @@
 // Unit tests of the Brown-Durbin-Evans recursive-residual detectors (online forms) and batch paths.
 #include "estimators/detect/recursive_residual_tests.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 namespace bayline::est {
 namespace {
@@ -16,8 +16,8 @@ bool BitEqual(const std::vector<double>& a, const std::vector<double>& b) {
   return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(double)) == 0;
 }
 std::vector<double> Flat(const DetectorEvent& e) {
-  return {double(e.raised), double(e.cleared), e.statistic, e.threshold, double(e.direction),
-          double(e.onset_seq), e.onset_time, e.shift};
+  return {double(e.raised),    double(e.cleared),   e.statistic,  e.threshold,
+          double(e.direction), double(e.onset_seq), e.onset_time, e.shift};
 }
 template <typename D>
 std::vector<double> Packed(const D& d) {
@@ -207,9 +207,10 @@ TEST(RecursiveCusumSquaresTest, InControlRejectionRatePerBlockIsNearAlpha) {
     }
   }
   const double rate = static_cast<double>(alarms) / blocks;
-  std::printf("CUSUM of squares, N = 60, alpha 0.05: raised in %d of %d blocks (%.4f; an alarm's\n"
-              "following block clears it rather than raising, so this slightly undercounts)\n",
-              alarms, blocks, rate);
+  std::printf(
+      "CUSUM of squares, N = 60, alpha 0.05: raised in %d of %d blocks (%.4f; an alarm's\n"
+      "following block clears it rather than raising, so this slightly undercounts)\n",
+      alarms, blocks, rate);
   EXPECT_GT(rate, 0.03);
   EXPECT_LT(rate, 0.07);
 }
