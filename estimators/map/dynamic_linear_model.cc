@@ -117,7 +117,9 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
   array_.setZero();
   const bool learn = options_.learn_obs_variance;
   array_(0, 0) = std::sqrt((learn ? 1.0 : options_.obs_variance) / s.weight);
-  for (int i = 0; i < p_; ++i) {
+  // Bottom row first: each row then meets an empty row of the array at its first non-zero column,
+  // so the triangularisation costs O(p^2) instead of O(p^3).
+  for (int i = p_ - 1; i >= 0; --i) {
     row_(0) = ux_(i);
     row_.tail(p_) = u_work_.row(i);
     AbsorbRow(array_, row_, 0);

@@ -26,7 +26,9 @@ void AbsorbRow(FMat& F, RowVec& row, Eigen::Index first = 0) {
     const double v = row(k);
     if (v == 0.0) continue;
     const double d = F(k, k);
-    const double r = std::hypot(d, v);
+    // sqrt(d^2 + v^2) where it cannot overflow or underflow (std::hypot costs several times more).
+    const double r2 = d * d + v * v;
+    const double r = (r2 > 1e-280 && r2 < 1e280) ? std::sqrt(r2) : std::hypot(d, v);
     const double c = d / r, s = v / r;
     F(k, k) = r;
     row(k) = 0.0;
