@@ -1,0 +1,34 @@
+// Boxed<T>: a heap-held T with value semantics (deep copy), for the large or dynamically sized
+// estimators and detectors, so that a std::variant of slot types stays as small as its small
+// alternatives while remaining copyable (the pipeline copies slots to roll back a failed update).
+// Copy-assignment between two boxes assigns the T in place, so a reused backup of the same kind
+// and size does not allocate.
+#pragma once
+
+#include <memory>
+#include <utility>
+
+namespace bayline::pipeline {
+
+template <typename T>
+class Boxed {
+ public:
+  explicit Boxed(T value) : ptr_(std::make_unique<T>(std::move(value))) {}
+  Boxed(const Boxed& other) : ptr_(std::make_unique<T>(*other.ptr_)) {}
+  Boxed(Boxed&&) noexcept = default;
+  Boxed& operator=(const Boxed& other) {
+    if (this != &other) *ptr_ = *other.ptr_;
+    return *this;
+  }
+  Boxed& operator=(Boxed&&) noexcept = default;
+
+  T& operator*() { return *ptr_; }
+  const T& operator*() const { return *ptr_; }
+  T* operator->() { return ptr_.get(); }
+  const T* operator->() const { return ptr_.get(); }
+
+ private:
+  std::unique_ptr<T> ptr_;
+};
+
+}  // namespace bayline::pipeline

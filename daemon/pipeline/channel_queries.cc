@@ -1,0 +1,126 @@
+// Control-API queries on the channel registry (List, Ask, Reset) and Reconfigure.
+#include <algorithm>
+
+#include "daemon/pipeline/glob.h"
+#include "daemon/pipeline/pipeline_state.h"
+
+namespace bayline::pipeline {
+namespace {
+
+void FillInfo(const std::string& name, const Channel& ch, bayline::v1::ChannelInfo* info) {
+  info->set_name(name);
+  info->set_model(std::string(ModelName(ch.spec->model)));
+  info->set_rule(ch.spec->rule_name);
+  info->set_accepted(ch.accepted);
+  info->set_last_seq(ch.seq.last);
+  info->set_last_time_ns(ch.last_time_ns);
+  info->set_alarm_active(ch.alarm_active());
+}
+
+template <typename Registry>
+std::vector<const typename Registry::value_type*> SortedByName(const Registry& channels) {
+  std::vector<const typename Registry::value_type*> out;
+  out.reserve(channels.size());
+  for (const auto& entry : channels) out.push_back(&entry);
+  std::sort(out.begin(), out.end(), [](const auto* a, const auto* b) { return a->first < b->first; });
+  return out;
+}
+
+}  // namespace
+
+bayline::v1::ChannelList PipelineState::List(std::string_view glob) const {
+  bayline::v1::ChannelList list;
+  for (const auto* entry : SortedByName(channels_)) {
+    if (glob.empty() || GlobMatch(glob, entry->first)) {
+      FillInfo(entry->first, entry->second, list.add_channels());
+    }
+  }
+  return list;
+}
+
+std::optional<bayline::v1::ChannelReport> PipelineState::Ask(std::string_view channel) const {
+  auto it = channels_.find(std::string(channel));
+  if (it == channels_.end()) return std::nullopt;
+  const Channel& ch = it->second;
+  const ResolvedSpec& spec = *ch.spec;
+  bayline::v1::ChannelReport report;
+  FillInfo(it->first, ch, report.mutable_info());
+  for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
+    FillEstimate(it->first, spec, spec.estimators[i], ch.estimators[i].Report(spec.level),
+                 ch.seq.last, ch.last_time_ns, ch.accepted, report.add_estimates());
+  }
+  for (std::size_t d = 0; d < ch.detectors.size(); ++d) {
+    const DetectorSetup& setup = spec.detectors[d];
+    const DetectorSlot& slot = ch.detectors[d];
+    auto* ds = report.add_detectors();
+    ds->set_detector(std::string(DetectorKindName(setup.kind)));
+    ds->set_watched(std::string(EstimatorKindName(spec.estimators[static_cast<std::size_t>(setup.watch)])));
+    ds->set_statistic(slot.last_statistic());
+    ds->set_threshold(slot.last_threshold());
+    ds->set_alarm_active(slot.alarm_active());
+    ds->set_alarms_raised(slot.alarms_raised());
+    if (slot.alarms_raised() > 0) {
+      const LastAlarm& a = slot.last_alarm();
+      auto* alarm = ds->mutable_last_alarm();
+      alarm->set_channel(it->first);
+      alarm->set_seq(a.seq);
+      alarm->set_time_ns(a.time_ns);
+      alarm->set_detector(ds->detector());
+      alarm->set_watched(ds->watched());
+      alarm->set_state("raised");
+      alarm->set_statistic(a.statistic);
+      alarm->set_threshold(a.threshold);
+      alarm->set_direction(std::string(DirectionName(static_cast<est::Direction>(a.direction))));
+      alarm->set_onset_seq(a.onset_seq);
+      alarm->set_onset_time_ns(a.onset_time_ns);
+      alarm->set_shift(a.shift);
+      alarm->set_trigger_y(a.trigger_y);
+    }
+  }
+  return report;
+}
+
+bool PipelineState::Reset(std::string_view channel) {
+  const bool erased = channels_.erase(std::string(channel)) > 0;
+  counters_.channels = channels_.size();
+  return erased;
+}
+
+est::Status PipelineState::Reconfigure(const bayline::v1::DaemonConfig& config,
+                                       std::vector<std::string>* reset) {
+  if (est::Status s = ValidateConfig(config); !s.ok()) return s;
+  RuleSet rules;
+  if (est::Status s = rules.Build(config); !s.ok()) return s;
+
+  // Decide for every channel before changing anything.
+  std::vector<std::pair<Channel*, std::shared_ptr<const ResolvedSpec>>> keep;
+  std::vector<std::string> drop;
+  for (auto& [name, ch] : channels_) {
+    const int rule = rules.Match(name);
+    std::shared_ptr<const ResolvedSpec> spec;
+    bool same = false;
+    if (rule >= 0) {
+      const Model model = ResolveModel(EffectiveRules(config).Get(rule).spec(),
+                                       ch.spec->regressor_count);
+      same = rules.Resolve(rule, model, ch.spec->regressor_count, &spec).ok() &&
+             spec->digest == ch.spec->digest;
+    }
+    if (same) {
+      keep.emplace_back(&ch, std::move(spec));
+    } else {
+      drop.push_back(name);
+    }
+  }
+
+  config_ = config;
+  limits_ = LimitsOf(config);
+  rules_ = std::move(rules);
+  for (auto& [ch, spec] : keep) ch->spec = std::move(spec);  // same content, new rule name
+  std::sort(drop.begin(), drop.end());
+  for (const auto& name : drop) channels_.erase(name);
+  counters_.channels = channels_.size();
+  if (reset != nullptr) reset->insert(reset->end(), drop.begin(), drop.end());
+  return est::Status::Ok();
+}
+
+}  // namespace bayline::pipeline

@@ -1,0 +1,76 @@
+// DetectorSetup: one DetectorSpec of a rule turned into the options of one detector of
+// estimators/detect, with thresholds calibrated from arl0 (+ shift) unless raw settings are given.
+//
+// Calibration (estimators/detect/calibration.h), done once per rule when a Pipeline is built or
+// reconfigured, never per channel:
+//   cusum        k = shift / 2, h for arl0 (Markov chain). Raw: h (with k, default shift / 2), or k
+//                alone (h solved). head_start is a fraction of h.
+//   ewma         lambda and L for arl0 and shift. Raw: lambda and limit, or lambda alone (L solved).
+//   page_hinkley delta = shift / 2 (or raw delta), threshold by simulation. Raw: threshold.
+//   glr          window (raw or the library's rule), threshold by simulation. Raw: threshold.
+//                Simulated calibration is limited to arl0 <= kMaxSimulatedArl0 (its cost grows with
+//                arl0); above it a raw threshold is required (ValidateConfig says so).
+//   bocpd        not calibrated: hazard (default 1 / arl0), recent (default 10), threshold (0.5).
+//   recursive_cusum, recursive_cusum_sq: significance (default 0.05), block length `window`
+//                (default 100).
+//   band         band_low, band_high on parameter `parameter` (bound per channel model).
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <string_view>
+
+#include "bayline/v1/config.pb.h"
+#include "estimators/core/status.h"
+#include "estimators/detect/alarm.h"
+#include "estimators/detect/band.h"
+#include "estimators/detect/bocpd.h"
+#include "estimators/detect/cusum.h"
+#include "estimators/detect/ewma.h"
+#include "estimators/detect/glr.h"
+#include "estimators/detect/page_hinkley.h"
+#include "estimators/detect/recursive_residual_tests.h"
+
+namespace bayline::pipeline {
+
+enum class DetectorKind : uint8_t {
+  kCusum, kEwma, kPageHinkley, kGlr, kBocpd, kRecursiveCusum, kRecursiveCusumSquares, kBand
+};
+
+inline constexpr double kDefaultArl0 = 500.0;
+inline constexpr double kMaxSimulatedArl0 = 1e4;
+inline constexpr int kSimulationRuns = 1000;
+
+// "cusum" -> kCusum etc.; false for an unknown name.
+bool ParseDetectorKind(std::string_view name, DetectorKind* kind);
+std::string_view DetectorKindName(DetectorKind kind);
+// "both" (also ""), "up", "down"; false otherwise.
+bool ParseDirection(std::string_view name, est::Direction* direction);
+std::string_view DirectionName(est::Direction direction);
+
+struct DetectorSetup {
+  DetectorKind kind = DetectorKind::kCusum;
+  std::string watch_name;      // as configured ("" = the first estimator)
+  int watch = 0;               // index into the channel's estimators (bound per channel spec)
+  bool phase2 = false;         // standardize by target_mean / target_sd instead of self-starting
+  double target_mean = 0.0;
+  double target_sd = 1.0;
+  double inflate_on_alarm = 0.0;
+  est::Direction direction = est::Direction::kBoth;
+  std::string band_parameter;  // band: parameter name (bound to band.parameter per channel)
+
+  est::CusumOptions cusum;
+  est::EwmaOptions ewma;
+  est::PageHinkleyOptions page_hinkley;
+  est::GlrOptions glr;
+  est::Bocpd::Options bocpd;
+  est::RecursiveCusum::Options recursive_cusum;
+  est::RecursiveCusumSquares::Options recursive_cusum_squares;
+  est::ToleranceBand::Options band;
+};
+
+// Builds and calibrates. `path` prefixes error messages ("rules[0].spec.detectors[1]").
+est::Status CalibrateDetector(const bayline::v1::DetectorSpec& spec, const std::string& path,
+                              DetectorSetup* out);
+
+}  // namespace bayline::pipeline

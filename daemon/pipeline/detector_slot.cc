@@ -1,0 +1,241 @@
+#include "daemon/pipeline/detector_slot.h"
+
+#include <cmath>
+#include <type_traits>
+
+#include "daemon/pipeline/packing.h"
+
+namespace bayline::pipeline {
+namespace {
+
+using est::ErrorCode;
+using est::Status;
+
+template <typename T>
+T& Get(T& e) { return e; }
+template <typename T>
+T& Get(Boxed<T>& e) { return *e; }
+template <typename T>
+const T& Get(const T& e) { return e; }
+template <typename T>
+const T& Get(const Boxed<T>& e) { return *e; }
+
+template <typename E>
+Status UnpackInto(E& e, std::span<const double> values) {
+  auto state = e.state();
+  est::StateReader reader(values);
+  Status s = state.Unpack(reader);
+  if (!s.ok()) return s;
+  s = reader.status();
+  if (!s.ok()) return s;
+  return e.Restore(state);
+}
+
+Status BadState(const char* why) { return Status::Error(ErrorCode::kInvalidState, why); }
+
+}  // namespace
+
+DetectorSlot::Impl DetectorSlot::MakeImpl(const DetectorSetup& d) {
+  switch (d.kind) {
+    case DetectorKind::kCusum: return Impl(std::in_place_type<est::Cusum>, d.cusum);
+    case DetectorKind::kEwma: return Impl(std::in_place_type<est::Ewma>, d.ewma);
+    case DetectorKind::kPageHinkley:
+      return Impl(std::in_place_type<est::PageHinkley>, d.page_hinkley);
+    case DetectorKind::kGlr: return Impl(Boxed<est::Glr>(est::Glr(d.glr)));
+    case DetectorKind::kBocpd: return Impl(Boxed<est::Bocpd>(est::Bocpd(d.bocpd)));
+    case DetectorKind::kRecursiveCusum:
+      return Impl(std::in_place_type<est::RecursiveCusum>, d.recursive_cusum);
+    case DetectorKind::kRecursiveCusumSquares:
+      return Impl(Boxed<est::RecursiveCusumSquares>(
+          est::RecursiveCusumSquares(d.recursive_cusum_squares)));
+    case DetectorKind::kBand: return Impl(std::in_place_type<est::ToleranceBand>, d.band);
+  }
+  return Impl(std::in_place_type<est::Cusum>, d.cusum);
+}
+
+DetectorSlot::DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind)
+    : impl_(MakeImpl(setup)) {
+  raw_counts_ = setup.kind == DetectorKind::kBocpd &&
+                (model == Model::kPoisson || model == Model::kBinomial);
+  if (setup.phase2) {
+    source_ = Source::kPhase2;
+  } else if (watched_kind == EstimatorKind::kLs) {
+    source_ = Source::kLsResidual;
+    standardizer_.emplace<est::RecursiveResidualStandardizer>();
+  } else if (watched_kind == EstimatorKind::kMl && model == Model::kGaussian) {
+    source_ = Source::kSelfStarting;
+    standardizer_.emplace<est::SelfStartingStandardizer>();
+  } else if (watched_kind == EstimatorKind::kMl && model == Model::kLognormal) {
+    source_ = Source::kSelfStartingLog;
+    standardizer_.emplace<est::SelfStartingStandardizer>();
+  } else {
+    source_ = Source::kInnovation;
+  }
+  // Detectors that do not read z keep no standardizer.
+  if (setup.kind == DetectorKind::kRecursiveCusum ||
+      setup.kind == DetectorKind::kRecursiveCusumSquares || setup.kind == DetectorKind::kBand ||
+      raw_counts_) {
+    standardizer_.emplace<std::monostate>();
+  }
+}
+
+double DetectorSlot::StandardizedValue(const DetectorSetup& setup, const DetectorInput& in) {
+  double z = est::kNaN;
+  switch (source_) {
+    case Source::kPhase2:
+      z = (in.sample->y - setup.target_mean) / setup.target_sd;
+      break;
+    case Source::kLsResidual:
+      if (auto* s = std::get_if<est::RecursiveResidualStandardizer>(&standardizer_)) {
+        if (!s->Update(in.rr->valid ? in.rr->value : est::kNaN, &z).ok()) z = est::kNaN;
+      }
+      break;
+    case Source::kSelfStarting:
+    case Source::kSelfStartingLog:
+      if (auto* s = std::get_if<est::SelfStartingStandardizer>(&standardizer_)) {
+        const double y = source_ == Source::kSelfStartingLog ? std::log(in.sample->y) : in.sample->y;
+        if (!s->Update(y, &z).ok()) z = est::kNaN;
+      }
+      break;
+    case Source::kInnovation:
+      if (in.innovation->valid) z = in.innovation->standardized;
+      break;
+  }
+  return z;
+}
+
+Status DetectorSlot::Update(const DetectorSetup& setup, const DetectorInput& in,
+                            est::DetectorEvent* event) {
+  *event = est::DetectorEvent();
+  const Standardizer saved = standardizer_;  // small: undone if the detector fails
+  const double z = StandardizedValue(setup, in);
+  Status s = std::visit(
+      [&](auto& slot) -> Status {
+        using T = std::decay_t<decltype(slot)>;
+        auto& d = Get(slot);
+        if constexpr (std::is_same_v<T, est::Cusum> || std::is_same_v<T, est::Ewma> ||
+                      std::is_same_v<T, est::PageHinkley> || std::is_same_v<T, Boxed<est::Glr>>) {
+          *event = d.Update(z, in.mark);
+          return Status::Ok();
+        } else if constexpr (std::is_same_v<T, Boxed<est::Bocpd>>) {
+          if (raw_counts_) return d.Update(*in.sample, in.mark, event);
+          if (!std::isfinite(z)) return Status::Ok();
+          est::Sample zs;
+          zs.y = z;
+          zs.time = in.sample->time;
+          return d.Update(zs, in.mark, event);
+        } else if constexpr (std::is_same_v<T, est::ToleranceBand>) {
+          return d.Update(in.watched->Report(in.level), in.mark, event);
+        } else {  // recursive-residual tests read the raw recursive residual of ls
+          if (!in.rr->valid || !std::isfinite(in.rr->value)) return Status::Ok();
+          return d.Update(in.rr->value, in.mark, event);
+        }
+      },
+      impl_);
+  if (!s.ok()) {
+    standardizer_ = saved;
+    *event = est::DetectorEvent();
+    return s;
+  }
+  if (std::isfinite(event->statistic)) last_statistic_ = event->statistic;
+  if (std::isfinite(event->threshold)) last_threshold_ = event->threshold;
+  return Status::Ok();
+}
+
+bool DetectorSlot::alarm_active() const {
+  return std::visit(
+      [](const auto& slot) -> bool {
+        using T = std::decay_t<decltype(slot)>;
+        if constexpr (std::is_same_v<T, est::Cusum> || std::is_same_v<T, est::Ewma> ||
+                      std::is_same_v<T, est::PageHinkley>) {
+          return slot.state().cycle.active;
+        } else if constexpr (std::is_same_v<T, Boxed<est::Glr>>) {
+          return slot->state().cycle.active;
+        } else if constexpr (std::is_same_v<T, Boxed<est::RecursiveCusumSquares>> ||
+                             std::is_same_v<T, Boxed<est::Bocpd>>) {
+          return slot->state().alarm_active;
+        } else {
+          return slot.state().alarm_active;
+        }
+      },
+      impl_);
+}
+
+void DetectorSlot::Pack(std::vector<double>* out) const {
+  std::size_t section = BeginSection(out);
+  PutU64(out, alarms_raised_);
+  out->push_back(last_statistic_);
+  out->push_back(last_threshold_);
+  PutU64(out, last_alarm_.seq);
+  PutU64(out, static_cast<uint64_t>(last_alarm_.time_ns));
+  PutU64(out, last_alarm_.onset_seq);
+  PutU64(out, static_cast<uint64_t>(last_alarm_.onset_time_ns));
+  out->push_back(last_alarm_.statistic);
+  out->push_back(last_alarm_.threshold);
+  out->push_back(last_alarm_.shift);
+  out->push_back(last_alarm_.trigger_y);
+  out->push_back(last_alarm_.direction);
+  EndSection(out, section);
+
+  section = BeginSection(out);
+  est::StateWriter w(out);
+  if (const auto* s = std::get_if<est::SelfStartingStandardizer>(&standardizer_)) s->state().Pack(w);
+  if (const auto* s = std::get_if<est::RecursiveResidualStandardizer>(&standardizer_)) {
+    s->state().Pack(w);
+  }
+  EndSection(out, section);
+
+  std::visit([&](const auto& slot) { Get(slot).state().Pack(w); }, impl_);
+}
+
+Status DetectorSlot::Unpack(std::span<const double> values) {
+  std::size_t pos = 0;
+  std::span<const double> book, std_values;
+  if (!NextSection(values, &pos, &book) || !NextSection(values, &pos, &std_values)) {
+    return BadState("detector state sections are malformed");
+  }
+  est::StateReader br(book);
+  uint64_t raised = 0, seq = 0, time = 0, onset_seq = 0, onset_time = 0;
+  double statistic = 0, threshold = 0, a_stat = 0, a_thr = 0, a_shift = 0, a_y = 0, a_dir = 0;
+  GetU64(br, &raised) && br.Get(statistic) && br.Get(threshold) && GetU64(br, &seq) &&
+      GetU64(br, &time) && GetU64(br, &onset_seq) && GetU64(br, &onset_time) && br.Get(a_stat) &&
+      br.Get(a_thr) && br.Get(a_shift) && br.Get(a_y) && br.Get(a_dir);
+  Status s = br.status();
+  if (!s.ok()) return s;
+  if (!(a_dir >= 0 && a_dir <= 3)) return BadState("alarm direction out of range");
+
+  Standardizer standardizer = standardizer_;
+  s = std::visit(
+      [&](auto& st) -> Status {
+        using T = std::decay_t<decltype(st)>;
+        if constexpr (std::is_same_v<T, std::monostate>) {
+          return std_values.empty() ? Status::Ok() : BadState("unexpected standardizer state");
+        } else {
+          return UnpackInto(st, std_values);
+        }
+      },
+      standardizer);
+  if (!s.ok()) return s;
+
+  Impl impl = impl_;
+  s = std::visit([&](auto& slot) { return UnpackInto(Get(slot), values.subspan(pos)); }, impl);
+  if (!s.ok()) return s;
+
+  impl_ = std::move(impl);
+  standardizer_ = std::move(standardizer);
+  alarms_raised_ = raised;
+  last_statistic_ = statistic;
+  last_threshold_ = threshold;
+  last_alarm_ = LastAlarm{seq,
+                          static_cast<int64_t>(time),
+                          onset_seq,
+                          static_cast<int64_t>(onset_time),
+                          a_stat,
+                          a_thr,
+                          a_shift,
+                          a_y,
+                          static_cast<uint8_t>(a_dir)};
+  return Status::Ok();
+}
+
+}  // namespace bayline::pipeline

@@ -1,0 +1,99 @@
+// DetectorSlot: one detector of a channel with its standardizer and the bookkeeping the control
+// API reports (last statistic, alarms raised, last alarm).
+//
+// What each detector watches (DetectorSetup::watch is the index of the watched estimator):
+//   charts (cusum, ewma, page_hinkley, glr) and bocpd on gaussian / linear / lognormal / exponential
+//   / gamma / logistic / poisson_regression channels watch a standardized innovation z:
+//     mode phase2:        z = (y - target_mean) / target_sd;
+//     watched ls:         the recursive residual, standardized by its own running scale
+//                         (RecursiveResidualStandardizer: exactly N(0, 1) in control from the start);
+//     watched ml, gaussian / lognormal model: y (log y) through the self-starting standardizer;
+//     otherwise:          the estimator's own standardized innovation (map: the normal score of the
+//                         exact posterior predictive; ml: the plug-in predictive).
+//     bocpd watches z with a normal-gamma segment model, except on poisson and binomial channels,
+//     where it reads the raw counts (gamma-poisson / beta-binomial).
+//   recursive_cusum, recursive_cusum_sq: the raw recursive residual of the watched ls.
+//   band: the watched estimator's parameter report (built per observation: this detector
+//         allocates).
+// A z that is not available yet (NaN) is skipped by every detector.
+#pragma once
+
+#include <cstdint>
+#include <span>
+#include <variant>
+#include <vector>
+
+#include "daemon/pipeline/boxed.h"
+#include "daemon/pipeline/detector_setup.h"
+#include "daemon/pipeline/estimator_slot.h"
+#include "estimators/core/report.h"
+#include "estimators/core/sample.h"
+#include "estimators/detect/alarm.h"
+#include "estimators/detect/self_starting.h"
+
+namespace bayline::pipeline {
+
+// Everything a detector may read about one accepted observation.
+struct DetectorInput {
+  const est::Sample* sample = nullptr;
+  const est::Innovation* innovation = nullptr;  // of the watched estimator
+  const est::RecursiveResidual* rr = nullptr;   // of the watched estimator (ls only)
+  const EstimatorSlot* watched = nullptr;       // after the update
+  double level = 0.95;
+  est::ObservationMark mark;
+};
+
+// The last alarm raised, as the control API reports it.
+struct LastAlarm {
+  uint64_t seq = 0;
+  int64_t time_ns = 0;
+  uint64_t onset_seq = 0;
+  int64_t onset_time_ns = 0;
+  double statistic = 0, threshold = 0, shift = 0, trigger_y = 0;
+  uint8_t direction = 0;  // est::Direction
+};
+
+class DetectorSlot {
+ public:
+  DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind);
+
+  // Feeds one accepted observation. On ok, *event holds the detector's event (raised / cleared).
+  // Fails only on a numerical failure inside the detector; then nothing changed.
+  est::Status Update(const DetectorSetup& setup, const DetectorInput& in, est::DetectorEvent* event);
+
+  bool alarm_active() const;
+  double last_statistic() const { return last_statistic_; }
+  double last_threshold() const { return last_threshold_; }
+  uint64_t alarms_raised() const { return alarms_raised_; }
+  const LastAlarm& last_alarm() const { return last_alarm_; }
+  void RecordAlarm(const LastAlarm& alarm) {
+    last_alarm_ = alarm;
+    ++alarms_raised_;
+  }
+
+  // Layout: [3 bookkeeping + 8 last-alarm values][n_std, standardizer state][detector state].
+  void Pack(std::vector<double>* out) const;
+  est::Status Unpack(std::span<const double> values);  // kInvalidState, nothing changed, on error
+
+ private:
+  enum class Source : uint8_t { kPhase2, kLsResidual, kSelfStarting, kSelfStartingLog, kInnovation };
+  using Impl = std::variant<est::Cusum, est::Ewma, est::PageHinkley, Boxed<est::Glr>,
+                            Boxed<est::Bocpd>, est::RecursiveCusum,
+                            Boxed<est::RecursiveCusumSquares>, est::ToleranceBand>;
+  using Standardizer = std::variant<std::monostate, est::SelfStartingStandardizer,
+                                    est::RecursiveResidualStandardizer>;
+
+  static Impl MakeImpl(const DetectorSetup& setup);
+  double StandardizedValue(const DetectorSetup& setup, const DetectorInput& in);
+
+  Impl impl_;
+  Standardizer standardizer_;
+  Source source_;
+  bool raw_counts_ = false;  // bocpd on poisson / binomial
+  double last_statistic_ = est::kNaN;
+  double last_threshold_ = est::kNaN;
+  uint64_t alarms_raised_ = 0;
+  LastAlarm last_alarm_;
+};
+
+}  // namespace bayline::pipeline

@@ -1,0 +1,86 @@
+// EstimatorSlot: one estimator of a channel behind one small interface (update, report, predict,
+// inflate, pack / unpack), whatever its family. The concrete estimator lives in a std::variant:
+// the small fixed-size ones inline (a gaussian channel's three estimators need no heap node), the
+// large or dynamically sized ones (regressions) in a Boxed<T>.
+//
+// Sample convention: callers pass the sample with the FULL regressor row for regression models
+// (intercept column included) and an empty x for the other models; the gaussian ls slot supplies
+// its own intercept column internally.
+#pragma once
+
+#include <span>
+#include <variant>
+#include <vector>
+
+#include "daemon/pipeline/boxed.h"
+#include "daemon/pipeline/resolved_spec.h"
+#include "estimators/core/report.h"
+#include "estimators/core/sample.h"
+#include "estimators/core/state_codec.h"
+#include "estimators/core/status.h"
+#include "estimators/ls/linear_ml.h"
+#include "estimators/ls/recursive_least_squares.h"
+#include "estimators/ls/rls.h"
+#include "estimators/map/beta_binomial.h"
+#include "estimators/map/dynamic_linear_model.h"
+#include "estimators/map/gamma_exponential.h"
+#include "estimators/map/gamma_poisson.h"
+#include "estimators/map/nig_regression.h"
+#include "estimators/map/normal_gamma.h"
+#include "estimators/ml/binomial_ml.h"
+#include "estimators/ml/exponential_ml.h"
+#include "estimators/ml/gamma_ml.h"
+#include "estimators/ml/gaussian_ml.h"
+#include "estimators/ml/glm_ml.h"
+#include "estimators/ml/lognormal_ml.h"
+#include "estimators/ml/poisson_ml.h"
+
+namespace bayline::pipeline {
+
+// Checks an observation against the model of `spec` and every estimator and detector it runs,
+// without touching any state: the common fields (CheckCommonFields on the full row), the model's
+// domain (y > 0 for lognormal / exponential / gamma, whole counts for poisson / binomial /
+// logistic / poisson_regression, trials >= 1, exposure > 0) and a unit weight where a bocpd reads
+// raw counts. Ok means no estimator will reject it except for a numerical failure.
+est::Status CheckObservation(const ResolvedSpec& spec, const est::Sample& sample);
+
+class EstimatorSlot {
+ public:
+  using GaussianLs = est::RecursiveLeastSquares<1>;
+  using Impl = std::variant<GaussianLs, est::GaussianMl, est::LognormalMl, est::PoissonMl,
+                            est::BinomialMl, est::ExponentialMl, est::GammaMl, est::NormalGamma,
+                            est::BetaBinomial, est::GammaPoisson, est::GammaExponential,
+                            Boxed<est::Rls>, Boxed<est::LinearMl>, Boxed<est::NigRegression<>>,
+                            Boxed<est::DynamicLinearModel<>>, Boxed<est::LogisticRegressionMl>,
+                            Boxed<est::PoissonRegressionMl>>;
+
+  // A fresh estimator of `kind` for `spec` (the kind must be allowed by the spec's model).
+  EstimatorSlot(const ResolvedSpec& spec, EstimatorKind kind);
+
+  // Absorbs the sample; strong guarantee (rejection changes nothing). *innovation gets the
+  // one-step innovation, *rr the recursive residual (valid only for ls).
+  est::Status Update(const est::Sample& sample, est::Innovation* innovation,
+                     est::RecursiveResidual* rr);
+  // Parameters in the spec's parameter_names order (gaussian ls: mean and the residual variance
+  // with its chi-square interval).
+  est::ParameterReport Report(double level) const;
+  // Prediction of a new y at the full regressor row x; false when this estimator cannot predict.
+  bool CanPredict() const;
+  est::Prediction Predict(std::span<const double> x, double level) const;
+  // Multiplies the parameter covariance by factor > 1 (ls, and ml of linear models).
+  bool CanInflate() const;
+  est::Status Inflate(double factor);
+
+  void Pack(std::vector<double>* out) const;
+  // Validates a packed state and replaces the current one; kInvalidState (nothing changed) if it
+  // does not unpack or fails the estimator's checks.
+  est::Status Unpack(std::span<const double> values);
+
+ private:
+  Impl impl_;
+};
+
+// True when `kind` can inflate its covariance on an alarm for `model` (config validation).
+bool EstimatorCanInflate(Model model, EstimatorKind kind);
+
+}  // namespace bayline::pipeline

@@ -1,0 +1,306 @@
+#include "daemon/pipeline/pipeline.h"
+
+#include <cmath>
+#include <string>
+
+#include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/pipeline_state.h"
+
+namespace bayline::pipeline {
+
+EffectiveLimits LimitsOf(const bayline::v1::DaemonConfig& config) {
+  EffectiveLimits l;
+  const auto& c = config.limits();
+  if (c.max_channels() > 0) l.max_channels = c.max_channels();
+  if (c.max_channel_name_bytes() > 0) l.max_channel_name_bytes = c.max_channel_name_bytes();
+  if (c.max_regressors() > 0) l.max_regressors = c.max_regressors();
+  return l;
+}
+
+PipelineState::PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
+                             uint32_t partition_count)
+    : config_(config),
+      limits_(LimitsOf(config)),
+      partition_index_(partition_index),
+      partition_count_(partition_count == 0 ? 1 : partition_count) {
+  rules_.Build(config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
+  x_full_.reserve(limits_.max_regressors + 1);
+  backup_.reserve(kMaxEstimatorsPerChannel);
+}
+
+bool PipelineState::Owns(std::string_view name) const {
+  return partition_count_ <= 1 || ChannelHash(name) % partition_count_ == partition_index_;
+}
+
+est::Sample PipelineState::BuildSample(const ResolvedSpec& spec,
+                                       const bayline::v1::Observation& obs, int64_t time_ns) {
+  x_full_.clear();
+  if (spec.intercept) x_full_.push_back(1.0);
+  x_full_.insert(x_full_.end(), obs.x().begin(), obs.x().end());
+  est::Sample s;
+  s.y = obs.has_y() ? obs.y() : est::kNaN;
+  s.x = x_full_;
+  s.trials = obs.has_trials() ? obs.trials() : 1.0;
+  s.exposure = obs.has_exposure() ? obs.exposure() : 1.0;
+  s.weight = obs.has_weight() ? obs.weight() : 1.0;
+  s.time = static_cast<double>(time_ns) * 1e-9;
+  return s;
+}
+
+void PipelineState::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
+                            PublicationSink& sink) {
+  const std::string& name = obs.channel();
+  const int64_t time_ns = obs.time_ns() != 0 ? obs.time_ns() : arrival_ns;
+
+  const ChannelNameProblem problem = CheckChannelName(name, limits_.max_channel_name_bytes);
+  if (problem != ChannelNameProblem::kOk) {
+    // The name is not echoed: it may be invalid UTF-8 (unserializable) or huge.
+    const std::string detail =
+        problem == ChannelNameProblem::kTooLong
+            ? "channel name has " + std::to_string(name.size()) + " bytes, limit " +
+                  std::to_string(limits_.max_channel_name_bytes)
+        : problem == ChannelNameProblem::kEmpty
+            ? std::string("channel name is empty")
+            : std::string("channel name is not valid UTF-8 or contains control characters");
+    publisher_.InputError(sink, "", obs.seq(), time_ns, ChannelNameReason(problem), detail);
+    return;
+  }
+  if (!Owns(name)) {
+    ++counters_.not_owned;
+    return;
+  }
+  if (static_cast<uint64_t>(obs.x_size()) > limits_.max_regressors) {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, "too_many_regressors",
+                          "x has " + std::to_string(obs.x_size()) + " entries, limit " +
+                              std::to_string(limits_.max_regressors));
+    return;
+  }
+  if (!obs.has_y()) {
+    if (obs.x_size() > 0) {
+      AnswerPrediction(obs, time_ns, sink);
+    } else {
+      publisher_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
+                            "y is missing (and no regressors: not a prediction request)");
+    }
+    return;
+  }
+
+  auto it = channels_.find(name);
+  const bool is_new = it == channels_.end();
+  std::shared_ptr<const ResolvedSpec> spec;
+  if (is_new) {
+    const int rule = rules_.Match(name);
+    if (rule < 0) {
+      publisher_.InputError(sink, name, obs.seq(), time_ns, "no_matching_rule",
+                            "no rule matches channel \"" + name + "\"");
+      return;
+    }
+    if (channels_.size() >= limits_.max_channels) {
+      publisher_.InputError(sink, name, obs.seq(), time_ns, "channel_limit",
+                            "channel limit of " + std::to_string(limits_.max_channels) +
+                                " reached; new channels are refused");
+      return;
+    }
+    const est::Status s =
+        rules_.ResolveForObservation(rule, static_cast<uint32_t>(obs.x_size()), &spec);
+    if (!s.ok()) {
+      publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
+                            s.message());
+      return;
+    }
+  } else {
+    spec = it->second.spec;
+  }
+
+  const est::Sample sample = BuildSample(*spec, obs, time_ns);
+  if (est::Status s = CheckObservation(*spec, sample); !s.ok()) {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
+                          s.message());
+    return;
+  }
+
+  const SeqWindow window = is_new ? SeqWindow{} : it->second.seq;
+  const uint64_t seq = obs.seq() != 0 ? obs.seq() : window.last + 1;
+  const SeqClass seq_class = window.Classify(seq);
+  if (seq_class == SeqClass::kDuplicate) {
+    ++counters_.seq_duplicates;
+    return;
+  }
+
+  if (is_new) {
+    it = channels_.try_emplace(name, spec).first;
+    counters_.channels = channels_.size();
+  }
+  Channel& ch = it->second;
+  if (est::Status s = UpdateEstimators(ch, sample); !s.ok()) {
+    if (is_new) {
+      channels_.erase(it);
+      counters_.channels = channels_.size();
+    }
+    publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
+    return;
+  }
+
+  ch.seq.Accept(seq);
+  if (seq_class == SeqClass::kGap) ++counters_.seq_gaps;
+  if (seq_class == SeqClass::kLate) ++counters_.seq_reordered;
+  ++ch.accepted;
+  ++counters_.accepted;
+  if (time_ns > ch.last_time_ns) ch.last_time_ns = time_ns;
+
+  RunDetectors(name, ch, sample, seq, time_ns, sink);
+  ApplyPublishPolicy(name, ch, seq, time_ns, sink);
+}
+
+est::Status PipelineState::UpdateEstimators(Channel& ch, const est::Sample& sample) {
+  const std::size_t n = ch.estimators.size();
+  if (n > 1) backup_ = ch.estimators;  // same kinds and sizes as last time: no allocation
+  for (std::size_t i = 0; i < n; ++i) {
+    innovations_[i] = est::Innovation();
+    residuals_[i] = est::RecursiveResidual();
+    est::Status s = ch.estimators[i].Update(sample, &innovations_[i], &residuals_[i]);
+    if (!s.ok()) {
+      for (std::size_t j = 0; j < i; ++j) ch.estimators[j] = backup_[j];
+      return s;
+    }
+  }
+  return est::Status::Ok();
+}
+
+void PipelineState::RunDetectors(const std::string& name, Channel& ch, const est::Sample& sample,
+                                 uint64_t seq, int64_t time_ns, PublicationSink& sink) {
+  const ResolvedSpec& spec = *ch.spec;
+  for (std::size_t d = 0; d < ch.detectors.size(); ++d) {
+    const DetectorSetup& setup = spec.detectors[d];
+    const auto w = static_cast<std::size_t>(setup.watch);
+    DetectorInput in;
+    in.sample = &sample;
+    in.innovation = &innovations_[w];
+    in.rr = &residuals_[w];
+    in.watched = &ch.estimators[w];
+    in.level = spec.level;
+    in.mark.seq = static_cast<int64_t>(seq);
+    in.mark.time = sample.time;
+    est::DetectorEvent event;
+    if (!ch.detectors[d].Update(setup, in, &event).ok()) {
+      ++counters_.detector_skips;
+      continue;
+    }
+    if (event.cleared) {
+      publisher_.Alarm(sink, name, setup, spec, event, false, seq, time_ns, sample.y);
+    }
+    if (event.raised) {
+      ch.detectors[d].RecordAlarm(
+          publisher_.Alarm(sink, name, setup, spec, event, true, seq, time_ns, sample.y));
+      if (setup.inflate_on_alarm > 1 && ch.estimators[w].CanInflate()) {
+        ch.estimators[w].Inflate(setup.inflate_on_alarm);  // factor validated: cannot fail
+      }
+    }
+  }
+}
+
+void PipelineState::ApplyPublishPolicy(const std::string& name, Channel& ch, uint64_t seq,
+                                       int64_t time_ns, PublicationSink& sink) {
+  const ResolvedSpec& spec = *ch.spec;
+  PublishState& p = ch.publish;
+  ++p.since_publish;
+  if (p.since_publish < spec.every_n) return;
+  if (spec.min_interval_ns > 0 && p.published && time_ns - p.last_publish_ns < spec.min_interval_ns) {
+    return;
+  }
+  for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
+    publisher_.Estimate(sink, name, spec, spec.estimators[i], ch.estimators[i].Report(spec.level),
+                        seq, time_ns, ch.accepted);
+  }
+  p.since_publish = 0;
+  p.last_publish_ns = time_ns;
+  p.published = true;
+}
+
+void PipelineState::AnswerPrediction(const bayline::v1::Observation& obs, int64_t time_ns,
+                                     PublicationSink& sink) {
+  const std::string& name = obs.channel();
+  auto it = channels_.find(name);
+  if (it == channels_.end()) {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, "unknown_channel",
+                          "prediction request for unknown channel \"" + name + "\"");
+    return;
+  }
+  const Channel& ch = it->second;
+  const ResolvedSpec& spec = *ch.spec;
+  if (!IsRegressionModel(spec.model) ||
+      static_cast<uint32_t>(obs.x_size()) != spec.regressor_count) {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, "wrong_regressor_count",
+                          "prediction request has " + std::to_string(obs.x_size()) +
+                              " regressors, channel expects " +
+                              std::to_string(spec.regressor_count));
+    return;
+  }
+  for (double v : obs.x()) {
+    if (!std::isfinite(v)) {
+      publisher_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
+                            "a regressor of the prediction request is not finite");
+      return;
+    }
+  }
+  x_full_.clear();
+  if (spec.intercept) x_full_.push_back(1.0);
+  x_full_.insert(x_full_.end(), obs.x().begin(), obs.x().end());
+  bool answered = false;
+  for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
+    if (!ch.estimators[i].CanPredict()) continue;
+    const est::Prediction p = ch.estimators[i].Predict(x_full_, spec.level);
+    publisher_.Prediction(sink, name, spec.estimators[i],
+                          std::span<const double>(obs.x().data(), obs.x().size()), p, obs.seq(),
+                          time_ns);
+    answered = true;
+  }
+  if (answered) {
+    ++counters_.predictions;
+  } else {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, "cannot_predict",
+                          "no estimator of this channel predicts (model " +
+                              std::string(ModelName(spec.model)) + ")");
+  }
+}
+
+void PipelineState::RejectFrame(std::string_view reason, std::string_view detail,
+                                int64_t arrival_ns, PublicationSink& sink) {
+  publisher_.InputError(sink, "", 0, arrival_ns, reason, detail);
+}
+
+// ---- Pipeline: forwards to PipelineState.
+
+Pipeline::Pipeline(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
+                   uint32_t partition_count)
+    : state_(std::make_unique<PipelineState>(config, partition_index, partition_count)) {}
+Pipeline::~Pipeline() = default;
+
+void Pipeline::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
+                       PublicationSink& sink) {
+  state_->Process(obs, arrival_ns, sink);
+}
+void Pipeline::RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
+                           PublicationSink& sink) {
+  state_->RejectFrame(reason, detail, arrival_ns, sink);
+}
+bayline::v1::ChannelList Pipeline::List(std::string_view glob) const { return state_->List(glob); }
+std::optional<bayline::v1::ChannelReport> Pipeline::Ask(std::string_view channel) const {
+  return state_->Ask(channel);
+}
+bool Pipeline::Reset(std::string_view channel) { return state_->Reset(channel); }
+const Counters& Pipeline::counters() const { return state_->counters(); }
+void Pipeline::SaveChannels(bayline::v1::Snapshot* out) const { state_->SaveChannels(out); }
+est::Status Pipeline::RestoreChannels(const bayline::v1::Snapshot& in,
+                                      std::vector<std::string>* reset_channels) {
+  return state_->RestoreChannels(in, reset_channels);
+}
+est::Status Pipeline::RestoreChannels(const bayline::v1::Snapshot& in) {
+  return state_->RestoreChannels(in, nullptr);
+}
+est::Status Pipeline::Reconfigure(const bayline::v1::DaemonConfig& config,
+                                  std::vector<std::string>* reset_channels) {
+  return state_->Reconfigure(config, reset_channels);
+}
+
+}  // namespace bayline::pipeline

@@ -1,0 +1,138 @@
+// SaveChannels / RestoreChannels: channel state <-> bayline.v1.Snapshot (snapshot.proto).
+// Component order: the estimators in spec order, then the detectors in spec order; each is a kind
+// name and the packed doubles of its state (EstimatorSlot::Pack, DetectorSlot::Pack).
+#include <algorithm>
+#include <set>
+
+#include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/pipeline_state.h"
+
+namespace bayline::pipeline {
+namespace {
+
+constexpr uint32_t kFormatVersion = 1;
+
+est::Status Invalid(const std::string& channel, const std::string& why) {
+  return est::Status::Error(est::ErrorCode::kInvalidState, "channel \"" + channel + "\": " + why);
+}
+
+}  // namespace
+
+void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
+  out->set_format_version(kFormatVersion);
+  out->set_config_digest(ConfigDigest(config_));
+  std::vector<const Registry::value_type*> sorted;
+  sorted.reserve(channels_.size());
+  for (const auto& entry : channels_) sorted.push_back(&entry);
+  std::sort(sorted.begin(), sorted.end(), [](const auto* a, const auto* b) { return a->first < b->first; });
+  std::vector<double> values;
+  for (const auto* entry : sorted) {
+    const Channel& ch = entry->second;
+    const ResolvedSpec& spec = *ch.spec;
+    auto* c = out->add_channels();
+    c->set_name(entry->first);
+    c->set_rule(spec.rule_name);
+    c->set_spec_digest(spec.digest);
+    c->set_model(std::string(ModelName(spec.model)));
+    c->set_regressor_count(spec.regressor_count);
+    c->mutable_seq()->set_last_seq(ch.seq.last);
+    c->mutable_seq()->set_seen_window(ch.seq.seen);
+    c->mutable_counters()->set_accepted(ch.accepted);
+    c->mutable_counters()->set_last_time_ns(ch.last_time_ns);
+    c->mutable_publish()->set_since_publish(ch.publish.since_publish);
+    c->mutable_publish()->set_last_publish_time_ns(ch.publish.last_publish_ns);
+    c->mutable_publish()->set_published(ch.publish.published);
+    for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
+      values.clear();
+      ch.estimators[i].Pack(&values);
+      auto* comp = c->add_components();
+      comp->set_kind(std::string(EstimatorKindName(spec.estimators[i])));
+      comp->mutable_values()->Assign(values.begin(), values.end());
+    }
+    for (std::size_t d = 0; d < ch.detectors.size(); ++d) {
+      values.clear();
+      ch.detectors[d].Pack(&values);
+      auto* comp = c->add_components();
+      comp->set_kind(std::string(DetectorKindName(spec.detectors[d].kind)));
+      comp->mutable_values()->Assign(values.begin(), values.end());
+    }
+  }
+}
+
+est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
+                                           std::vector<std::string>* reset) {
+  if (in.channels_size() > 0 && in.format_version() != kFormatVersion) {
+    return est::Status::Error(est::ErrorCode::kInvalidState,
+                              "snapshot format_version " + std::to_string(in.format_version()) +
+                                  " is not " + std::to_string(kFormatVersion));
+  }
+  std::vector<std::pair<std::string, Channel>> restored;
+  std::vector<std::string> reset_names;
+  std::set<std::string_view> seen;
+  for (const auto& c : in.channels()) {
+    const std::string& name = c.name();
+    if (CheckChannelName(name, limits_.max_channel_name_bytes) != ChannelNameProblem::kOk) {
+      return est::Status::Error(est::ErrorCode::kInvalidState, "snapshot holds an invalid channel name");
+    }
+    if (!seen.insert(name).second) return Invalid(name, "appears twice");
+    if (!Owns(name)) continue;
+    Model model;
+    if (!ParseModel(c.model(), &model)) return Invalid(name, "unknown model \"" + c.model() + "\"");
+    const int rule = rules_.Match(name);
+    std::shared_ptr<const ResolvedSpec> spec;
+    if (rule < 0 || !rules_.Resolve(rule, model, c.regressor_count(), &spec).ok() ||
+        spec->digest != c.spec_digest()) {
+      reset_names.push_back(name);
+      continue;
+    }
+    Channel ch(spec);
+    const std::size_t expected = ch.estimators.size() + ch.detectors.size();
+    if (static_cast<std::size_t>(c.components_size()) != expected) {
+      return Invalid(name, "has " + std::to_string(c.components_size()) + " components, spec has " +
+                               std::to_string(expected));
+    }
+    for (int k = 0; k < c.components_size(); ++k) {
+      const auto& comp = c.components(k);
+      const auto i = static_cast<std::size_t>(k);
+      const std::span<const double> values(comp.values().data(), comp.values().size());
+      std::string_view want;
+      est::Status s;
+      if (i < ch.estimators.size()) {
+        want = EstimatorKindName(spec->estimators[i]);
+        if (comp.kind() == want) s = ch.estimators[i].Unpack(values);
+      } else {
+        const std::size_t d = i - ch.estimators.size();
+        want = DetectorKindName(spec->detectors[d].kind);
+        if (comp.kind() == want) s = ch.detectors[d].Unpack(values);
+      }
+      if (comp.kind() != want) {
+        return Invalid(name, "component " + std::to_string(k) + " is \"" + comp.kind() +
+                                 "\", expected \"" + std::string(want) + "\"");
+      }
+      if (!s.ok()) return Invalid(name, "component " + std::to_string(k) + " (" + comp.kind() + "): " + s.message());
+    }
+    const uint64_t seen_window = c.seq().seen_window();
+    if (seen_window != 0 && (seen_window & 1u) == 0) return Invalid(name, "seq window is inconsistent");
+    ch.seq.last = c.seq().last_seq();
+    ch.seq.seen = seen_window;
+    ch.accepted = c.counters().accepted();
+    ch.last_time_ns = c.counters().last_time_ns();
+    ch.publish.since_publish = c.publish().since_publish();
+    ch.publish.last_publish_ns = c.publish().last_publish_time_ns();
+    ch.publish.published = c.publish().published();
+    restored.emplace_back(name, std::move(ch));
+  }
+  std::size_t total = channels_.size();
+  for (const auto& [name, ch] : restored) total += channels_.count(name) == 0 ? 1 : 0;
+  if (total > limits_.max_channels) {
+    return est::Status::Error(est::ErrorCode::kInvalidState,
+                              "restoring would exceed limits.max_channels (" +
+                                  std::to_string(limits_.max_channels) + ")");
+  }
+  for (auto& [name, ch] : restored) channels_.insert_or_assign(name, std::move(ch));
+  counters_.channels = channels_.size();
+  if (reset != nullptr) reset->insert(reset->end(), reset_names.begin(), reset_names.end());
+  return est::Status::Ok();
+}
+
+}  // namespace bayline::pipeline
