@@ -7,7 +7,9 @@
 // zero), state j is [(j - 1/2) w, (j + 1/2) w), the last one ending at h. With R the transient
 // transition matrix, the ARLs from every state solve (I - R) a = 1; the value starts in the state
 // holding the head start. The discretisation error falls like 1/m^2, so two chains (m and 2m) are
-// combined by Richardson extrapolation, a = (4 a_2m - a_m) / 3.
+// combined by Richardson extrapolation, a = (4 a_2m - a_m) / 3. With the default m = 120 the
+// result differs from R spc's Gauss-Legendre solution by < 2e-6 relative over k = 0.25..1.5 and
+// ARL0 up to 1000 (tests/reference/detect/charts_spc_test.R), far inside the 0.5% asked.
 // Two sides combine as (Lucas & Crosier 1982; exact when the two sides cannot be positive together,
 // which holds to a good approximation for k >= 0.25 at the usual h; the same rule as R spc's
 // xcusum.arl(sided = "two")):

@@ -14,7 +14,8 @@
 // is independent of the residual sum of squares of the first n - 1 observations, whose scale
 // s_{n-1} = sqrt(RSS_{n-1} / nu) has nu = n - 1 - p dof. So z_n = Phi^{-1}(F_{t, nu}(w_n / s_{n-1}))
 // is N(0, 1) i.i.d. (StandardizeRecursiveResidual). Because RSS_{n} = sum of the w_i^2 so far,
-// RecursiveResidualStandardizer can keep that scale itself from the w stream alone.
+// RecursiveResidualStandardizer can keep that scale itself from the w stream alone. Exact without
+// forgetting (and without robust down-weighting); with forgetting the t law is an approximation.
 //
 // KnownStandardizer (Phase II): z = (y - mean) / sd with user-given in-control mean and sd.
 //

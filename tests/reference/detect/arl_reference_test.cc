@@ -1,6 +1,7 @@
 // ARLs of the tabular CUSUM and the EWMA chart against published tables, both from the Markov
 // chain / integral equation (arl.h) and from simulated run lengths of the charts themselves.
 #include <cmath>
+#include <cstdio>
 
 #include <gtest/gtest.h>
 
@@ -10,6 +11,7 @@ namespace bayline::est {
 namespace {
 
 ::testing::AssertionResult Within(double value, double expected, double rel) {
+  std::printf("  %.6g vs %.6g (%.2f%%)\n", value, expected, 100.0 * (value / expected - 1.0));
   if (std::fabs(value / expected - 1.0) <= rel) return ::testing::AssertionSuccess();
   return ::testing::AssertionFailure() << value << " is not within " << rel * 100 << "% of " << expected;
 }

@@ -2,6 +2,7 @@
 // ARL achieved by the calibrated chart, measured by an independent simulation (another seed), is
 // within 10% of the target (no outside source: the calibration's own contract).
 #include <cmath>
+#include <cstdio>
 #include <random>
 
 #include <gtest/gtest.h>
@@ -24,6 +25,8 @@ TEST(ChartsSimulatedThresholdTest, PageHinkleyAchievesItsTarget) {
     PageHinkleyOptions o;
     ASSERT_TRUE(CalibratePageHinkley({500, shift}, &o, Budget(4000, 101)).ok());
     const double arl = SimulatePageHinkleyArl(o, 0.0, Budget(4000, 202));
+    std::printf("page_hinkley D=%g: delta %g threshold %.4f, simulated ARL0 %.1f (target 500)\n", shift,
+                o.delta, o.threshold, arl);
     EXPECT_NEAR(arl, 500, 50) << "delta " << o.delta << " threshold " << o.threshold;
     // It catches the design shift arriving after 100 in-control observations far sooner than a
     // false alarm (a shift present from the start is absorbed by the running mean, by design).
@@ -41,6 +44,7 @@ TEST(ChartsSimulatedThresholdTest, PageHinkleyAchievesItsTarget) {
       delay += t;
       ++runs;
     }
+    std::printf("page_hinkley D=%g: mean delay %.1f after a change at observation 100\n", shift, delay / runs);
     EXPECT_LT(delay / runs, 0.2 * 500) << "mean delay at the design shift " << shift;
   }
 }
@@ -49,13 +53,18 @@ TEST(ChartsSimulatedThresholdTest, GlrAchievesItsTargetForFixedAndAutomaticWindo
   GlrOptions fixed;
   fixed.window = 50;
   ASSERT_TRUE(CalibrateGlr({500, 1.0}, &fixed, Budget(4000, 104)).ok());
-  EXPECT_NEAR(SimulateGlrArl(fixed, 0.0, Budget(4000, 205)), 500, 50) << fixed.threshold;
+  const double arl_fixed = SimulateGlrArl(fixed, 0.0, Budget(4000, 205));
+  std::printf("glr W=50: threshold %.4f, simulated ARL0 %.1f (target 500)\n", fixed.threshold, arl_fixed);
+  EXPECT_NEAR(arl_fixed, 500, 50) << fixed.threshold;
   GlrOptions automatic;
   automatic.window = 0;
   automatic.direction = Direction::kUp;
   ASSERT_TRUE(CalibrateGlr({200, 0.5}, &automatic, Budget(4000, 106)).ok());
   EXPECT_EQ(automatic.window, std::lround(8 * std::log(200.0) / 0.25));
-  EXPECT_NEAR(SimulateGlrArl(automatic, 0.0, Budget(4000, 207)), 200, 20) << automatic.threshold;
+  const double arl_auto = SimulateGlrArl(automatic, 0.0, Budget(4000, 207));
+  std::printf("glr up, W=%lld (auto): threshold %.4f, simulated ARL0 %.1f (target 200)\n",
+              static_cast<long long>(automatic.window), automatic.threshold, arl_auto);
+  EXPECT_NEAR(arl_auto, 200, 20) << automatic.threshold;
 }
 
 }  // namespace
