@@ -257,6 +257,45 @@ TEST(NigRegressionTest, DiscountMatchesGeometricallyWeightedClosedForm) {
   EXPECT_TRUE(RelNear(est.Report().effective_n, weight_sum, 1e-12));
 }
 
+TEST(NigRegressionTest, LongDiscountedIllConditionedRunMatchesWeightedBatchQr) {
+  // 1e5 discounted updates (delta = 0.99) on nearly collinear regressors (x2 = x1 + 1e-4 noise).
+  // The power prior unrolls to: prior rows at full weight plus data rows weighted delta^(n-i); rows
+  // older than 4000 steps weigh < 0.99^4000 = 3e-18 and are left out of the batch. The batch is a
+  // rank-revealing QR of the stacked weighted rows (common practice, no source).
+  const int n = 100000, window = 4000;
+  const double delta = 0.99;
+  NigRegression<3>::Options o;
+  o.prior_precision = {1e-4, 1e-4, 1e-4};
+  o.discount.lambda = delta;
+  NigRegression<3> est(o);
+  std::mt19937_64 rng(15);
+  std::normal_distribution<double> N(0, 1);
+  Eigen::MatrixXd A(window + 3, 3);
+  Eigen::VectorXd rhs(window + 3);
+  A.topRows(3) = 1e-2 * Eigen::Matrix3d::Identity();  // sqrt(Lambda0), prior mean 0
+  rhs.head(3).setZero();
+  for (int i = 0; i < n; ++i) {
+    const double u = N(rng);
+    const double x[3] = {1.0, u, u + 1e-4 * N(rng)};
+    Sample s;
+    s.x = x;
+    s.y = 2.0 + 3.0 * x[1] - 1.0 * x[2] + 0.01 * N(rng);
+    ASSERT_TRUE(est.Update(s).ok()) << i;
+    if (i >= n - window) {
+      const int r = 3 + i - (n - window);
+      const double f = std::sqrt(std::pow(delta, n - 1 - i));
+      A.row(r) << f * x[0], f * x[1], f * x[2];
+      rhs(r) = f * s.y;
+    }
+  }
+  const Eigen::VectorXd batch = A.colPivHouseholderQr().solve(rhs);
+  const Eigen::Vector3d m = est.mean();
+  for (int j = 0; j < 3; ++j) EXPECT_TRUE(RelNear(m(j), batch(j), 1e-7)) << j;
+  EXPECT_TRUE(est.state().factor.allFinite());
+  EXPECT_GT(est.state().factor.diagonal().minCoeff(), 0.0);
+  EXPECT_TRUE(RelNear(est.Report().effective_n, 1.0 / (1.0 - delta), 1e-10));
+}
+
 TEST(NigRegressionTest, HalfLifeDiscountUsesElapsedTime) {
   // Two observations 10 s apart with a 10 s half-life: the first is discounted by 1/2.
   NigRegression<1>::Options o;
