@@ -55,8 +55,9 @@ bool SolveIncreasing(Arl arl, double target, double x0, double* out) {
   return true;
 }
 
-// Simulation calibration by records (calibration.h). `chart_options` has an unreachable
-// threshold; `set` writes a threshold into an options copy (unused here but keeps the call uniform).
+// Simulation calibration by records (calibration.h). `chart_options` has an unreachable threshold,
+// so each run's statistic path is the same whatever threshold is finally chosen. `grow` widens the
+// bracket: a factor when > 1, else an additive step of -grow.
 template <typename Chart, typename Options>
 bool SimulatedThreshold(const Options& chart_options, double arl0, const SimulationBudget& budget,
                         double guess, double grow, double* out) {
