@@ -4,7 +4,6 @@
 #include <cmath>
 #include <string>
 
-#include <Eigen/SVD>
 
 #include "estimators/core/special_functions.h"
 #include "estimators/ml/ml_common.h"
@@ -114,6 +113,8 @@ std::size_t GlmMlOptions::StartupRows() const {
   return startup_observations != 0 ? startup_observations : std::max<std::size_t>(20, 10 * num_regressors);
 }
 
+std::size_t GlmMlOptions::StartupCapacity() const { return kStartupCapacityFactor * StartupRows(); }
+
 // ---- State ----
 
 template <typename Family>
@@ -140,7 +141,8 @@ Status GlmMl<Family>::State::Unpack(StateReader& rd) {
   rd.Get(n0);
   if (!rd.status(false).ok()) return rd.status(false);
   if (!(p >= 1 && p <= GlmMlOptions::kMaxRegressors && p == std::floor(p)) ||
-      !(n0 >= p && n0 <= GlmMlOptions::kMaxStartupRows && n0 == std::floor(n0))) {
+      !(n0 >= 0 && n0 <= GlmMlOptions::kMaxStartupRows * GlmMlOptions::kStartupCapacityFactor &&
+        n0 == std::floor(n0))) {
     return Status::Error(ErrorCode::kInvalidState, "glm state has an invalid size");
   }
   const auto pi = static_cast<Eigen::Index>(p);
@@ -174,7 +176,7 @@ template <typename Family>
 Status GlmMl<Family>::State::Validate() const {
   const auto bad = [](const std::string& why) { return Status::Error(ErrorCode::kInvalidState, why); };
   const Eigen::Index p = theta.size();
-  if (p < 1 || r.rows() != p || r.cols() != p || startup.rows() != p + 3 || startup.cols() < p) {
+  if (p < 1 || r.rows() != p || r.cols() != p || startup.rows() != p + 3 || (started != (startup.cols() == 0))) {
     return bad("glm state: inconsistent sizes");
   }
   if (!theta.allFinite() || !r.allFinite()) return bad("glm state: non-finite estimate or factor");
@@ -215,13 +217,22 @@ GlmMl<Family>::GlmMl(const Options& options) : options_(options), p_(options.num
   state_.theta.setZero(p);
   state_.r = Eigen::MatrixXd::Identity(p, p) * std::sqrt(options_.prior_precision);
   state_.prior_weight = options_.prior_precision;
-  state_.startup.setZero(p + 3, static_cast<Eigen::Index>(options_.StartupRows()));
+  state_.startup.setZero(p + 3, static_cast<Eigen::Index>(options_.StartupCapacity()));
   scratch_theta_.setZero(p);
   scratch_trial_.setZero(p);
   scratch_grad_.setZero(p);
   scratch_step_.setZero(p);
   scratch_row_.setZero(p);
   scratch_r_.setZero(p, p);
+  scratch_inv_.setZero(p, p);
+}
+
+template <typename Family>
+bool GlmMl<Family>::WellDetermined(const Eigen::MatrixXd& r, double prior_weight, Eigen::MatrixXd& work) {
+  work.setIdentity();
+  r.triangularView<Eigen::Upper>().solveInPlace(work);  // R^{-1}
+  const double trace = work.squaredNorm();                // trace(R^{-1} R^{-T}) = trace(I^{-1})
+  return std::isfinite(trace) && trace * prior_weight < 1e-3;
 }
 
 template <typename Family>
@@ -327,23 +338,26 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
     state_.startup(p, j) = s.y;
     state_.startup(p + 1, j) = aux;
     state_.startup(p + 2, j) = w;
-    const bool full = j + 1 == state_.startup.cols();
-    if (full) {
-      if (!FitStartup(static_cast<std::size_t>(j + 1), f, prior_weight) ||
-          !(prior_weight > 0)) {
+    const auto rows = static_cast<std::size_t>(j + 1);
+    bool start = false;
+    if (rows >= options_.StartupRows()) {
+      const bool fitted = FitStartup(rows, f, prior_weight) && prior_weight > 0;
+      const bool full = j + 1 == state_.startup.cols();
+      if (full && !fitted) {
         return Status::Error(ErrorCode::kNumericalFailure, "start-up fit did not converge to finite values");
       }
+      start = full || (fitted && WellDetermined(scratch_r_, prior_weight, scratch_inv_));
     }
     // Commit.
     state_.startup.block(p + 2, 0, 1, j) *= f;
-    state_.startup_rows = static_cast<double>(j + 1);
-    if (full) {
+    state_.startup_rows = static_cast<double>(rows);
+    if (start) {
       state_.theta = scratch_theta_;
       state_.r = scratch_r_;
       state_.log_likelihood = scratch_ll_;
       state_.started = true;
       state_.startup_rows = 0;
-      state_.startup.setZero();
+      state_.startup.resize(p + 3, 0);  // frees the buffer
     }
   } else {
     if (!std::isfinite(mean) || !std::isfinite(var)) {
@@ -354,10 +368,13 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
     AddRow(scratch_r_, scratch_row_);
     const double score = w * (s.y - mean);
     scratch_step_ = score * x;
-    SolveInformation(scratch_r_, scratch_step_);
-    scratch_theta_ = state_.theta + scratch_step_;
-    const double ll = f * state_.log_likelihood + w * log_mass + 0.5 * score * x.dot(scratch_step_);
-    if (!scratch_theta_.allFinite() || !scratch_r_.allFinite() || !std::isfinite(ll) || !(prior_weight > 0)) {
+    SolveInformation(scratch_r_, scratch_step_);  // I^{-1} g
+    const double eta_step = x.dot(scratch_step_);
+    const double t = std::fabs(eta_step) > GlmMlOptions::kMaxEtaStep ? GlmMlOptions::kMaxEtaStep / std::fabs(eta_step) : 1.0;
+    scratch_theta_ = state_.theta + t * scratch_step_;
+    const double ll = f * state_.log_likelihood + w * log_mass + (t - 0.5 * t * t) * score * eta_step;
+    if (!scratch_theta_.allFinite() || !scratch_r_.allFinite() || !std::isfinite(ll) ||
+        !(prior_weight > 0)) {
       return Status::Error(ErrorCode::kNumericalFailure, "scoring step is not finite at y = " + std::to_string(s.y));
     }
     state_.theta.swap(scratch_theta_);
@@ -379,14 +396,11 @@ ParameterReport GlmMl<Family>::Report(double level) const {
   std::vector<double> value(p_), se(p_);
   bool ok = state_.started;
   if (ok) {
-    const Eigen::JacobiSVD<Eigen::MatrixXd> svd(state_.r);
-    const double smin = svd.singularValues()(p - 1);
-    ok = smin * smin > 1000.0 * state_.prior_weight;
-    const Eigen::MatrixXd rinv =
-        state_.r.template triangularView<Eigen::Upper>().solve(Eigen::MatrixXd::Identity(p, p));
+    Eigen::MatrixXd rinv(p, p);
+    ok = WellDetermined(state_.r, state_.prior_weight, rinv);  // leaves R^{-1} in rinv
     for (Eigen::Index i = 0; i < p; ++i) {
       value[i] = state_.theta(i);
-      se[i] = rinv.row(i).norm();
+      se[i] = rinv.row(i).norm();  // sqrt of diag(R^{-1} R^{-T}) = diag(I^{-1})
     }
   }
   ml_internal::FillWaldReport(value, se, ok, level, &rep);
@@ -400,7 +414,7 @@ Status GlmMl<Family>::Restore(const State& state) {
   Status s = state.Validate();
   if (!s.ok()) return s;
   if (static_cast<std::size_t>(state.theta.size()) != p_ ||
-      static_cast<std::size_t>(state.startup.cols()) != options_.StartupRows()) {
+      (!state.started && static_cast<std::size_t>(state.startup.cols()) != options_.StartupCapacity())) {
     return Status::Error(ErrorCode::kInvalidState, "glm state sizes do not match the options");
   }
   // Copy into the existing storage (sizes match, so no reallocation of the working state).

@@ -11,13 +11,17 @@
 // For a canonical link each observation contributes score a (y - mu) x and expected (= observed)
 // information a v x x' with v = Var[y | eta] (m p (1 - p), resp. mu).
 //
-// Start-up. The first N0 = options.StartupRows() accepted observations are kept (state.startup)
-// and, when the buffer is full, theta is set by batch Fisher scoring (iteratively reweighted least
-// squares with step halving) to the maximiser of l over those rows. Starting the recursion from
-// theta = 0 instead would accumulate information evaluated far from the estimate: for the Poisson
-// model one large early count makes mu overshoot by orders of magnitude and that inflated
-// information never leaves R. Until the start-up fit the report is not identifiable and
-// innovations are invalid.
+// Start-up. Accepted observations are first kept in a buffer (state.startup). From the N0-th
+// (N0 = options.StartupRows()) on, each new row triggers a batch fit over the buffer: penalised
+// Fisher scoring (iteratively reweighted least squares with step halving) to the maximiser of l.
+// The recursion starts from that fit as soon as it is well determined, i.e. the information at
+// the fit passes the identifiability test below; while the buffered rows are (quasi-)separated
+// (e.g. a rare-event logistic channel that has seen no event yet) it is not, and buffering goes
+// on, up to the capacity 4 N0 (options.StartupCapacity()), where the recursion starts regardless.
+// The buffer is released when the recursion starts. Starting the recursion from theta = 0 instead
+// would accumulate information evaluated far from the estimate: for the Poisson model large early
+// counts make mu overshoot by orders of magnitude and that inflated information never leaves R.
+// Until the recursion starts the report is not identifiable and innovations are invalid.
 //
 // Recursion (after start-up), one O(p^2) step per observation with forgetting factor f:
 //   R <- sqrt(f) R;  eta = x' theta_old;  append the row sqrt(a v) x' to R and restore triangular
@@ -27,15 +31,26 @@
 // expansions, each taken around the estimate current when the observation arrived. It differs
 // from the batch MLE by the linearisation error of those expansions, O(log n / n) (versus
 // standard errors O(n^{-1/2})); tests/reference/ml checks it against a batch GLM fit at n = 1e5.
-// state.log_likelihood tracks the maximum of that surrogate,
-//   L <- f L + a log p(y | theta_old) + g' (theta_new - theta_old) / 2,
-// which approximates the log-likelihood at the estimate to the same order.
+// Safeguard (damped step): a step that would move this row's linear predictor by more than
+// kMaxEtaStep (= 1, a factor e in the odds or the mean) is shortened to that length (factor t).
+// In a well-determined steady state a step moves x' theta by about leverage * (y - mu) / v, far
+// below 1, so the cap binds only in transients (the rows after a forced start, gross outliers),
+// where it bounds one row's influence; the part of the step cut off is dropped. (Carrying it over
+// to later rows was tried: after a forced start it overshoots into regions where the information
+// then absorbed is far too large, which is worse.)
+// state.log_likelihood tracks the value of that surrogate at theta,
+//   L <- f L + a log p(y | theta_old) + (t - t^2 / 2) g' I^{-1} g,
+// (with full steps, its maximum), which approximates the log-likelihood at the estimate to the
+// same order.
+// Limitation: information, once absorbed, is never re-evaluated; a gross outlier inside the
+// start-up window (a count of thousands where the rate is 2) leaves the information evaluated at a
+// far too large mean and the estimate then recovers only slowly (forgetting shortens this).
 // Standard errors: sqrt(diag(I^{-1})) from R (prior included; its share is negligible once
 // identifiable). identifiable = start-up done and lambda_min(R'R) > 1000 * state.prior_weight,
 // i.e. the data, not the prior, determine theta in every direction.
 //
-// Storage: theta, R and the start-up buffer are allocated at construction; Update allocates
-// nothing (Restore and Report do).
+// Storage: theta, R, scratch and the start-up buffer ((p + 3) x 4 N0 doubles) are allocated at
+// construction; Update allocates nothing (it frees the buffer once; Restore and Report allocate).
 #pragma once
 
 #include <cstddef>
@@ -58,9 +73,12 @@ struct GlmMlOptions {
   ForgettingOptions forgetting;          // default: none (batch-like answer)
   double prior_precision = 1e-8;         // delta > 0 finite: ridge keeping I invertible at start
   std::size_t startup_observations = 0;  // N0; 0 = automatic max(20, 10 p); else p..kMaxStartupRows
+  static constexpr std::size_t kStartupCapacityFactor = 4;
+  static constexpr double kMaxEtaStep = 1.0;  // cap on one row's change of its linear predictor
 
   Status Validate() const;
-  std::size_t StartupRows() const;  // the N0 in use
+  std::size_t StartupRows() const;      // the N0 in use
+  std::size_t StartupCapacity() const;  // kStartupCapacityFactor * N0
 };
 
 // Link/variance family of a canonical GLM (defined in glm_ml.cc).
@@ -82,13 +100,16 @@ class GlmMl {
     double last_time = kNaN;
     bool started = false;        // start-up fit done; the recursion is running
     double startup_rows = 0.0;   // columns of `startup` in use
-    Eigen::MatrixXd startup;     // (p + 3) x N0; column j = [x_j; y_j; trials or exposure; a_j]
+    Eigen::MatrixXd startup;     // (p + 3) x capacity before the start, (p + 3) x 0 after;
+                                 // column j = [x_j; y_j; trials or exposure; a_j]
 
-    // Pack writes p and N0 first, then the fields; only the used start-up columns are written.
+    // Pack writes p and the buffer capacity first, then the fields; only the used start-up columns
+    // are written.
     void Pack(StateWriter& w) const;
     // Sizes itself from the stored p and N0; kInvalidState on short, long or inconsistent input.
     Status Unpack(StateReader& r);
-    // Sizes agree; values finite; R upper triangular with positive diagonal; counts consistent.
+    // Sizes agree; values finite; R upper triangular with positive diagonal; counts consistent;
+    // the buffer is empty (0 columns) once started.
     Status Validate() const;
   };
 
@@ -117,6 +138,8 @@ class GlmMl {
   // Batch penalised Fisher scoring over the buffered columns (old ones scaled by old_scale) into
   // scratch_theta_, scratch_r_, scratch_ll_. Returns false if it does not produce finite values.
   bool FitStartup(std::size_t columns, double old_scale, double prior_weight);
+  // trace((R'R)^{-1}) * prior_weight < 1e-3, with `work` (p x p) as workspace.
+  static bool WellDetermined(const Eigen::MatrixXd& r, double prior_weight, Eigen::MatrixXd& work);
 
   Options options_;
   std::size_t p_;
@@ -124,6 +147,7 @@ class GlmMl {
   // Preallocated scratch (not state).
   Eigen::VectorXd scratch_theta_, scratch_trial_, scratch_grad_, scratch_step_, scratch_row_;
   Eigen::MatrixXd scratch_r_;
+  Eigen::MatrixXd scratch_inv_;
   double scratch_ll_ = 0.0;
 };
 
