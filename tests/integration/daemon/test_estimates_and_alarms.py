@@ -7,8 +7,18 @@ from conftest import frame, obs, receive_until
 T0 = 1_800_000_000_000_000_000  # observation times: 1 s apart from here
 
 
-def test_gaussian_estimates_match_the_sample_and_a_step_raises_an_alarm(daemons):
-    d = daemons().start()
+# In-control run length of the CUSUM set far beyond the test's 300 in-control observations, so a
+# false alarm (which the default arl0 of 1000 allows) cannot mask the step.
+STEADY_PROBES = """
+rules { name: "probes" match: "coldstore/**"
+        spec { model: "gaussian" detectors { kind: "cusum" arl0: 1000000 } } }
+"""
+
+
+def test_gaussian_estimates_match_the_sample_and_a_step_raises_an_alarm(daemons, tmp_path):
+    config = tmp_path / "probes.conf"
+    config.write_text(STEADY_PROBES)
+    d = daemons(extra_args=["--config", str(config)]).start()
     push, sub = d.pusher(), d.subscriber(b"estimate/coldstore/")
     sub.setsockopt(zmq.SUBSCRIBE, b"alarm/")
     d.sync_subscriber(sub, push)
