@@ -278,12 +278,13 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
   if (out) {
     Innovation inn;
     if (pred_ok) {
-      const double scale = sw * cprod;
+      const double inv_scale = 1.0 / (sw * cprod);
+      const double sd = std::sqrt(s2_prev);
       inn.valid = true;
-      inn.residual = eta_d / scale;
+      inn.residual = eta_d * inv_scale;
       inn.prediction = (s.y + y_lo) - inn.residual;
-      inn.predictive_sd = std::sqrt(s2_prev) / scale;
-      inn.standardized = eta_d / std::sqrt(s2_prev);
+      inn.predictive_sd = sd * inv_scale;
+      inn.standardized = eta_d / sd;
       inn.log_predictive =
           StudentTLogDensity(inn.standardized, dof_prev) - std::log(inn.predictive_sd);
     }

@@ -23,13 +23,13 @@ inline double Log1pFast(double x) {
 
 inline double StudentTLogDensity(double u, double dof) {
   if (!(dof >= 30.0)) return dist::StudentTLogPdf(u, dof);
-  const double a = 0.5 * dof;
-  const double r = 1.0 / a;
+  const double inv_dof = 1.0 / dof;
+  const double r = 2.0 * inv_dof;  // 1 / a
   const double r2 = r * r;
   const double series =
       r * (-1.0 / 8 + r2 * (1.0 / 192 + r2 * (-1.0 / 640 + r2 * (17.0 / 14336 - r2 * (31.0 / 18432)))));
   constexpr double kHalfLog2Pi = 0.91893853320467274178;  // log(2 pi) / 2
-  return series - kHalfLog2Pi - 0.5 * (dof + 1.0) * Log1pFast(u * u / dof);
+  return series - kHalfLog2Pi - 0.5 * (dof + 1.0) * Log1pFast(u * u * inv_dof);
 }
 
 }  // namespace bayline::est
