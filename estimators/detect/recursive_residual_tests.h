@@ -21,9 +21,11 @@
 //   * RecursiveCusum decides at every residual: W_j uses the running
 //     sigma_hat_j = sqrt(sum_{i<=j} w_i^2 / j) of the block so far (or a known `sigma` > 0). The
 //     running version is self-normalised, |W_j| <= j, so it cannot cross the boundary before
-//     j >= a sqrt(N); its size is close to, not exactly, alpha (measured in the unit tests).
+//     j >= a sqrt(N); its size is close to, not exactly, alpha: measured 3.4% of null blocks
+//     rejected at alpha = 0.05, N = 100 (unit test InControlRejectionRatePerBlockIsNearAlpha).
 //   * RecursiveCusumSquares needs the block's total, so it decides once per block, at j = N, with
-//     exactly BDE's S_j; in between events carry statistic = NaN ("no decision yet").
+//     exactly BDE's S_j; in between events carry statistic = NaN ("no decision yet"). Measured
+//     5.4% of null blocks rejected at alpha = 0.05, N = 60.
 // At the end of a block without alarm the next residual starts a new block.
 //
 // Alarm life cycle (alarm.h): raised when the statistic crosses (|W_j| > boundary_j; or
@@ -38,7 +40,8 @@
 // NaN. Direction: the side crossed, kUp / kDown (for squares kUp when S_j - j/N > 0 at the extreme
 // point: the residual variance was larger before it than after).
 //
-// Thread safety: none. No heap allocation in Update() after construction.
+// Thread safety: none. No heap allocation in Update() after construction (RecursiveCusumSquares
+// reserves `horizon` entries; a copy reserves only its current size, so move it instead).
 #pragma once
 
 #include <cstdint>
