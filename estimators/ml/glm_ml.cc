@@ -129,6 +129,7 @@ void GlmMl<Family>::State::Pack(StateWriter& w) const {
   w.Put(count);
   w.Put(last_time);
   w.Put(started);
+  w.Put(determined);
   w.Put(startup_rows);
   const auto used = static_cast<Eigen::Index>(startup_rows);
   if (used > 0 && used <= startup.cols()) w.Put(startup.leftCols(used));
@@ -157,6 +158,7 @@ Status GlmMl<Family>::State::Unpack(StateReader& rd) {
   rd.Get(count);
   rd.Get(last_time);
   rd.Get(started);
+  rd.Get(determined);
   rd.Get(startup_rows);
   if (!rd.status(false).ok()) return rd.status(false);
   if (!(startup_rows >= 0 && startup_rows <= n0 && startup_rows == std::floor(startup_rows))) {
@@ -195,6 +197,7 @@ Status GlmMl<Family>::State::Validate() const {
     return bad("glm state: start-up row count out of range");
   }
   if (started != (startup_rows == 0 && count > 0)) return bad("glm state: start-up flag inconsistent");
+  if (determined && !started) return bad("glm state: determined before the start");
   if (!started && startup_rows != count) return bad("glm state: start-up rows and count disagree");
   const auto used = static_cast<Eigen::Index>(startup_rows);
   if (used > 0) {
@@ -325,7 +328,7 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
   Family::Moments(eta, aux, &mean, &var);
   const double log_mass = Family::LogKernel(s.y, eta, aux) + Family::LogConst(s.y, aux);
   Innovation inn;
-  if (state_.started) ml_internal::FillInnovation(s.y, mean, std::sqrt(var), log_mass, &inn);
+  if (state_.started && state_.determined) ml_internal::FillInnovation(s.y, mean, std::sqrt(var), log_mass, &inn);
 
   const double f = ml_internal::StepFactor(options_.forgetting, s.time, state_.last_time);
   const double prior_weight = f * state_.prior_weight;
@@ -356,6 +359,7 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
       state_.r = scratch_r_;
       state_.log_likelihood = scratch_ll_;
       state_.started = true;
+      state_.determined = WellDetermined(state_.r, prior_weight, scratch_inv_);
       state_.startup_rows = 0;
       state_.startup.resize(p + 3, 0);  // frees the buffer
     }
@@ -380,6 +384,8 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
     state_.theta.swap(scratch_theta_);
     state_.r.swap(scratch_r_);
     state_.log_likelihood = ll;
+    // O(p^3), but only until the information first passes the test.
+    if (!state_.determined) state_.determined = WellDetermined(state_.r, prior_weight, scratch_inv_);
   }
   state_.prior_weight = prior_weight;
   state_.weight_sum = f * state_.weight_sum + w;
@@ -426,6 +432,7 @@ Status GlmMl<Family>::Restore(const State& state) {
   state_.count = state.count;
   state_.last_time = state.last_time;
   state_.started = state.started;
+  state_.determined = state.determined;
   state_.startup_rows = state.startup_rows;
   state_.startup = state.startup;
   return Status::Ok();

@@ -21,7 +21,9 @@
 // The buffer is released when the recursion starts. Starting the recursion from theta = 0 instead
 // would accumulate information evaluated far from the estimate: for the Poisson model large early
 // counts make mu overshoot by orders of magnitude and that inflated information never leaves R.
-// Until the recursion starts the report is not identifiable and innovations are invalid.
+// Until the recursion starts the report is not identifiable and innovations are invalid; after a
+// forced start, innovations stay invalid until the information first passes the identifiability
+// test (state.determined), so detectors never see predictions from a separated fit.
 //
 // Recursion (after start-up), one O(p^2) step per observation with forgetting factor f:
 //   R <- sqrt(f) R;  eta = x' theta_old;  append the row sqrt(a v) x' to R and restore triangular
@@ -99,6 +101,7 @@ class GlmMl {
     double count = 0.0;          // accepted observations, undiscounted
     double last_time = kNaN;
     bool started = false;        // start-up fit done; the recursion is running
+    bool determined = false;     // the information has passed the identifiability test (stays set)
     double startup_rows = 0.0;   // columns of `startup` in use
     Eigen::MatrixXd startup;     // (p + 3) x capacity before the start, (p + 3) x 0 after;
                                  // column j = [x_j; y_j; trials or exposure; a_j]

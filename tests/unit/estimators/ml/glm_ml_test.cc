@@ -279,9 +279,14 @@ TEST(LogisticRegressionMlTest, ForcedStartAtCapacityRecovers) {
   for (double v : quiet.y) ASSERT_EQ(v, 0.0);
   FeedAll(est, quiet);
   ASSERT_TRUE(est.state().started);
+  EXPECT_FALSE(est.state().determined);
   EXPECT_FALSE(est.Report().identifiable);
   const Data d = Logistic(20000, {-1.0, 0.8}, 54);
-  FeedAll(est, d);
+  Innovation inn;
+  ASSERT_TRUE(est.Update(d.samples[0], &inn).ok());
+  EXPECT_FALSE(inn.valid) << "prediction from a separated fit";
+  for (std::size_t i = 1; i < d.n(); ++i) ASSERT_TRUE(est.Update(d.samples[i], &inn).ok());
+  EXPECT_TRUE(inn.valid);
   const ParameterReport r = est.Report();
   ASSERT_TRUE(r.identifiable);
   EXPECT_NEAR(r.value[0], -1.0, 4 * r.std_error[0]);
