@@ -24,7 +24,7 @@ namespace bayline::cli {
 namespace {
 
 struct PlotOptions {
-  std::string input, channel, output, y_label, x_label, units, title, x_axis = "seq";
+  std::string input, channel, output, observations, y_label, x_label, units, title, x_axis = "seq";
 };
 
 std::filesystem::path FindPythonPackageDir() {
@@ -63,6 +63,7 @@ int RunPlot(const PlotOptions& o) {
       args.push_back(v);
     }
   };
+  add("--observations", o.observations);
   add("--y-label", o.y_label);
   add("--x-label", o.x_label);
   add("--units", o.units);
@@ -93,7 +94,10 @@ Subcommand AddPlotCommand(CLI::App& app) {
       ->required();
   sub->add_option("--channel", o->channel, "channel to plot")->required();
   sub->add_option("--output", o->output, "output image: .svg or .png")->required();
-  sub->add_option("--y-label", o->y_label, "label of the parameter axes");
+  sub->add_option("--observations", o->observations,
+                  "the input data (CSV or JSON Lines with columns channel, y and optionally seq) "
+                  "to draw above the estimates");
+  sub->add_option("--y-label", o->y_label, "label of the observations (or parameter) axes");
   sub->add_option("--x-label", o->x_label, "label of the horizontal axis");
   sub->add_option("--units", o->units, "units of the observations, shown in the labels");
   sub->add_option("--title", o->title, "figure title (default: the channel name)");

@@ -42,6 +42,9 @@ class FrameSender {
     socket_.set(zmq::sockopt::linger, timeout_ms);
     try {
       if (o.pub_bind.empty()) {
+        // Queue only on a completed connection: with no daemon, send times out (exit 2)
+        // instead of queueing frames that would be dropped silently at exit.
+        socket_.set(zmq::sockopt::immediate, true);
         socket_.connect(o.connect);
         endpoint_ = o.connect;
       } else {

@@ -12,6 +12,7 @@ std::string MessageJsonLine(const google::protobuf::Message& message) {
   google::protobuf::util::JsonPrintOptions options;
   options.preserve_proto_field_names = true;
   options.add_whitespace = false;
+  options.always_print_primitive_fields = true;  // as the pipeline's ToJsonLine does
   std::string out;
   auto status = google::protobuf::util::MessageToJsonString(message, &out, options);
   if (!status.ok()) return "{}";  // only for invalid UTF-8 strings, which the daemon never sends

@@ -1,5 +1,5 @@
 // JSON renderings of protobuf messages for CLI output: protobuf's own JSON mapping with the proto
-// field names (snake_case), one line, no trailing newline. Publications go through the pipeline
+// field names (snake_case), zero values printed, one line, no trailing newline. Publications go through the pipeline
 // library's ToJsonLine so that `follow` and `replay` print byte-identical lines.
 #pragma once
 
