@@ -9,6 +9,8 @@
 //   z      p-vector with R theta = z,
 //   S      the discounted weighted residual sum of squares at theta,
 //   n_eff  sum_t (discounted) w_t, the effective sample size; dof = n_eff - p.
+// Weights count as frequency weights in n_eff and dof (a weight-3 row is three identical rows);
+// callers with precision weights should scale them to average about 1.
 // Each observation row sqrt(w) [x', y] is annihilated into [R z] by p Givens rotations (O(p^2), no
 // allocation). The last entry left in the row is the recursive residual
 //     eta = sqrt(w) (y - x'theta_prev) / sqrt(1 + w x'(R'R)^{-1} x),   S <- S + eta^2,
@@ -43,6 +45,16 @@
 // kappa + kappa^2 tan(phi) > 1e13 (double) or 1e29 (extended), i.e. when fewer than about three
 // digits of theta are guaranteed. NIST Filip is flagged in double mode; Longley and Wampler1-5 are
 // not.
+//
+// Robust mode (RlsOptions::robust): the row's weight is multiplied by h = min(1, k / |u|), u the
+// standardized innovation (Huber 1964), before it is absorbed; Innovation and RecursiveResidual
+// still describe the observation as it arrived.
+//
+// Extended precision (RlsOptions::extended_precision): R, z, S in double-double, every rotation in
+// double-double (measured 5-7x the double cost per update). Rows given as doubles are taken as
+// exact; when they are themselves rounded (x^k of a polynomial basis), the rounding bounds the
+// accuracy whatever the arithmetic (NIST Filip: LRE about 7.6 at best from double-rounded rows, by
+// 60-digit computation), so UpdateExtended() accepts the rows' low-order parts.
 //
 // Thread safety: none; one owner (a daemon worker) per object. Copyable.
 #pragma once

@@ -36,8 +36,8 @@ struct RlsOptions {
   double huber_k = 1.345;
 
   // Extended precision: R, z and S are held as double-double (about 32 digits) and every rotation
-  // is done in double-double. About 5-10 times the cost per update. See UpdateExtended() for
-  // regressors that a double cannot hold.
+  // is done in double-double. About 5-7 times the cost per update (measured). See UpdateExtended()
+  // for regressors that a double cannot hold.
   bool extended_precision = false;
 
   Status Validate() const {
