@@ -229,6 +229,26 @@ Bocpd::Bocpd(const Options& options) : options_(options) {
   }
 }
 
+Bocpd::Bocpd(const Bocpd& other) : options_(other.options_), half_gamma_(other.half_gamma_) {
+  const auto cap = static_cast<std::size_t>(options_.max_run_lengths) + 1;
+  state_.runs.reserve(cap);
+  scratch_.reserve(cap);
+  state_.count = other.state_.count;
+  state_.origin_start = other.state_.origin_start;
+  state_.alarm_active = other.state_.alarm_active;
+  state_.holdoff_left = other.state_.holdoff_left;
+  state_.discarded_mass = other.state_.discarded_mass;
+  state_.runs.assign(other.state_.runs.begin(), other.state_.runs.end());
+}
+
+Bocpd& Bocpd::operator=(const Bocpd& other) {
+  if (this != &other) {
+    Bocpd copy(other);
+    *this = std::move(copy);
+  }
+  return *this;
+}
+
 Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent* event) {
   if (Status st = CheckDomain(options_.model, s); !st.ok()) return st;
   const BocpdModel model = options_.model;

@@ -34,8 +34,8 @@
 // factor, so the cap, not epsilon, usually bounds the work: measured on in-control normal data
 // with the defaults, hazard 1/100: 243 run lengths retained on average, pruned mass 3.6e-5 per
 // observation; hazard 1/1000: 102 and 9e-6 (unit test InControlFalseAlarmRateIsMeasured).
-// Cost per observation is O(max_run_lengths); storage is allocated once at construction (a copy
-// of a Bocpd reserves only its current size; move it, or copy before the first Update).
+// Cost per observation is O(max_run_lengths); storage is allocated once at construction (copies
+// reserve the same capacity, so a copy also updates without allocating).
 //
 // Alarm. statistic = P(the current segment started within the last `window` (m) observations and
 // is not the origin segment | x_{1:t}) = sum over retained runs with r_t < m of P(r_t | x_{1:t}),
@@ -117,6 +117,11 @@ class Bocpd {
 
   // Precondition: options.Validate().ok() (asserted). Reserves max_run_lengths + 1 runs.
   explicit Bocpd(const Options& options);
+  // Copies reserve max_run_lengths + 1 runs like the original; moves keep the storage.
+  Bocpd(const Bocpd& other);
+  Bocpd& operator=(const Bocpd& other);
+  Bocpd(Bocpd&&) noexcept = default;
+  Bocpd& operator=(Bocpd&&) noexcept = default;
 
   // Absorbs one observation and returns the event. Input by model: normal-gamma y (x empty);
   // gamma-poisson y = count (integer >= 0) in `exposure` > 0; beta-binomial y successes (integer)

@@ -256,6 +256,28 @@ RecursiveCusumSquares::RecursiveCusumSquares(const Options& options)
   state_.time.reserve(n);
 }
 
+RecursiveCusumSquares::RecursiveCusumSquares(const RecursiveCusumSquares& other)
+    : options_(other.options_), c0_(other.c0_) {
+  const auto n = static_cast<std::size_t>(options_.horizon);
+  state_.cum_sq.reserve(n);
+  state_.seq.reserve(n);
+  state_.time.reserve(n);
+  state_.j = other.state_.j;
+  state_.cum_sq.assign(other.state_.cum_sq.begin(), other.state_.cum_sq.end());
+  state_.seq.assign(other.state_.seq.begin(), other.state_.seq.end());
+  state_.time.assign(other.state_.time.begin(), other.state_.time.end());
+  state_.alarm_active = other.state_.alarm_active;
+  state_.holdoff_left = other.state_.holdoff_left;
+}
+
+RecursiveCusumSquares& RecursiveCusumSquares::operator=(const RecursiveCusumSquares& other) {
+  if (this != &other) {
+    RecursiveCusumSquares copy(other);
+    *this = std::move(copy);
+  }
+  return *this;
+}
+
 Status RecursiveCusumSquares::Update(double w, const ObservationMark& mark, DetectorEvent* event) {
   if (!std::isfinite(w)) {
     return Status::Error(ErrorCode::kNonFinite, "recursive residual is " + std::to_string(w));

@@ -41,7 +41,7 @@
 // point: the residual variance was larger before it than after).
 //
 // Thread safety: none. No heap allocation in Update() after construction (RecursiveCusumSquares
-// reserves `horizon` entries; a copy reserves only its current size, so move it instead).
+// reserves `horizon` entries, and so do its copies).
 #pragma once
 
 #include <cstdint>
@@ -126,6 +126,11 @@ class RecursiveCusumSquares {
   };
 
   explicit RecursiveCusumSquares(const Options& options);  // precondition: Validate().ok()
+  // Copies reserve `horizon` entries like the original; moves keep the storage.
+  RecursiveCusumSquares(const RecursiveCusumSquares& other);
+  RecursiveCusumSquares& operator=(const RecursiveCusumSquares& other);
+  RecursiveCusumSquares(RecursiveCusumSquares&&) noexcept = default;
+  RecursiveCusumSquares& operator=(RecursiveCusumSquares&&) noexcept = default;
   Status Update(double w, const ObservationMark& mark, DetectorEvent* event);
   double critical_value() const { return c0_; }
   const Options& options() const { return options_; }

@@ -214,6 +214,35 @@ TEST(BocpdTest, PruningKeepsStorageBoundedAndDiscardedMassWithinBound) {
   EXPECT_EQ(d.state().runs.capacity(), capacity);
 }
 
+// The daemon copies detector slots (to roll back a failed update): a copy keeps the preallocated
+// capacity and continues exactly like the original.
+TEST(BocpdTest, CopyKeepsCapacityAndContinuesIdentically) {
+  Bocpd::Options o;
+  o.max_run_lengths = 50;
+  Bocpd a(o);
+  std::mt19937_64 rng(13);
+  std::normal_distribution<double> n01;
+  for (int t = 0; t < 20; ++t) ASSERT_TRUE(a.Update(Y(n01(rng)), {t, NAN}, nullptr).ok());
+  Bocpd b(a);
+  Bocpd c(Bocpd::Options{});
+  c = a;
+  const Bocpd::Run* storage_b = b.state().runs.data();
+  const Bocpd::Run* storage_c = c.state().runs.data();
+  EXPECT_GE(b.state().runs.capacity(), 51u);
+  for (int t = 20; t < 400; ++t) {
+    const double y = n01(rng) + (t > 200 ? 3 : 0);
+    DetectorEvent ea, eb, ec;
+    ASSERT_TRUE(a.Update(Y(y), {t, NAN}, &ea).ok());
+    ASSERT_TRUE(b.Update(Y(y), {t, NAN}, &eb).ok());
+    ASSERT_TRUE(c.Update(Y(y), {t, NAN}, &ec).ok());
+    ASSERT_TRUE(BitEqual(Flat(ea), Flat(eb)));
+    ASSERT_TRUE(BitEqual(Flat(ea), Flat(ec)));
+  }
+  EXPECT_TRUE(BitEqual(Packed(a), Packed(b)));
+  EXPECT_EQ(b.state().runs.data(), storage_b);  // never reallocated
+  EXPECT_EQ(c.state().runs.data(), storage_c);
+}
+
 TEST(BocpdTest, AlarmLifeCycleRaisesOnceHoldsOffThenClears) {
   Bocpd::Options o;
   o.hazard = 1.0 / 100;

@@ -281,6 +281,19 @@ TEST(RecursiveResidualTestsTest, RejectsNonFiniteAndRestoresBitIdentically) {
   EXPECT_EQ(c1.Restore(bad_c).code(), ErrorCode::kInvalidState);
 }
 
+TEST(RecursiveCusumSquaresTest, CopyKeepsCapacity) {
+  RecursiveCusumSquares::Options o;
+  o.horizon = 40;
+  RecursiveCusumSquares a(o);
+  for (int t = 0; t < 5; ++t) ASSERT_TRUE(a.Update(1.0 + t, {t, NAN}, nullptr).ok());
+  RecursiveCusumSquares b(a);
+  EXPECT_GE(b.state().cum_sq.capacity(), 40u);
+  const double* storage = b.state().cum_sq.data();
+  for (int t = 5; t < 39; ++t) ASSERT_TRUE(b.Update(0.5, {t, NAN}, nullptr).ok());
+  EXPECT_EQ(b.state().cum_sq.data(), storage);
+  EXPECT_EQ(b.state().j, 39);
+}
+
 TEST(RecursiveResidualTestsTest, OptionsValidate) {
   RecursiveCusum::Options c;
   EXPECT_TRUE(c.Validate().ok());
