@@ -4,6 +4,7 @@
 // otherwise (or with --json): one JSON line per publication, flushed as it arrives.
 #include <unistd.h>
 
+#include <cerrno>
 #include <chrono>
 #include <cstdio>
 #include <iostream>
@@ -83,11 +84,23 @@ int RunFollow(const FollowOptions& o) {
       next_paint = now + std::chrono::milliseconds(200);
     }
     zmq::pollitem_t item{socket.handle(), 0, ZMQ_POLLIN, 0};
-    zmq::poll(&item, 1, std::chrono::milliseconds(100));  // wakes up to check stop and deadlines
+    try {
+      zmq::poll(&item, 1, std::chrono::milliseconds(100));  // wakes up to check stop and deadlines
+    } catch (const zmq::error_t& e) {
+      if (e.num() == EINTR) continue;  // a signal: the loop condition looks at the stop flag
+      throw;
+    }
     if ((item.revents & ZMQ_POLLIN) == 0) continue;
     while (o.count == 0 || shown < o.count) {
       parts.clear();
-      if (!zmq::recv_multipart(socket, std::back_inserter(parts), zmq::recv_flags::dontwait)) break;
+      try {
+        if (!zmq::recv_multipart(socket, std::back_inserter(parts), zmq::recv_flags::dontwait)) {
+          break;
+        }
+      } catch (const zmq::error_t& e) {
+        if (e.num() == EINTR) break;
+        throw;
+      }
       if (parts.size() != 2 ||
           !publication.ParseFromArray(parts[1].data(), static_cast<int>(parts[1].size()))) {
         std::cerr << "bayline follow: skipped an undecodable publication\n";

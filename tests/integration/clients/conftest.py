@@ -178,3 +178,31 @@ rules {
   spec { model: "gaussian" }
 }
 """
+
+
+class LineReader:
+    """Lines of a child process's stdout with a timeout per line. Reads the raw file descriptor
+    (a buffered reader would hide lines from select())."""
+
+    def __init__(self, stream):
+        self._fd = stream.fileno()
+        self._buffer = b""
+
+    def readline(self, timeout_s):
+        """The next line without its newline, or None at the timeout or end of the stream."""
+        import select
+
+        deadline = time.monotonic() + timeout_s
+        while b"\n" not in self._buffer:
+            left = deadline - time.monotonic()
+            if left <= 0:
+                return None
+            ready, _, _ = select.select([self._fd], [], [], left)
+            if not ready:
+                return None
+            chunk = os.read(self._fd, 65536)
+            if not chunk:
+                return None
+            self._buffer += chunk
+        line, self._buffer = self._buffer.split(b"\n", 1)
+        return line.decode()

@@ -3,13 +3,12 @@ follow, ask, list, reset, stats, snapshot; and replay publishing exactly what th
 for the same input and config."""
 import json
 import os
-import select
 import signal
 import subprocess
 import time
 
-from bayline import Subscriber
-from conftest import (BAYLINE, PROBE_CONFIG, run_cli, synchronise, wait_until, write_gaussian_csv,
+from bayline import Sender
+from conftest import (BAYLINE, PROBE_CONFIG, LineReader, run_cli, write_gaussian_csv,
                       write_probe_csv)
 
 
@@ -83,39 +82,38 @@ def test_bad_csv_sends_nothing(tmp_path, start_daemon):
 
 
 def follow_process(daemon, *args):
-    return subprocess.Popen([BAYLINE, "follow", "--endpoint", daemon.publish, *args],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    process = subprocess.Popen([BAYLINE, "follow", "--endpoint", daemon.publish, *args],
+                               stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    process.lines = LineReader(process.stdout)
+    return process
 
 
-def read_lines(process, count, timeout_s=30.0):
-    """Reads `count` JSON lines from a follow process's stdout within the timeout."""
+def read_lines(process, count, timeout_s=30.0, skip=None):
+    """Reads `count` lines (not counting those containing `skip`) from a follow process's stdout
+    within the timeout."""
     lines = []
     deadline = time.monotonic() + timeout_s
     while len(lines) < count:
-        left = deadline - time.monotonic()
-        assert left > 0, f"got {len(lines)} of {count} lines"
-        ready, _, _ = select.select([process.stdout], [], [], left)
-        if ready:
-            line = process.stdout.readline()
-            assert line, "follow ended early: " + process.stderr.read()
-            lines.append(line.rstrip("\n"))
+        line = process.lines.readline(max(0.0, deadline - time.monotonic()))
+        assert line is not None, f"got {len(lines)} of {count} lines"
+        if skip is None or skip not in line:
+            lines.append(line)
     return lines
 
 
-def sync_follow(daemon, process, channel):
-    """Sends to `channel` until the follow process prints one of its publications."""
-    from bayline import Sender
-
+def sync_follow(daemon, process, channel, **observation):
+    """Sends observations of `channel` until the follow process prints one of its publications
+    (so its subscription is in place). Later lines of `channel` must be skipped by the caller."""
+    observation.setdefault("y", 1.0)
     with Sender(daemon.ingest) as sender:
         deadline = time.monotonic() + 20
         while time.monotonic() < deadline:
-            sender.send(channel=channel, y=1.0)
-            ready, _, _ = select.select([process.stdout], [], [], 0.2)
-            while ready:
-                line = process.stdout.readline()
+            sender.send(channel=channel, **observation)
+            line = process.lines.readline(0.2)
+            while line is not None:
                 if channel in line:
                     return
-                ready, _, _ = select.select([process.stdout], [], [], 0.05)
+                line = process.lines.readline(0.05)
     raise AssertionError("follow never received the synchronisation channel")
 
 
@@ -123,10 +121,11 @@ def test_follow_filters_kinds_and_channels(tmp_path, start_daemon):
     daemon = start_daemon(PROBE_CONFIG)
     follow = follow_process(daemon, "--channel", "cold/probe1*", "--kind", "estimate")
     try:
-        sync_follow(daemon, follow, "cold/probe1sync")
+        sync_follow(daemon, follow, "cold/probe1sync", x=[-18.0])
         data = write_probe_csv(tmp_path / "probes.csv", rows=40)
         run_cli(*probe_send_args(daemon, data), check=True)
-        lines = read_lines(follow, 80)  # 40 observations x (ls, map) of cold/probe1 only
+        # 40 observations x (ls, map) of cold/probe1 only
+        lines = read_lines(follow, 80, skip='"cold/probe1sync"')
         records = [json.loads(line) for line in lines]
         assert all(list(r) == ["estimate"] for r in records)
         channels = {r["estimate"]["channel"] for r in records}
@@ -146,7 +145,10 @@ def test_follow_count_stops_by_itself(tmp_path, start_daemon):
                         daemon.ingest, check=True)
     assert with_rest.returncode == 0
     assert follow.wait(timeout=20) == 0
-    assert len(follow.stdout.read().splitlines()) <= 4  # 5 in all, one used to synchronise
+    rest = []
+    while (line := follow.lines.readline(5)) is not None:
+        rest.append(line)
+    assert len(rest) <= 4  # 5 in all, at least one of them used to synchronise
 
 
 def test_replay_publishes_what_the_daemon_publishes(tmp_path, start_daemon):
@@ -160,11 +162,10 @@ def test_replay_publishes_what_the_daemon_publishes(tmp_path, start_daemon):
                          "t", check=True).stdout.splitlines()
         assert any('"alarm"' in line for line in replay), "the drift must raise an alarm"
         run_cli(*probe_send_args(daemon, data), check=True)
-        got = [line for line in read_lines(follow, len(replay) + 0, timeout_s=60)]
+        daemon_lines = read_lines(follow, len(replay), timeout_s=60, skip='"cold/sync"')
     finally:
         follow.send_signal(signal.SIGTERM)
         follow.wait(timeout=10)
-    daemon_lines = [line for line in got if '"cold/sync"' not in line]
     # Channels may interleave differently across the daemon's workers; per channel the lines must
     # be byte-identical and in the same order.
     for channel in ("cold/probe1", "cold/probe2"):
