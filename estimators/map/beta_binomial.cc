@@ -50,8 +50,7 @@ Status BetaBinomial::Update(const Sample& s, Innovation* out) {
   const double var = n * al * be * (ab + n) / (ab * ab * (ab + 1.0));
   const double log_choose =
       special::LogGamma(n + 1) - special::LogGamma(y + 1) - special::LogGamma(n - y + 1);
-  const double log_p =
-      log_choose + special::LogBeta(y + al, n - y + be) - special::LogBeta(al, be);
+  const double log_p = log_choose + special::LogBeta(y + al, n - y + be) - special::LogBeta(al, be);
   Innovation inn;
   inn.valid = true;
   inn.prediction = mean;
@@ -112,8 +111,8 @@ Status BetaBinomial::Restore(const State& s) {
   if (!(s.alpha > 0) || !std::isfinite(s.alpha) || !(s.beta > 0) || !std::isfinite(s.beta)) {
     return map_internal::BadState("beta parameters must be > 0 and finite");
   }
-  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count,
-                                                 s.last_time);
+  if (Status st =
+          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
       !st.ok()) {
     return st;
   }

@@ -7,14 +7,14 @@
 // three copies of the observation for the posterior).
 // Report (one parameter, probability):
 //   value = posterior mode (alpha-1)/(alpha+beta-2) when alpha > 1 and beta > 1; otherwise the mode
-//   is at a boundary: 0 if alpha <= 1 < beta, 1 if beta <= 1 < alpha; when both are <= 1 there is no
-//   unique mode and value is 0 if alpha < beta, 1 if alpha > beta, 1/2 if equal (Beta(1,1) is flat);
-//   posterior_mean = alpha/(alpha+beta); std_error = posterior sd; equal-tailed interval from
-//   BetaQuantile. identifiable = true (the posterior is always proper).
+//   is at a boundary: 0 if alpha <= 1 < beta, 1 if beta <= 1 < alpha; when both are <= 1 there is
+//   no unique mode and value is 0 if alpha < beta, 1 if alpha > beta, 1/2 if equal (Beta(1,1) is
+//   flat); posterior_mean = alpha/(alpha+beta); std_error = posterior sd; equal-tailed interval
+//   from BetaQuantile. identifiable = true (the posterior is always proper).
 //
 // One-step predictive (before absorbing y_t): y_t | past ~ BetaBinomial(n_t, alpha, beta),
 //   log P(y) = log C(n, y) + log B(y + alpha, n - y + beta) - log B(alpha, beta),
-//   mean n alpha/(alpha+beta), variance n alpha beta (alpha+beta+n) / ((alpha+beta)^2 (alpha+beta+1)).
+//   with s = alpha + beta: mean n alpha / s, variance n alpha beta (s + n) / (s^2 (s + 1)).
 // Innovation: prediction = mean, residual = y - mean, predictive_sd = sqrt(variance),
 // standardized = residual / predictive_sd (a discrete predictive has no exact normal score; 0 when
 // the predictive is degenerate), log_predictive = w log P(y_t) (the weighted log score; with w = 1

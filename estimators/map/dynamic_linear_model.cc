@@ -143,8 +143,8 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
   } else {
     inn.predictive_sd = sq;
     inn.standardized = e / sq;
-    inn.log_predictive = -0.5 * std::log(2 * std::numbers::pi * Q) - 0.5 * inn.standardized *
-                                                                           inn.standardized;
+    inn.log_predictive =
+        -0.5 * std::log(2 * std::numbers::pi * Q) - 0.5 * inn.standardized * inn.standardized;
   }
   const double ll = state_.log_likelihood + inn.log_predictive;
   if (!std::isfinite(ll) || !std::isfinite(inn.standardized) || !std::isfinite(v_scale)) {

@@ -50,10 +50,9 @@
 // Instantiations provided: P = 1, 2, 3, 4 and Eigen::Dynamic.
 #pragma once
 
+#include <Eigen/Core>
 #include <span>
 #include <vector>
-
-#include <Eigen/Core>
 
 #include "estimators/core/report.h"
 #include "estimators/core/sample.h"
@@ -86,8 +85,8 @@ class DynamicLinearModel {
   };
 
   struct State {
-    Vector m;   // filtered mean (after the last observation; m1 before any)
-    Matrix U;   // upper triangular, U'U = C (filtered covariance)
+    Vector m;  // filtered mean (after the last observation; m1 before any)
+    Matrix U;  // upper triangular, U'U = C (filtered covariance)
     double log_likelihood = 0;
     double effective_n = 0;  // sum of weights
     double count = 0;        // accepted observations (0: no drift step before the next one)

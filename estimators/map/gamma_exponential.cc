@@ -87,8 +87,8 @@ Status GammaExponential::Restore(const State& s) {
   if (!(s.a > 0) || !std::isfinite(s.a) || !(s.b > 0) || !std::isfinite(s.b)) {
     return map_internal::BadState("gamma parameters must be > 0 and finite");
   }
-  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count,
-                                                 s.last_time);
+  if (Status st =
+          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
       !st.ok()) {
     return st;
   }

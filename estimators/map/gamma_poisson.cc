@@ -38,9 +38,8 @@ Status GammaPoisson::Update(const Sample& s, Innovation* out) {
   }
   // Negative binomial: log P(y) = lgamma(a+y) - lgamma(a) - lgamma(y+1)
   //                               + a log(b/(b+e)) + y log(e/(b+e)).
-  const double log_p = special::LogGamma(a + y) - special::LogGamma(a) -
-                       special::LogGamma(y + 1) - a * std::log1p(e / b) -
-                       (y > 0 ? y * std::log1p(b / e) : 0.0);
+  const double log_p = special::LogGamma(a + y) - special::LogGamma(a) - special::LogGamma(y + 1) -
+                       a * std::log1p(e / b) - (y > 0 ? y * std::log1p(b / e) : 0.0);
   const double mean = a * e / b, var = a * e * (b + e) / (b * b);
   Innovation inn;
   inn.valid = true;
@@ -93,8 +92,8 @@ Status GammaPoisson::Restore(const State& s) {
   if (!(s.a > 0) || !std::isfinite(s.a) || !(s.b > 0) || !std::isfinite(s.b)) {
     return map_internal::BadState("gamma parameters must be > 0 and finite");
   }
-  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count,
-                                                 s.last_time);
+  if (Status st =
+          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
       !st.ok()) {
     return st;
   }

@@ -56,8 +56,8 @@ NigRegression<P>::NigRegression(const Options& options) : options_(options), p_(
     prior_a_ = -0.5 * p_;
   } else {
     for (int i = 0; i < p_; ++i) {
-      const double lam = options_.prior_precision.empty() ? kDefaultPrecision
-                                                          : options_.prior_precision[i];
+      const double lam =
+          options_.prior_precision.empty() ? kDefaultPrecision : options_.prior_precision[i];
       const double m0 = options_.prior_mean.empty() ? 0.0 : options_.prior_mean[i];
       prior_factor_(i, i) = std::sqrt(lam);
       prior_factor_(i, p_) = std::sqrt(lam) * m0;
@@ -182,8 +182,8 @@ ParameterReport NigRegression<P>::Report(double level) const {
   const Vector m = mean();
   Matrix rinv = Matrix::Identity(p_, p_);
   state_.factor.topLeftCorner(p_, p_).template triangularView<Eigen::Upper>().solveInPlace(rinv);
-  const double tq = map_internal::LevelOk(level) ? dist::StudentTQuantile(0.5 + 0.5 * level, nu)
-                                                 : kNaN;
+  const double tq =
+      map_internal::LevelOk(level) ? dist::StudentTQuantile(0.5 + 0.5 * level, nu) : kNaN;
   bool finite_sd = a > 1;
   for (int j = 0; j < p_; ++j) {
     const double d = rinv.row(j).squaredNorm();  // (Lambda^{-1})_jj
@@ -211,7 +211,9 @@ Prediction NigRegression<P>::Predict(std::span<const double> x, double level) co
     if (!std::isfinite(x[i])) return pr;
     u(i) = x[i];
   }
-  state_.factor.topLeftCorner(p_, p_).template triangularView<Eigen::Upper>().transpose()
+  state_.factor.topLeftCorner(p_, p_)
+      .template triangularView<Eigen::Upper>()
+      .transpose()
       .solveInPlace(u);
   const double q = u.squaredNorm();
   const double a = state_.a, bb = b(), nu = 2 * a;
@@ -269,8 +271,8 @@ Status NigRegression<P>::Restore(const State& s) {
       if (s.factor(i, j) != 0) return map_internal::BadState("factor is not upper triangular");
     }
   }
-  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count,
-                                                 s.last_time);
+  if (Status st =
+          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
       !st.ok()) {
     return st;
   }

@@ -12,8 +12,8 @@
 //   F = [ R  z      ]     F'F = [ Lambda      Lambda m          ]     R'R = Lambda,  z = R m,
 //       [ 0  sqrt(2b) ]         [ m'Lambda    m'Lambda m + 2 b  ],    b = F(p,p)^2 / 2.
 // The prior enters as the pseudo-rows F0 (built from m0, Lambda0, b0); each observation is the row
-// sqrt(w) [x', y] absorbed into F by Givens rotations (square-root information RLS), so Lambda stays
-// symmetric positive definite by construction.
+// sqrt(w) [x', y] absorbed into F by Givens rotations (square-root information RLS), so Lambda
+// stays symmetric positive definite by construction.
 //
 // Marginals: beta_j | D ~ m_j + sqrt((b / a) (Lambda^{-1})_jj) * StudentT(2a).
 // Reported per coefficient: value = m_j (the joint posterior mode in beta; also the marginal mode),
@@ -55,10 +55,9 @@
 // provided: P = 1, 2, 3, 4 and Eigen::Dynamic.
 #pragma once
 
+#include <Eigen/Core>
 #include <span>
 #include <vector>
-
-#include <Eigen/Core>
 
 #include "estimators/core/forgetting.h"
 #include "estimators/core/report.h"
@@ -99,12 +98,12 @@ class NigRegression {
   // Everything that changes with the data. Plain values; Pack/Unpack flatten it (the first value is
   // p, so a state for another p is rejected).
   struct State {
-    AugMatrix factor;   // F above: upper triangular, diagonal >= 0
-    double a = 0;       // posterior shape
-    double effective_n = 0;     // discounted sum of weights
-    double log_marginal = 0;    // sum of log predictive densities of the valid innovations
-    double count = 0;           // accepted observations
-    double last_time = kNaN;    // latest time among accepted observations (NaN: none timed)
+    AugMatrix factor;         // F above: upper triangular, diagonal >= 0
+    double a = 0;             // posterior shape
+    double effective_n = 0;   // discounted sum of weights
+    double log_marginal = 0;  // sum of log predictive densities of the valid innovations
+    double count = 0;         // accepted observations
+    double last_time = kNaN;  // latest time among accepted observations (NaN: none timed)
 
     void Pack(StateWriter& w) const;
     // Reads a packed state; on failure returns kInvalidState (this State may be partly written).
@@ -129,11 +128,11 @@ class NigRegression {
   Prediction Predict(std::span<const double> x, double level = 0.95) const;
 
   // Posterior quantities; meaningful only when the posterior is proper (see proper()).
-  bool proper() const;              // Lambda full rank and a > 0
-  Vector mean() const;              // m
-  Matrix precision_inverse() const; // Lambda^{-1}  (Cov(beta | D) = b / (a - 1) Lambda^{-1})
+  bool proper() const;               // Lambda full rank and a > 0
+  Vector mean() const;               // m
+  Matrix precision_inverse() const;  // Lambda^{-1}  (Cov(beta | D) = b / (a - 1) Lambda^{-1})
   double a() const { return state_.a; }
-  double b() const;                 // F(p,p)^2 / 2
+  double b() const;  // F(p,p)^2 / 2
   int p() const { return p_; }
 
   const Options& options() const { return options_; }
@@ -152,7 +151,7 @@ class NigRegression {
   AugMatrix prior_factor_;  // F0
   double prior_a_;          // a0 (or -p/2 for the flat prior)
   State state_;
-  AugMatrix work_;          // scratch for Update (preallocated: no heap use when p is dynamic)
+  AugMatrix work_;  // scratch for Update (preallocated: no heap use when p is dynamic)
   AugRow row_;
 };
 

@@ -132,8 +132,8 @@ Status NormalGamma::Restore(const State& s) {
       !(s.b >= 0) || !std::isfinite(s.b)) {
     return map_internal::BadState("normal-gamma parameters invalid");
   }
-  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count,
-                                                 s.last_time);
+  if (Status st =
+          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
       !st.ok()) {
     return st;
   }

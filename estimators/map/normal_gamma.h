@@ -13,7 +13,8 @@
 //   variance: value = b / (a + 3/2), the JOINT posterior mode of (mu, sigma^2) (the MAP);
 //             posterior_mean = b / (a - 1) (NaN if a <= 1);
 //             std_error = b / ((a - 1) sqrt(a - 2)) (+Inf if a <= 2);
-//             interval from inverse-gamma quantiles [1/G^{-1}(1 - q), 1/G^{-1}(q)], G = Gamma(a, b).
+//             interval from inverse-gamma quantiles [1/G^{-1}(1 - q), 1/G^{-1}(q)], G = Gamma(a,
+//             b).
 // identifiable: the posterior is proper and both posterior sds are finite (a > 2).
 //
 // One-step predictive (before absorbing y_t):
@@ -48,13 +49,13 @@ namespace bayline::est {
 class NormalGamma {
  public:
   struct Options {
-    bool flat_prior = false;   // true: 1/sigma^2 prior; the four fields below are ignored
-    double m0 = 0.0;           // finite
-    double kappa0 = 1e-6;      // > 0
-    double a0 = 1e-3;          // > 0
-    double b0 = 1e-3;          // > 0
+    bool flat_prior = false;  // true: 1/sigma^2 prior; the four fields below are ignored
+    double m0 = 0.0;          // finite
+    double kappa0 = 1e-6;     // > 0
+    double a0 = 1e-3;         // > 0
+    double b0 = 1e-3;         // > 0
     ForgettingOptions discount;
-    Status Validate() const;   // ok or kInvalidConfig naming the field
+    Status Validate() const;  // ok or kInvalidConfig naming the field
   };
 
   struct State {

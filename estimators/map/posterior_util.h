@@ -1,10 +1,9 @@
 // Internal helpers shared by the map estimators (not part of the public API).
 #pragma once
 
+#include <Eigen/Core>
 #include <cmath>
 #include <string>
-
-#include <Eigen/Core>
 
 #include "estimators/core/distributions.h"
 #include "estimators/core/status.h"

@@ -1,9 +1,9 @@
 // Cost of one posterior update (with its one-step innovation) for each map estimator.
 // Run: build-map/tests/bench/map/bayline_bench_map --benchmark_min_time=0.2
+#include <benchmark/benchmark.h>
+
 #include <random>
 #include <vector>
-
-#include <benchmark/benchmark.h>
 
 #include "estimators/map/beta_binomial.h"
 #include "estimators/map/dynamic_linear_model.h"

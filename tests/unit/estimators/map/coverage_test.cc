@@ -3,13 +3,13 @@
 // 0.95 (the definition of the posterior; common practice, no source). Each check uses 20,000
 // replicates: the binomial standard error of the share is 0.0015, so the accepted band
 // 0.95 +/- 0.01 is about 6.5 standard errors wide.
+#include <gtest/gtest.h>
+
+#include <Eigen/Dense>
 #include <cmath>
 #include <cstdio>
 #include <random>
 #include <vector>
-
-#include <Eigen/Dense>
-#include <gtest/gtest.h>
 
 #include "estimators/map/beta_binomial.h"
 #include "estimators/map/dynamic_linear_model.h"

@@ -1,12 +1,12 @@
 #include "estimators/map/dynamic_linear_model.h"
 
+#include <gtest/gtest.h>
+
+#include <Eigen/Dense>
 #include <cmath>
 #include <numbers>
 #include <random>
 #include <vector>
-
-#include <Eigen/Dense>
-#include <gtest/gtest.h>
 
 #include "estimators/map/nig_regression.h"
 #include "tests/unit/estimators/map/map_test_util.h"
@@ -109,8 +109,8 @@ TEST(DynamicLinearModelTest, StaticCoefficientsGiveTheBatchGaussianPosterior) {
   const Eigen::VectorXd r = s.y - s.X * Eigen::Vector2d(1, 1);
   Eigen::LLT<Eigen::MatrixXd> llt(Sigma);
   const double logdet = 2 * llt.matrixL().toDenseMatrix().diagonal().array().log().sum();
-  const double ll = -0.5 * n * std::log(2 * std::numbers::pi) - 0.5 * logdet -
-                    0.5 * r.dot(llt.solve(r));
+  const double ll =
+      -0.5 * n * std::log(2 * std::numbers::pi) - 0.5 * logdet - 0.5 * r.dot(llt.solve(r));
   for (int i = 0; i < 2; ++i) EXPECT_TRUE(RelNear(f.mean()(i), mn(i), 1e-11));
   const Eigen::MatrixXd Cf = f.covariance();
   for (int i = 0; i < 2; ++i)

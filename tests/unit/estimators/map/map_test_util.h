@@ -1,10 +1,10 @@
 // Helpers shared by the map unit tests.
 #pragma once
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/core/state_codec.h"
 
@@ -14,8 +14,9 @@ namespace bayline::est::testing {
 inline ::testing::AssertionResult RelNear(double a, double b, double tol, double floor = 1e-300) {
   const double scale = std::fmax(std::fmax(std::fabs(a), std::fabs(b)), floor);
   if (std::fabs(a - b) <= tol * scale) return ::testing::AssertionSuccess();
-  return ::testing::AssertionFailure() << a << " vs " << b << " differ by " << std::fabs(a - b) / scale
-                                       << " relative (tolerance " << tol << ")";
+  return ::testing::AssertionFailure()
+         << a << " vs " << b << " differ by " << std::fabs(a - b) / scale << " relative (tolerance "
+         << tol << ")";
 }
 
 template <typename S>

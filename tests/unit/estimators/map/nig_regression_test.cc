@@ -1,12 +1,12 @@
 #include "estimators/map/nig_regression.h"
 
+#include <gtest/gtest.h>
+
+#include <Eigen/Dense>
 #include <cmath>
 #include <numbers>
 #include <random>
 #include <vector>
-
-#include <Eigen/Dense>
-#include <gtest/gtest.h>
 
 #include "tests/unit/estimators/map/map_test_util.h"
 
@@ -89,7 +89,8 @@ TEST(NigRegressionTest, FlatPriorModeEqualsOrdinaryLeastSquares) {
     const ParameterReport r = est.Report();
     ASSERT_TRUE(r.identifiable);
     for (int j = 0; j < 3; ++j) EXPECT_TRUE(RelNear(r.value[j], ols(j), 1e-10));
-    // 2b is the residual sum of squares and a = (n - p) / 2 (flat prior): common practice, no source.
+    // 2b is the residual sum of squares and a = (n - p) / 2 (flat prior): common practice, no
+    // source.
     const double rss = (d.y - d.X * ols).squaredNorm();
     EXPECT_TRUE(RelNear(2 * est.b(), rss, 1e-10));
     EXPECT_DOUBLE_EQ(est.a(), 0.5 * (60 - 3));
@@ -166,8 +167,8 @@ TEST(NigRegressionTest, DefaultPriorMarginalLikelihoodMatchesClosedForm) {
   const Data d = MakeData(40, 2, 6);
   NigRegression<2> est(NigRegression<2>::Options{});
   for (int i = 0; i < 40; ++i) ASSERT_TRUE(Feed(est, d, i).ok());
-  const Batch b = BatchPosterior(d, 40, Eigen::Vector2d::Zero(), Eigen::Vector2d::Constant(1e-6),
-                                 1e-3, 1e-3);
+  const Batch b =
+      BatchPosterior(d, 40, Eigen::Vector2d::Zero(), Eigen::Vector2d::Constant(1e-6), 1e-3, 1e-3);
   EXPECT_TRUE(RelNear(est.Report().log_likelihood, b.log_ml, 1e-9));
   EXPECT_TRUE(RelNear(est.mean()(1), b.m(1), 1e-10));
 }
@@ -363,7 +364,12 @@ TEST(NigRegressionTest, RejectsBadInputAndChangesNothing) {
   add([](Sample& s) { s.weight = -1.0; }, ErrorCode::kInvalidWeight);
   add([](Sample& s) { s.weight = std::nan(""); }, ErrorCode::kNonFinite);
   add([](Sample& s) { s.time = INFINITY; }, ErrorCode::kNonFinite);
-  add([](Sample& s) { s.y = 1e300; s.weight = 1e300; }, ErrorCode::kNumericalFailure);
+  add(
+      [](Sample& s) {
+        s.y = 1e300;
+        s.weight = 1e300;
+      },
+      ErrorCode::kNumericalFailure);
   for (const Case& c : cases) {
     Innovation inn;
     inn.prediction = 42.0;

@@ -3,12 +3,12 @@
 // new in libstdc++ and Eigen's aligned allocator both call it), so malloc is interposed here and
 // counts calls while a test enables counting. glibc-specific (__libc_malloc), like the Debian
 // target; this file is its own test executable so the interposition touches nothing else.
+#include <gtest/gtest.h>
+
 #include <cstddef>
 #include <cstdlib>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/map/beta_binomial.h"
 #include "estimators/map/dynamic_linear_model.h"
@@ -63,8 +63,16 @@ long RegressionUpdates(Est& est, int p) {
 
 TEST(NoAllocationTest, CountingSeesAllocations) {
   // The counter itself works (otherwise the zeros below would prove nothing).
-  EXPECT_GT(CountAllocations([] { std::vector<double> v(100); v[0] = 1; }), 0);
-  EXPECT_GT(CountAllocations([] { Eigen::MatrixXd m(20, 20); m.setZero(); }), 0);
+  EXPECT_GT(CountAllocations([] {
+              std::vector<double> v(100);
+              v[0] = 1;
+            }),
+            0);
+  EXPECT_GT(CountAllocations([] {
+              Eigen::MatrixXd m(20, 20);
+              m.setZero();
+            }),
+            0);
 }
 
 TEST(NoAllocationTest, FixedSizeRegressionAndTrackerUpdates) {

@@ -1,11 +1,11 @@
 #include "estimators/map/normal_gamma.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <numbers>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/map/nig_regression.h"
 #include "tests/unit/estimators/map/map_test_util.h"
@@ -60,7 +60,7 @@ TEST(NormalGammaTest, MatchesBatchClosedFormAndMarginalLikelihood) {
   EXPECT_TRUE(RelNear(sum_log_pred, log_ml, 1e-11));
   const ParameterReport r = est.Report();
   ASSERT_TRUE(r.identifiable);
-  EXPECT_TRUE(RelNear(r.value[1], bn / (an + 1.5), 1e-12));        // joint mode of sigma^2
+  EXPECT_TRUE(RelNear(r.value[1], bn / (an + 1.5), 1e-12));         // joint mode of sigma^2
   EXPECT_TRUE(RelNear(r.posterior_mean[1], bn / (an - 1), 1e-12));  // inverse-gamma mean
   EXPECT_TRUE(RelNear(r.std_error[0], std::sqrt(bn / ((an - 1) * kn)), 1e-12));
   EXPECT_LT(r.lower[1], r.value[1]);

@@ -1,9 +1,9 @@
 // Beta-binomial, gamma-poisson and gamma-exponential posteriors.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/map/beta_binomial.h"
 #include "estimators/map/gamma_exponential.h"
@@ -51,8 +51,8 @@ TEST(BetaBinomialTest, MatchesBatchClosedFormAndMarginalLikelihood) {
   EXPECT_TRUE(RelNear(sum_log_pred, log_ml, 1e-11));
   EXPECT_TRUE(RelNear(r.value[0], (an - 1) / (an + bn - 2), 1e-15));
   EXPECT_TRUE(RelNear(r.posterior_mean[0], an / (an + bn), 1e-15));
-  EXPECT_TRUE(RelNear(r.std_error[0],
-                      std::sqrt(an * bn / ((an + bn) * (an + bn) * (an + bn + 1))), 1e-14));
+  EXPECT_TRUE(
+      RelNear(r.std_error[0], std::sqrt(an * bn / ((an + bn) * (an + bn) * (an + bn + 1))), 1e-14));
   EXPECT_LT(r.lower[0], r.value[0]);
   EXPECT_GT(r.upper[0], r.value[0]);
 }
@@ -141,12 +141,13 @@ TEST(GammaPoissonTest, MatchesBatchClosedFormAndMarginalLikelihood) {
     log_ml_terms += s.y * std::log(e) - std::lgamma(s.y + 1);
   }
   // Closed form: Gamma(a0 + sum y, b0 + sum e); log marginal likelihood
-  // sum (y log e - log y!) + a0 log b0 - lgamma(a0) + lgamma(a_n) - a_n log b_n (any Bayesian text).
+  // sum (y log e - log y!) + a0 log b0 - lgamma(a0) + lgamma(a_n) - a_n log b_n (any Bayesian
+  // text).
   const double an = 2.0 + sy, bn = 0.5 + se;
   EXPECT_DOUBLE_EQ(est.state().a, an);
   EXPECT_TRUE(RelNear(est.state().b, bn, 1e-14));
-  const double log_ml = log_ml_terms + 2.0 * std::log(0.5) - std::lgamma(2.0) + std::lgamma(an) -
-                        an * std::log(bn);
+  const double log_ml =
+      log_ml_terms + 2.0 * std::log(0.5) - std::lgamma(2.0) + std::lgamma(an) - an * std::log(bn);
   EXPECT_TRUE(RelNear(est.Report().log_likelihood, log_ml, 1e-11));
   EXPECT_TRUE(RelNear(sum_log_pred, log_ml, 1e-11));
   const ParameterReport r = est.Report();
@@ -197,8 +198,8 @@ TEST(GammaExponentialTest, MatchesBatchClosedFormAndMarginalLikelihood) {
   const double an = 3.0 + n, bn = 2.0 + sy;
   EXPECT_DOUBLE_EQ(est.state().a, an);
   EXPECT_TRUE(RelNear(est.state().b, bn, 1e-13));
-  const double log_ml = 3.0 * std::log(2.0) - std::lgamma(3.0) + std::lgamma(an) -
-                        an * std::log(bn);
+  const double log_ml =
+      3.0 * std::log(2.0) - std::lgamma(3.0) + std::lgamma(an) - an * std::log(bn);
   EXPECT_TRUE(RelNear(est.Report().log_likelihood, log_ml, 1e-11));
   EXPECT_TRUE(RelNear(sum_log_pred, log_ml, 1e-11));
 }
