@@ -23,7 +23,8 @@ void AddRow(Eigen::MatrixXd& r, Eigen::VectorXd& row) {
     const double b = row(i);
     if (b == 0.0) continue;
     const double a = r(i, i);
-    const double h = std::hypot(a, b);
+    double h = std::sqrt(a * a + b * b);  // std::hypot is several times slower; it is only
+    if (!std::isfinite(h) || h == 0.0) h = std::hypot(a, b);  // needed when the squares over/underflow
     const double c = a / h, s = b / h;
     r(i, i) = h;
     for (Eigen::Index j = i + 1; j < p; ++j) {
@@ -52,7 +53,8 @@ struct LogitFamily {
     *var = m * p * (1.0 - p);
   }
   // log P(y | eta) without the binomial coefficient.
-  static double LogKernel(double y, double eta, double m) { return -y * Softplus(-eta) - (m - y) * Softplus(eta); }
+  // y log p + (m - y) log(1 - p) with log p = -softplus(-eta), log(1 - p) = -eta - softplus(-eta).
+  static double LogKernel(double y, double eta, double m) { return -m * Softplus(-eta) - (m - y) * eta; }
   static double LogConst(double y, double m) {
     if (y == 0.0 || y == m) return 0.0;
     return ml_internal::LogFactorial(m) - ml_internal::LogFactorial(y) - ml_internal::LogFactorial(m - y);
