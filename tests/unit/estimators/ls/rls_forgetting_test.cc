@@ -2,6 +2,7 @@
 // uncertainty inflation.
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <random>
 #include <vector>
 
@@ -102,6 +103,8 @@ TEST(RlsForgettingTest, WindupFloorKeepsInformationBoundedOverTenMillionUpdates)
   }
   // Information R'R <= sum of lambda^k |x|^2 = 100 in the intercept direction; the floor keeps
   // about 1e-6 * 100 / 2 in the other, so the condition number of R stays near sqrt(2e6).
+  std::printf("windup: max diag(R) %.3g, min diag(R) %.3g, max cond(R) %.3g\n", max_diag, min_diag,
+              max_cond);
   EXPECT_LT(max_diag, 11.0);
   EXPECT_GT(min_diag, 1e-3);
   EXPECT_LT(max_cond, 1e4);
