@@ -105,6 +105,22 @@ TEST(RlsExtendedTest, AgreesWithDoubleModeOnWellConditionedData) {
   EXPECT_LT((a.covariance() - b.covariance()).norm() / a.covariance().norm(), 1e-12);
 }
 
+TEST(RlsExtendedTest, InflationScalesCovarianceInExtendedMode) {
+  Eigen::VectorXd theta(3);
+  theta << 1.0, 2.0, -1.0;
+  const auto d = MakeData(100, theta, 0.3, 53);
+  RlsOptions ext;
+  ext.extended_precision = true;
+  Rls est(ext, 3);
+  std::vector<double> buf;
+  for (int i = 0; i < 100; ++i) ASSERT_TRUE(est.Update(SampleAt(d, i, &buf)).ok());
+  const Eigen::MatrixXd cov = est.covariance();
+  const Eigen::VectorXd th = est.coefficients();
+  ASSERT_TRUE(est.InflateUncertainty(25.0).ok());
+  EXPECT_LT((est.covariance() - 25.0 * cov).norm() / (25.0 * cov.norm()), 1e-14);
+  EXPECT_LT(MaxRelErr(est.coefficients(), th), 1e-15);
+}
+
 // A row known to more digits than a double holds: x = 1 + 2^-60 is 1 in double. In extended mode
 // with the low part supplied, the two-point fit recovers the slope that double rows cannot see.
 TEST(RlsExtendedTest, LowOrderPartsOfRowsAreUsed) {
