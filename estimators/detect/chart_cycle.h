@@ -10,8 +10,13 @@
 //     raise is followed by exactly one clear.
 #pragma once
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 #include <string>
 
 #include "estimators/core/state_codec.h"
@@ -42,6 +47,44 @@ inline Status ValidateHoldoff(std::int64_t holdoff) {
                          "holdoff must be >= 0 observations, got " + std::to_string(holdoff));
   }
   return Status::Ok();
+}
+
+// Selects a when `take` is all ones, b when it is zero, without a branch (the chart statistics
+// leave and return to zero unpredictably on in-control data, so branches would mispredict).
+inline double SelectBits(std::uint64_t take, double a, double b) {
+  std::uint64_t ua, ub;
+  std::memcpy(&ua, &a, sizeof ua);
+  std::memcpy(&ub, &b, sizeof ub);
+  const std::uint64_t r = (ua & take) | (ub & ~take);
+  double out;
+  std::memcpy(&out, &r, sizeof out);
+  return out;
+}
+
+// max(0, v) as one instruction where available: compilers otherwise may turn it into a branch.
+inline double MaxZero(double v) {
+#if defined(__SSE2__)
+  return _mm_cvtsd_f64(_mm_max_sd(_mm_set_sd(v), _mm_setzero_pd()));  // v if v > 0, else +0
+#else
+  return std::max(0.0, v);
+#endif
+}
+
+// One CUSUM-type side, C = max(0, C + x), with the length of its current excursion above zero and
+// the mark of the excursion's first observation (the onset), branch-free.
+inline void StepExcursion(double x, const ObservationMark& mark, double& c, double& count,
+                          std::int64_t& onset_seq, double& onset_time) {
+  c = MaxZero(c + x);
+  // c >= +0.0 here, so c > 0 iff its bits are non-zero; testing the bits keeps the compiler from
+  // splitting the path on the (unpredictable) floating-point comparison.
+  std::uint64_t bits;
+  std::memcpy(&bits, &c, sizeof bits);
+  const bool positive = bits != 0;
+  const std::uint64_t starts = 0 - static_cast<std::uint64_t>(positive & (count == 0.0));
+  onset_seq = static_cast<std::int64_t>((static_cast<std::uint64_t>(mark.seq) & starts) |
+                                        (static_cast<std::uint64_t>(onset_seq) & ~starts));
+  onset_time = SelectBits(starts, mark.time, onset_time);
+  count = (count + 1.0) * static_cast<double>(positive);
 }
 
 // True when a chart watching `d` watches `side` (kUp or kDown).

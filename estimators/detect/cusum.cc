@@ -8,18 +8,6 @@
 namespace bayline::est {
 namespace {
 
-// One side of the tabular CUSUM: C = max(0, C + x), with the excursion's length and onset.
-inline void StepSide(double x, const ObservationMark& mark, double& c, double& count,
-                     std::int64_t& onset_seq, double& onset_time) {
-  // Branch-free: whether C is positive flips unpredictably on in-control data.
-  c = std::max(0.0, c + x);
-  const bool positive = c > 0.0;
-  const bool starts = positive && count == 0.0;
-  onset_seq = starts ? mark.seq : onset_seq;
-  onset_time = starts ? mark.time : onset_time;
-  count = positive ? count + 1.0 : 0.0;
-}
-
 bool ValidSide(double c, double count) {
   return std::isfinite(c) && c >= 0.0 && std::isfinite(count) && count >= 0.0 &&
          count == std::floor(count);
@@ -99,8 +87,8 @@ DetectorEvent Cusum::Update(double z, const ObservationMark& mark) {
     return ev;
   }
   const double k = options_.k;
-  StepSide(z - k, mark, st.upper, st.upper_count, st.upper_onset_seq, st.upper_onset_time);
-  StepSide(-z - k, mark, st.lower, st.lower_count, st.lower_onset_seq, st.lower_onset_time);
+  StepExcursion(z - k, mark, st.upper, st.upper_count, st.upper_onset_seq, st.upper_onset_time);
+  StepExcursion(-z - k, mark, st.lower, st.lower_count, st.lower_onset_seq, st.lower_onset_time);
   const bool up = WatchesSide(options_.direction, Direction::kUp) && st.upper > options_.h;
   const bool down = WatchesSide(options_.direction, Direction::kDown) && st.lower > options_.h;
   ev.statistic = Statistic();

@@ -82,11 +82,14 @@ DetectorEvent Ewma::Update(double z, const ObservationMark& mark) {
   st.decay *= decay_step_;
   // Onset: the first observation of the current run of Z on one side of zero.
   // Branch-free: sign changes of Z are unpredictable on in-control data.
-  const bool starts = previous == 0.0 || (previous > 0.0) != (st.z > 0.0);
-  st.onset_seq = starts ? mark.seq : st.onset_seq;
-  st.onset_time = starts ? mark.time : st.onset_time;
-  st.run_sum = (starts ? 0.0 : st.run_sum) + z;
-  st.run_count = (starts ? 0.0 : st.run_count) + 1.0;
+  const bool starts_b = (previous == 0.0) | ((previous > 0.0) != (st.z > 0.0));
+  const std::uint64_t starts = 0 - static_cast<std::uint64_t>(starts_b);
+  st.onset_seq = static_cast<std::int64_t>((static_cast<std::uint64_t>(mark.seq) & starts) |
+                                           (static_cast<std::uint64_t>(st.onset_seq) & ~starts));
+  st.onset_time = SelectBits(starts, mark.time, st.onset_time);
+  const double keep = static_cast<double>(!starts_b);
+  st.run_sum = st.run_sum * keep + z;
+  st.run_count = st.run_count * keep + 1.0;
   const double limit = options_.L * LimitSd(st.count, st.decay);
   ev.threshold = limit;
   ev.statistic = statistic(st.z);

@@ -8,17 +8,6 @@
 namespace bayline::est {
 namespace {
 
-inline void StepSide(double x, const ObservationMark& mark, double& c, double& count,
-                     std::int64_t& onset_seq, double& onset_time) {
-  // Branch-free: whether C is positive flips unpredictably on in-control data.
-  c = std::max(0.0, c + x);
-  const bool positive = c > 0.0;
-  const bool starts = positive && count == 0.0;
-  onset_seq = starts ? mark.seq : onset_seq;
-  onset_time = starts ? mark.time : onset_time;
-  count = positive ? count + 1.0 : 0.0;
-}
-
 bool IsCount(double c) { return std::isfinite(c) && c >= 0.0 && c == std::floor(c); }
 
 bool ValidPhState(const PageHinkley::State& s) {
@@ -99,8 +88,8 @@ DetectorEvent PageHinkley::Update(double z, const ObservationMark& mark) {
   st.count += 1.0;
   st.mean += (z - st.mean) / st.count;
   const double d = z - st.mean;
-  StepSide(d - options_.delta, mark, st.upper, st.upper_count, st.upper_onset_seq, st.upper_onset_time);
-  StepSide(-d - options_.delta, mark, st.lower, st.lower_count, st.lower_onset_seq, st.lower_onset_time);
+  StepExcursion(d - options_.delta, mark, st.upper, st.upper_count, st.upper_onset_seq, st.upper_onset_time);
+  StepExcursion(-d - options_.delta, mark, st.lower, st.lower_count, st.lower_onset_seq, st.lower_onset_time);
   ev.statistic = statistic();
   const bool up = WatchesSide(options_.direction, Direction::kUp) && st.upper > options_.threshold;
   const bool down = WatchesSide(options_.direction, Direction::kDown) && st.lower > options_.threshold;
