@@ -1,0 +1,100 @@
+// Pipeline throughput and footprint.
+//
+// BM_ProcessGaussian/<channels>: ns per Pipeline::Process() call for gaussian channels with the
+// default rule (ls + ml + map + a self-starting CUSUM), publishing every 100th observation of each
+// channel into a sink that only counts. Channels are visited with a large prime stride, so at 1e6
+// channels nearly every call misses the cache, as in a fleet where observations interleave. The
+// observation message is reused (as the daemon reuses its parsed frames); seq is 0 (the pipeline
+// numbers it), time advances by 1 ms per call.
+// Counter bytes_per_channel: growth of the resident set (/proc/self/statm) while the channels were
+// created (each with one observation), divided by the channel count.
+//
+// Run: build-x/tests/bench/pipeline/bayline_bench_pipeline
+#include <unistd.h>
+
+#include <cstdio>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include <benchmark/benchmark.h>
+
+#include "daemon/pipeline/pipeline.h"
+
+namespace bayline::pipeline {
+namespace {
+
+class CountingSink : public PublicationSink {
+ public:
+  void Publish(const std::string&, const bayline::v1::Publication&) override { ++count; }
+  uint64_t count = 0;
+};
+
+long ResidentBytes() {
+  long pages_total = 0, pages_resident = 0;
+  std::FILE* f = std::fopen("/proc/self/statm", "r");
+  if (f == nullptr) return 0;
+  if (std::fscanf(f, "%ld %ld", &pages_total, &pages_resident) != 2) pages_resident = 0;
+  std::fclose(f);
+  return pages_resident * sysconf(_SC_PAGESIZE);
+}
+
+// One populated pipeline, kept across benchmark repetitions for the same channel count.
+struct Fleet {
+  explicit Fleet(std::size_t n) {
+    names.reserve(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      names.push_back("coldstore/site" + std::to_string(i % 97) + "/probe" + std::to_string(i));
+    }
+    auto config = DefaultConfig();
+    config.mutable_rules(0)->mutable_spec()->mutable_publish()->set_every_n(100);
+    const long before = ResidentBytes();
+    pipeline = std::make_unique<Pipeline>(config);
+    bayline::v1::Observation obs;
+    for (std::size_t i = 0; i < n; ++i) {
+      obs.set_channel(names[i]);
+      obs.set_y(-18.0 + 0.001 * static_cast<double>(i % 1000));
+      pipeline->Process(obs, Now(), sink);
+    }
+    bytes_per_channel = static_cast<double>(ResidentBytes() - before) / static_cast<double>(n);
+  }
+  int64_t Now() { return time_ns += 1'000'000; }
+
+  std::vector<std::string> names;
+  std::unique_ptr<Pipeline> pipeline;
+  CountingSink sink;
+  int64_t time_ns = 1'700'000'000'000'000'000;
+  double bytes_per_channel = 0;
+};
+
+Fleet& FleetOf(std::size_t n) {
+  static std::unique_ptr<Fleet> fleet;
+  if (!fleet || fleet->names.size() != n) {
+    fleet.reset();  // free the previous one before building the next
+    fleet = std::make_unique<Fleet>(n);
+  }
+  return *fleet;
+}
+
+void BM_ProcessGaussian(benchmark::State& state) {
+  const auto n = static_cast<std::size_t>(state.range(0));
+  Fleet& fleet = FleetOf(n);
+  bayline::v1::Observation obs;
+  std::size_t index = 0;
+  constexpr std::size_t kStride = 1'000'003;  // prime: visits every channel, in cache-hostile order
+  double y = 0;
+  for (auto _ : state) {
+    index = (index + kStride) % n;
+    obs.set_channel(fleet.names[index]);
+    y = y > 1.0 ? 0.0 : y + 0.013;
+    obs.set_y(-18.0 + y);
+    fleet.pipeline->Process(obs, fleet.Now(), fleet.sink);
+  }
+  state.counters["bytes_per_channel"] = fleet.bytes_per_channel;
+  state.counters["channels"] = static_cast<double>(fleet.pipeline->counters().channels);
+  state.counters["rejected"] = static_cast<double>(fleet.pipeline->counters().rejected_total);
+}
+BENCHMARK(BM_ProcessGaussian)->Arg(1)->Arg(10'000)->Arg(1'000'000)->Unit(benchmark::kNanosecond);
+
+}  // namespace
+}  // namespace bayline::pipeline

@@ -1,0 +1,163 @@
+#include <random>
+#include <string>
+#include <vector>
+
+#include <gtest/gtest.h>
+
+#include "tests/unit/daemon/pipeline/test_util.h"
+
+namespace bayline::pipeline {
+namespace {
+
+using testing::kArrival;
+using testing::Obs;
+using testing::RecordingSink;
+using testing::SnapshotBytes;
+
+// Rules exercising every detector kind and several model families, with a publish policy whose
+// state matters (every_n 7, min_interval) and raw thresholds (no simulation at start-up).
+bayline::v1::DaemonConfig RichConfig() {
+  return testing::ParseConfig(R"(
+    rules { name: "cal" match: "cal/**" spec {
+      model: "linear" regressors: "reference"
+      detectors { kind: "cusum" arl0: 200 inflate_on_alarm: 50 }
+      detectors { kind: "recursive_cusum" window: 40 }
+      detectors { kind: "recursive_cusum_sq" window: 30 }
+      detectors { kind: "band" parameter: "reference" band_low: 0.9 band_high: 1.1 }
+      publish { every_n: 7 } } }
+    rules { name: "rw" match: "rw/**" spec {
+      model: "linear" map_tracker: "random_walk" drift_variance: 1e-4
+      detectors { kind: "ewma" lambda: 0.2 limit: 2.8 watch: "map" } } }
+    rules { name: "temp" match: "temp/**" spec {
+      model: "gaussian"
+      detectors { kind: "ewma" arl0: 300 }
+      detectors { kind: "page_hinkley" threshold: 8 watch: "ml" }
+      detectors { kind: "glr" threshold: 6 window: 20 watch: "map" }
+      detectors { kind: "bocpd" hazard: 0.01 }
+      publish { every_n: 3 min_interval_ms: 2 } } }
+    rules { name: "doors" match: "doors/**" spec {
+      model: "poisson" detectors { kind: "bocpd" } detectors { kind: "cusum" watch: "map" } } }
+    rules { name: "rest" match: "**" spec { model: "auto" detectors { kind: "cusum" } } })");
+}
+
+std::vector<bayline::v1::Observation> Stream(int n) {
+  std::vector<bayline::v1::Observation> out;
+  std::mt19937_64 rng(31337);
+  std::normal_distribution<double> n01(0.0, 1.0);
+  std::poisson_distribution<int> doors(3.0);
+  uint64_t seq = 0;
+  for (int i = 0; i < n; ++i) {
+    ++seq;
+    if (i % 17 == 5) ++seq;  // gaps
+    const double step = i > n / 2 ? 2.0 : 0.0;
+    const double x = 10 * n01(rng);
+    out.push_back(Obs("cal/probe1", seq, 0.2 + (1.0 + 0.01 * step) * x + 0.1 * n01(rng), {x}));
+    out.push_back(Obs("rw/scale", seq, 1 + 0.5 * x + 0.2 * n01(rng), {x}));
+    out.push_back(Obs("temp/freezer", seq, -18 + step + n01(rng)));
+    out.push_back(Obs("doors/dock2", seq, doors(rng) + (step > 0 ? 3 : 0)));
+    out.push_back(Obs("misc/" + std::to_string(i % 3), seq, n01(rng)));
+  }
+  return out;
+}
+
+std::vector<std::string> Bytes(const RecordingSink& sink) {
+  std::vector<std::string> out;
+  for (const auto& r : sink.records) out.push_back(r.topic + "|" + r.publication.SerializeAsString());
+  return out;
+}
+
+TEST(SnapshotTest, RestoreAndContinueIsByteIdenticalToUninterruptedRun) {
+  const auto config = RichConfig();
+  ASSERT_TRUE(ValidateConfig(config).ok()) << ValidateConfig(config).ToString();
+  const auto stream = Stream(240);
+  const std::size_t cut = stream.size() / 2;
+
+  Pipeline whole(config);
+  RecordingSink whole_sink;
+  for (std::size_t i = 0; i < stream.size(); ++i) {
+    if (i == cut) whole_sink.Clear();
+    whole.Process(stream[i], kArrival, whole_sink);
+  }
+  ASSERT_GT(whole_sink.OfKind(bayline::v1::Publication::kAlarm).size(), 0u);
+
+  Pipeline first(config);
+  RecordingSink ignored;
+  for (std::size_t i = 0; i < cut; ++i) first.Process(stream[i], kArrival, ignored);
+  bayline::v1::Snapshot saved;
+  first.SaveChannels(&saved);
+  EXPECT_EQ(saved.format_version(), 1u);
+  EXPECT_EQ(saved.config_digest(), ConfigDigest(config));
+  bayline::v1::Snapshot reread;
+  ASSERT_TRUE(reread.ParseFromString(saved.SerializeAsString()));
+
+  Pipeline second(config);
+  std::vector<std::string> reset;
+  const est::Status s = second.RestoreChannels(reread, &reset);
+  ASSERT_TRUE(s.ok()) << s.ToString();
+  EXPECT_TRUE(reset.empty());
+  EXPECT_EQ(SnapshotBytes(second), SnapshotBytes(first));
+  RecordingSink second_sink;
+  for (std::size_t i = cut; i < stream.size(); ++i) second.Process(stream[i], kArrival, second_sink);
+
+  EXPECT_EQ(Bytes(second_sink), Bytes(whole_sink));
+  EXPECT_EQ(SnapshotBytes(second), SnapshotBytes(whole));
+}
+
+TEST(SnapshotTest, StateThatDoesNotUnpackIsRefusedAndChangesNothing) {
+  const auto config = RichConfig();
+  Pipeline source(config);
+  RecordingSink sink;
+  const auto stream = Stream(30);
+  for (const auto& o : stream) source.Process(o, kArrival, sink);
+  bayline::v1::Snapshot good;
+  source.SaveChannels(&good);
+
+  Pipeline target(config);
+  target.Process(Obs("temp/other", 1, 3.0), kArrival, sink);
+  const std::string before = SnapshotBytes(target);
+
+  // Truncate one component of the last channel, drop a component, then corrupt a value's range.
+  bayline::v1::Snapshot truncated = good;
+  auto* values = truncated.mutable_channels(truncated.channels_size() - 1)->mutable_components(0)->mutable_values();
+  values->Truncate(values->size() - 2);
+  est::Status s = target.RestoreChannels(truncated);
+  EXPECT_EQ(s.code(), est::ErrorCode::kInvalidState) << s.ToString();
+  EXPECT_EQ(SnapshotBytes(target), before);
+
+  bayline::v1::Snapshot missing = good;
+  missing.mutable_channels(0)->mutable_components()->RemoveLast();
+  s = target.RestoreChannels(missing);
+  EXPECT_EQ(s.code(), est::ErrorCode::kInvalidState);
+  EXPECT_NE(s.message().find(good.channels(0).name()), std::string::npos) << s.message();
+  EXPECT_EQ(SnapshotBytes(target), before);
+
+  bayline::v1::Snapshot wrong_kind = good;
+  wrong_kind.mutable_channels(1)->mutable_components(0)->set_kind("map");
+  EXPECT_EQ(target.RestoreChannels(wrong_kind).code(), est::ErrorCode::kInvalidState);
+  EXPECT_EQ(SnapshotBytes(target), before);
+
+  ASSERT_TRUE(target.RestoreChannels(good).ok());
+  EXPECT_EQ(target.counters().channels, 1u + good.channels_size());
+}
+
+TEST(SnapshotTest, ChannelWhoseSpecChangedIsResetAndReported) {
+  const auto config = RichConfig();
+  Pipeline source(config);
+  RecordingSink sink;
+  for (const auto& o : Stream(20)) source.Process(o, kArrival, sink);
+  bayline::v1::Snapshot saved;
+  source.SaveChannels(&saved);
+
+  auto changed = config;
+  changed.mutable_rules(2)->mutable_spec()->mutable_detectors(0)->set_arl0(400);  // "temp"
+  Pipeline target(changed);
+  std::vector<std::string> reset;
+  ASSERT_TRUE(target.RestoreChannels(saved, &reset).ok());
+  EXPECT_EQ(reset, std::vector<std::string>{"temp/freezer"});
+  EXPECT_FALSE(target.Ask("temp/freezer").has_value());
+  ASSERT_TRUE(target.Ask("cal/probe1").has_value());
+  EXPECT_EQ(target.Ask("cal/probe1")->info().accepted(), source.Ask("cal/probe1")->info().accepted());
+}
+
+}  // namespace
+}  // namespace bayline::pipeline
