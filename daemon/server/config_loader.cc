@@ -12,7 +12,9 @@ std::string WhereIs(const std::string& message, const std::string& file,
   if (file.empty()) return "";
   const size_t colon = message.find(": ");
   const int line = colon == std::string::npos ? 0 : locator.LineOf(message.substr(0, colon));
-  return line > 0 ? file + ":" + std::to_string(line) + ": " : file + ": ";
+  std::string where = file;
+  if (line > 0) where.append(":").append(std::to_string(line));
+  return where.append(": ");
 }
 
 }  // namespace
@@ -32,8 +34,11 @@ bool LoadDaemonConfig(const DaemonOptions& options, const std::string& config_fi
   auto origin = [&](const std::string& flag_value, const char* flag, const char* field) {
     if (!flag_value.empty()) return std::string(flag) + ": ";
     if (config_file.empty()) return std::string(field) + ": ";
-    const int line = locator.LineOf(field);
-    return config_file + (line > 0 ? ":" + std::to_string(line) : "") + ": " + field + ": ";
+    std::string where = config_file;
+    if (const int line = locator.LineOf(field); line > 0) {
+      where.append(":").append(std::to_string(line));
+    }
+    return where.append(": ").append(field).append(": ");
   };
   Shard shard;
   std::string why;
