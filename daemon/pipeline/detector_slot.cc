@@ -142,6 +142,17 @@ Status DetectorSlot::Update(const DetectorSetup& setup, const DetectorInput& in,
   return Status::Ok();
 }
 
+const LastAlarm& DetectorSlot::last_alarm() const {
+  static const LastAlarm kNone;
+  return last_alarm_ ? *last_alarm_ : kNone;
+}
+
+void DetectorSlot::RecordAlarm(const LastAlarm& alarm) {
+  if (!last_alarm_) last_alarm_ = std::make_unique<LastAlarm>();
+  *last_alarm_ = alarm;
+  ++alarms_raised_;
+}
+
 bool DetectorSlot::alarm_active() const {
   return std::visit(
       [](const auto& slot) -> bool {
@@ -166,15 +177,16 @@ void DetectorSlot::Pack(std::vector<double>* out) const {
   PutU64(out, alarms_raised_);
   out->push_back(last_statistic_);
   out->push_back(last_threshold_);
-  PutU64(out, last_alarm_.seq);
-  PutU64(out, static_cast<uint64_t>(last_alarm_.time_ns));
-  PutU64(out, last_alarm_.onset_seq);
-  PutU64(out, static_cast<uint64_t>(last_alarm_.onset_time_ns));
-  out->push_back(last_alarm_.statistic);
-  out->push_back(last_alarm_.threshold);
-  out->push_back(last_alarm_.shift);
-  out->push_back(last_alarm_.trigger_y);
-  out->push_back(last_alarm_.direction);
+  const LastAlarm& a = last_alarm();
+  PutU64(out, a.seq);
+  PutU64(out, static_cast<uint64_t>(a.time_ns));
+  PutU64(out, a.onset_seq);
+  PutU64(out, static_cast<uint64_t>(a.onset_time_ns));
+  out->push_back(a.statistic);
+  out->push_back(a.threshold);
+  out->push_back(a.shift);
+  out->push_back(a.trigger_y);
+  out->push_back(a.direction);
   EndSection(out, section);
 
   section = BeginSection(out);
@@ -226,7 +238,7 @@ Status DetectorSlot::Unpack(std::span<const double> values) {
   alarms_raised_ = raised;
   last_statistic_ = statistic;
   last_threshold_ = threshold;
-  last_alarm_ = LastAlarm{seq,
+  const LastAlarm restored{seq,
                           static_cast<int64_t>(time),
                           onset_seq,
                           static_cast<int64_t>(onset_time),
@@ -235,6 +247,12 @@ Status DetectorSlot::Unpack(std::span<const double> values) {
                           a_shift,
                           a_y,
                           static_cast<uint8_t>(a_dir)};
+  if (raised > 0) {
+    if (!last_alarm_) last_alarm_ = std::make_unique<LastAlarm>();
+    *last_alarm_ = restored;
+  } else {
+    last_alarm_.reset();
+  }
   return Status::Ok();
 }
 

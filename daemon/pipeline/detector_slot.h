@@ -19,6 +19,7 @@
 #pragma once
 
 #include <cstdint>
+#include <memory>
 #include <span>
 #include <variant>
 #include <vector>
@@ -65,11 +66,9 @@ class DetectorSlot {
   double last_statistic() const { return last_statistic_; }
   double last_threshold() const { return last_threshold_; }
   uint64_t alarms_raised() const { return alarms_raised_; }
-  const LastAlarm& last_alarm() const { return last_alarm_; }
-  void RecordAlarm(const LastAlarm& alarm) {
-    last_alarm_ = alarm;
-    ++alarms_raised_;
-  }
+  // The last alarm raised; all zero before the first.
+  const LastAlarm& last_alarm() const;
+  void RecordAlarm(const LastAlarm& alarm);
 
   // Layout: [3 bookkeeping + 8 last-alarm values][n_std, standardizer state][detector state].
   void Pack(std::vector<double>* out) const;
@@ -93,7 +92,8 @@ class DetectorSlot {
   double last_statistic_ = est::kNaN;
   double last_threshold_ = est::kNaN;
   uint64_t alarms_raised_ = 0;
-  LastAlarm last_alarm_;
+  // Allocated at the first alarm only: most channels never alarm, so they do not carry it.
+  std::unique_ptr<LastAlarm> last_alarm_;
 };
 
 }  // namespace bayline::pipeline

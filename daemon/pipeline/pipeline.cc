@@ -158,7 +158,8 @@ est::Status PipelineState::UpdateEstimators(Channel& ch, const est::Sample& samp
   for (std::size_t i = 0; i < n; ++i) {
     innovations_[i] = est::Innovation();
     residuals_[i] = est::RecursiveResidual();
-    est::Status s = ch.estimators[i].Update(sample, &innovations_[i], &residuals_[i]);
+    est::Innovation* innovation = ch.spec->needs_innovation[i] ? &innovations_[i] : nullptr;
+    est::Status s = ch.estimators[i].Update(sample, innovation, &residuals_[i]);
     if (!s.ok()) {
       for (std::size_t j = 0; j < i; ++j) ch.estimators[j] = backup_[j];
       return s;

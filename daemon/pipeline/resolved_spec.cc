@@ -256,6 +256,16 @@ est::Status ResolveSpec(const bayline::v1::Rule& rule, const std::string& rule_n
         r->bocpd_needs_unit_weight = true;
       }
     }
+    // Which detectors read the watched estimator's innovation (see detector_slot.h).
+    const EstimatorKind watched = r->estimators[static_cast<std::size_t>(d.watch)];
+    const bool reads_z = !d.phase2 && d.kind != DetectorKind::kBand &&
+                         d.kind != DetectorKind::kRecursiveCusum &&
+                         d.kind != DetectorKind::kRecursiveCusumSquares &&
+                         !(d.kind == DetectorKind::kBocpd && r->bocpd_needs_unit_weight);
+    const bool self_standardized =
+        watched == EstimatorKind::kLs ||
+        (watched == EstimatorKind::kMl && (model == Model::kGaussian || model == Model::kLognormal));
+    if (reads_z && !self_standardized) r->needs_innovation[static_cast<std::size_t>(d.watch)] = true;
     r->detectors.push_back(std::move(d));
   }
 

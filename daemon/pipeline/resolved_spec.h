@@ -25,6 +25,7 @@
 // observation noise sd (default 1), which that tracker takes as known.
 #pragma once
 
+#include <array>
 #include <cstdint>
 #include <memory>
 #include <span>
@@ -87,6 +88,9 @@ struct ResolvedSpec {
   est::GammaExponential::Options gamma_exponential;
 
   std::vector<DetectorSetup> detectors;  // bound: watch index, band parameter index
+  // Per estimator: whether some detector reads its one-step innovation (computing one costs
+  // special functions, e.g. a Student-t normal score, so it is only asked for when read).
+  std::array<bool, kMaxEstimatorsPerChannel> needs_innovation{};
   bool bocpd_needs_unit_weight = false;  // a bocpd on raw counts (it has no weighted form)
 
   uint32_t every_n = 1;
