@@ -106,7 +106,9 @@ double BetaContinuedFraction(double a, double b, double x) {
 
 double LogGamma(double a) {
   if (!(a > 0)) return kNaN;
-  return std::lgamma(a);  // a > 0: the sign is always +, so the global signgam is irrelevant
+  int sign = 0;
+  return lgamma_r(a, &sign);  // the reentrant form: std::lgamma writes the global signgam (a race
+                              // between worker threads)
 }
 
 double LogBeta(double a, double b) {
