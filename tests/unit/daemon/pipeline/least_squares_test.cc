@@ -1,4 +1,6 @@
+#include <cmath>
 #include <random>
+#include <vector>
 
 #include <Eigen/Dense>
 #include <gtest/gtest.h>
@@ -52,6 +54,44 @@ TEST(LeastSquaresTest, LinearChannelLsEqualsBatchOls) {
     EXPECT_GT(last_ls->upper(j), beta(j));
   }
   EXPECT_DOUBLE_EQ(last_ls->effective_n(), n);
+}
+
+}  // namespace
+}  // namespace bayline::pipeline
+
+namespace bayline::pipeline {
+namespace {
+
+// Gaussian channel, ls: intercept-only least squares, so mean = sample mean and variance = the
+// unbiased sample variance, with the chi-square interval (n-1) s^2 / chi2_{1-q}, (n-1) s^2 / chi2_q
+// (common practice, no source); here only its ordering around s^2 is checked.
+TEST(LeastSquaresTest, GaussianChannelLsIsSampleMeanAndVariance) {
+  Pipeline p(DefaultConfig());
+  testing::RecordingSink sink;
+  std::mt19937_64 rng(4242);
+  std::normal_distribution<double> temp(-18.0, 0.7);
+  std::vector<double> ys;
+  for (uint64_t i = 1; i <= 50; ++i) {
+    ys.push_back(temp(rng));
+    p.Process(testing::Obs("coldstore/freezer9/temperature", i, ys.back()), testing::kArrival, sink);
+  }
+  double mean = 0;
+  for (double y : ys) mean += y;
+  mean /= double(ys.size());
+  double ss = 0;
+  for (double y : ys) ss += (y - mean) * (y - mean);
+  const double s2 = ss / double(ys.size() - 1);
+  const auto report = p.Ask("coldstore/freezer9/temperature");
+  ASSERT_TRUE(report.has_value());
+  const auto& ls = report->estimates(0);
+  ASSERT_EQ(ls.estimator(), "ls");
+  EXPECT_NEAR(ls.value(0), mean, 1e-12 * std::abs(mean));
+  EXPECT_NEAR(ls.value(1), s2, 1e-10 * s2);
+  EXPECT_NEAR(ls.std_error(0), std::sqrt(s2 / double(ys.size())), 1e-10);
+  EXPECT_LT(ls.lower(1), s2);
+  EXPECT_GT(ls.upper(1), s2);
+  EXPECT_LT(ls.lower(0), mean);
+  EXPECT_GT(ls.upper(0), mean);
 }
 
 }  // namespace
