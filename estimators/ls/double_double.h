@@ -21,7 +21,8 @@ struct DoubleDouble {
   double lo = 0.0;
 
   DoubleDouble() = default;
-  constexpr DoubleDouble(double h) : hi(h), lo(0.0) {}  // NOLINT: implicit on purpose (mixed arithmetic)
+  constexpr DoubleDouble(double h)
+      : hi(h), lo(0.0) {}  // NOLINT: implicit on purpose (mixed arithmetic)
   constexpr DoubleDouble(double h, double l) : hi(h), lo(l) {}
   double value() const { return hi + lo; }
 };

@@ -4,18 +4,18 @@
 // observation's log-density, discounted by forgetting like everything else):
 //   l(theta, sigma^2) = -1/2 sum_t w_t [ log(2 pi sigma^2) + (y_t - x_t' theta)^2 / sigma^2 ]
 //                       (+ 1/2 sum_t w_t log w_t, a constant left out).
-// Maximum: theta_ML = theta_OLS = R^{-1} z (same R, z, S, n_eff as Rls), sigma^2_ML = S / n_eff, and
+// Maximum: theta_ML = theta_OLS = R^{-1} z (same R, z, S, n_eff as Rls), sigma^2_ML = S / n_eff,
+// and
 //   l_max = -n_eff / 2 * (log(2 pi sigma^2_ML) + 1).
-// Standard errors from the inverse Fisher information: Cov(theta) = sigma^2_ML (R'R)^{-1}; intervals
-// are Wald intervals theta_j +/- z_{(1+level)/2} se_j. The unbiased variance S / (n_eff - p) is
-// reported beside sigma^2_ML.
-// Predictive density of a new y at x (plug-in, parameter uncertainty included):
+// Standard errors from the inverse Fisher information: Cov(theta) = sigma^2_ML (R'R)^{-1};
+// intervals are Wald intervals theta_j +/- z_{(1+level)/2} se_j. The unbiased variance S / (n_eff -
+// p) is reported beside sigma^2_ML. Predictive density of a new y at x (plug-in, parameter
+// uncertainty included):
 //   y ~ N(x' theta, sigma^2_ML (1/w + x'(R'R)^{-1} x)).
 #pragma once
 
-#include <span>
-
 #include <Eigen/Core>
+#include <span>
 
 #include "estimators/ls/rls.h"
 
@@ -40,8 +40,8 @@ class LinearMl {
   Status Update(const Sample& s, Innovation* out = nullptr);
 
   // value = theta_ML, std_error from sigma^2_ML (R'R)^{-1}, Wald intervals (normal quantile),
-  // log_likelihood = l_max, effective_n = n_eff. identifiable = false (NaN vectors) until identified;
-  // std errors NaN while n_eff <= p.
+  // log_likelihood = l_max, effective_n = n_eff. identifiable = false (NaN vectors) until
+  // identified; std errors NaN while n_eff <= p.
   ParameterReport Report(double level = 0.95) const;
 
   // log density of y at x under the plug-in predictive above (weight 1); NaN if not identified, if
@@ -49,10 +49,10 @@ class LinearMl {
   double PredictiveLogDensity(std::span<const double> x, double y) const;
 
   Eigen::VectorXd coefficients() const { return rls_.coefficients(); }
-  Eigen::MatrixXd covariance() const;      // sigma^2_ML (R'R)^{-1}
-  double sigma2_ml() const;                // S / n_eff (NaN while n_eff <= p or unidentified)
+  Eigen::MatrixXd covariance() const;  // sigma^2_ML (R'R)^{-1}
+  double sigma2_ml() const;            // S / n_eff (NaN while n_eff <= p or unidentified)
   double sigma2_unbiased() const { return rls_.residual_variance(); }  // S / (n_eff - p)
-  double log_likelihood() const;           // l_max (NaN as sigma2_ml)
+  double log_likelihood() const;                                       // l_max (NaN as sigma2_ml)
   double cumulative_log_predictive() const { return cumulative_log_predictive_; }
   const Rls& rls() const { return rls_; }
 

@@ -1,14 +1,14 @@
 // Recursive least squares in square-root information form.
 //
-// Model: y_t = x_t' theta + e_t,  e_t ~ N(0, sigma^2 / w_t),  x_t, theta in R^p, w_t = Sample::weight.
+// Model: y_t = x_t' theta + e_t,  e_t ~ N(0, sigma^2 / w_t),  x_t, theta in R^p, w_t =
+// Sample::weight.
 //
 // With forgetting factors lambda_t in (0, 1] (core/forgetting.h) the estimate minimises
 //     S(theta) = sum_t  w_t * lambda_{t+1} ... lambda_n * (y_t - x_t' theta)^2 .
 // State (symbols used in the code):
-//   R      p x p upper triangular with R'R = sum_t (discounted) w_t x_t x_t'  (the information factor),
-//   z      p-vector with R theta = z,
-//   S      the discounted weighted residual sum of squares at theta,
-//   n_eff  sum_t (discounted) w_t, the effective sample size; dof = n_eff - p.
+//   R      p x p upper triangular with R'R = sum_t (discounted) w_t x_t x_t'  (the information
+//   factor), z      p-vector with R theta = z, S      the discounted weighted residual sum of
+//   squares at theta, n_eff  sum_t (discounted) w_t, the effective sample size; dof = n_eff - p.
 // Weights count as frequency weights in n_eff and dof (a weight-3 row is three identical rows);
 // callers with precision weights should scale them to average about 1.
 // Each observation row sqrt(w) [x', y] is annihilated into [R z] by p Givens rotations (O(p^2), no
@@ -40,11 +40,10 @@
 // Conditioning: ConditionNumber() is the 1-norm condition number of R with its columns scaled to
 // unit norm (rotation-based least squares is invariant to column scaling, so this is the relevant
 // one). The first-order bound on the relative error of theta (Golub & Van Loan, least-squares
-// sensitivity) is  u * (kappa + kappa^2 tan(phi)),  tan(phi) = sqrt(S) / ||z|| (residual size against
-// fit size), u = 2^-53 (double) or 2^-104 (extended). ill_conditioned() is true when
-// kappa + kappa^2 tan(phi) > 1e13 (double) or 1e29 (extended), i.e. when fewer than about three
-// digits of theta are guaranteed. NIST Filip is flagged in double mode; Longley and Wampler1-5 are
-// not.
+// sensitivity) is  u * (kappa + kappa^2 tan(phi)),  tan(phi) = sqrt(S) / ||z|| (residual size
+// against fit size), u = 2^-53 (double) or 2^-104 (extended). ill_conditioned() is true when kappa
+// + kappa^2 tan(phi) > 1e13 (double) or 1e29 (extended), i.e. when fewer than about three digits of
+// theta are guaranteed. NIST Filip is flagged in double mode; Longley and Wampler1-5 are not.
 //
 // Robust mode (RlsOptions::robust): the row's weight is multiplied by h = min(1, k / |u|), u the
 // standardized innovation (Huber 1964), before it is absorbed; Innovation and RecursiveResidual
@@ -59,11 +58,10 @@
 // Thread safety: none; one owner (a daemon worker) per object. Copyable.
 #pragma once
 
+#include <Eigen/Core>
 #include <cstddef>
 #include <span>
 #include <type_traits>
-
-#include <Eigen/Core>
 
 #include "estimators/core/report.h"
 #include "estimators/core/sample.h"
@@ -94,12 +92,12 @@ class RecursiveLeastSquares {
     Eigen::MatrixXd r_lo;  // low parts of R, z, S in extended mode (empty otherwise)
     Eigen::VectorXd z_lo;
     double rss_lo = 0.0;
-    double n_eff = 0.0;    // discounted sum of weights
-    double n_obs = 0.0;    // accepted observations (not discounted)
+    double n_eff = 0.0;           // discounted sum of weights
+    double n_obs = 0.0;           // accepted observations (not discounted)
     double previous_time = kNaN;  // latest finite Sample::time accepted (NaN if none)
-    double trace = 0.0;    // T: discounted trace of R'R (excluding round-off), for the windup floor
+    double trace = 0.0;  // T: discounted trace of R'R (excluding round-off), for the windup floor
     double trace_identified = 0.0;  // T_id
-    double anchor = 0.0;   // next coordinate j of the windup pseudo-row, in [0, p)
+    double anchor = 0.0;            // next coordinate j of the windup pseudo-row, in [0, p)
     bool identified = false;
 
     void Pack(StateWriter& w) const;
@@ -112,18 +110,19 @@ class RecursiveLeastSquares {
 
   // p must equal P when P is fixed; for Eigen::Dynamic, p >= 1. Options must be valid (assert);
   // call options.Validate() first on anything from outside.
-  explicit RecursiveLeastSquares(const RlsOptions& options = {}, int p = (P == Eigen::Dynamic ? 1 : P));
+  explicit RecursiveLeastSquares(const RlsOptions& options = {},
+                                 int p = (P == Eigen::Dynamic ? 1 : P));
 
   // Absorbs one observation: s.x has p entries, s.weight > 0, everything finite.
   // On success: the state advances; *out (if given) holds the one-step innovation computed from the
   // state before this observation (valid once identified with dof > 0; its log_predictive is the
   // Student t density with the previous dof), *rr (if given) the recursive residual.
-  // On rejection: kNonFinite / kWrongRegressorCount / kInvalidWeight for bad input, kNumericalFailure
-  // if the result would overflow; the state, *out and *rr are unchanged.
+  // On rejection: kNonFinite / kWrongRegressorCount / kInvalidWeight for bad input,
+  // kNumericalFailure if the result would overflow; the state, *out and *rr are unchanged.
   Status Update(const Sample& s, Innovation* out = nullptr, RecursiveResidual* rr = nullptr);
 
-  // As Update, for regressors/response known to more digits than a double holds: the row absorbed is
-  // x + x_lo, y + y_lo (e.g. x^k of a polynomial basis computed in double-double). Requires the
+  // As Update, for regressors/response known to more digits than a double holds: the row absorbed
+  // is x + x_lo, y + y_lo (e.g. x^k of a polynomial basis computed in double-double). Requires the
   // extended_precision option (else kInvalidConfig); x_lo must have p finite entries.
   Status UpdateExtended(const Sample& s, std::span<const double> x_lo, double y_lo,
                         Innovation* out = nullptr, RecursiveResidual* rr = nullptr);
@@ -133,9 +132,10 @@ class RecursiveLeastSquares {
   // dof <= 0. log_likelihood: the weighted gaussian log-likelihood at (theta, S / n_eff).
   ParameterReport Report(double level = 0.95) const;
 
-  // Prediction for a new observation at x (weight 1): mean x'theta, mean_sd = s sqrt(x'(R'R)^{-1}x),
-  // sd = s sqrt(1 + x'(R'R)^{-1} x), t interval with dof degrees of freedom. Rejects a wrong-size or
-  // non-finite x (out unchanged); otherwise out->valid says whether identified with dof > 0.
+  // Prediction for a new observation at x (weight 1): mean x'theta, mean_sd = s
+  // sqrt(x'(R'R)^{-1}x), sd = s sqrt(1 + x'(R'R)^{-1} x), t interval with dof degrees of freedom.
+  // Rejects a wrong-size or non-finite x (out unchanged); otherwise out->valid says whether
+  // identified with dof > 0.
   Status Predict(std::span<const double> x, double level, Prediction* out) const;
 
   // Multiplies the covariance by factor > 1 (R and z divided by sqrt(factor); theta, S and n_eff
@@ -149,8 +149,8 @@ class RecursiveLeastSquares {
   // Accessors. Values are NaN where not defined (not identified, or dof <= 0 for variances).
   int p() const { return state_.p; }
   bool identifiable() const { return state_.identified; }
-  Vector coefficients() const;     // theta
-  Matrix covariance() const;       // s^2 (R'R)^{-1}
+  Vector coefficients() const;       // theta
+  Matrix covariance() const;         // s^2 (R'R)^{-1}
   double residual_variance() const;  // s^2 = S / dof
   double dof() const { return state_.n_eff - p(); }
   double effective_n() const { return state_.n_eff; }
@@ -166,7 +166,8 @@ class RecursiveLeastSquares {
   const State& state() const { return state_; }
   // Validates s (p, extended flag matching the options, R upper triangular with a finite
   // non-negative diagonal, everything finite, S, n_eff, n_obs >= 0, anchor in [0, p), identified
-  // consistent with the rank test) and replaces the state. On failure kInvalidState, nothing changes.
+  // consistent with the rank test) and replaces the state. On failure kInvalidState, nothing
+  // changes.
   Status Restore(const State& s);
 
  private:

@@ -7,16 +7,22 @@ namespace bayline::est {
 
 namespace {
 
-using Impl = std::variant<RecursiveLeastSquares<1>, RecursiveLeastSquares<2>, RecursiveLeastSquares<3>,
-                          RecursiveLeastSquares<4>, RecursiveLeastSquares<Eigen::Dynamic>>;
+using Impl =
+    std::variant<RecursiveLeastSquares<1>, RecursiveLeastSquares<2>, RecursiveLeastSquares<3>,
+                 RecursiveLeastSquares<4>, RecursiveLeastSquares<Eigen::Dynamic>>;
 
 Impl Make(const RlsOptions& o, int p) {
   switch (p) {
-    case 1: return RecursiveLeastSquares<1>(o);
-    case 2: return RecursiveLeastSquares<2>(o);
-    case 3: return RecursiveLeastSquares<3>(o);
-    case 4: return RecursiveLeastSquares<4>(o);
-    default: return RecursiveLeastSquares<Eigen::Dynamic>(o, p);
+    case 1:
+      return RecursiveLeastSquares<1>(o);
+    case 2:
+      return RecursiveLeastSquares<2>(o);
+    case 3:
+      return RecursiveLeastSquares<3>(o);
+    case 4:
+      return RecursiveLeastSquares<4>(o);
+    default:
+      return RecursiveLeastSquares<Eigen::Dynamic>(o, p);
   }
 }
 
@@ -108,11 +114,16 @@ Status Rls::State::Unpack(StateReader& r) {
     st = s.Unpack(r);
     if (st.ok()) inner = std::move(s);
   };
-  if (p == 1) read(RecursiveLeastSquares<1>::State{});
-  else if (p == 2) read(RecursiveLeastSquares<2>::State{});
-  else if (p == 3) read(RecursiveLeastSquares<3>::State{});
-  else if (p == 4) read(RecursiveLeastSquares<4>::State{});
-  else read(RecursiveLeastSquares<Eigen::Dynamic>::State{});
+  if (p == 1)
+    read(RecursiveLeastSquares<1>::State{});
+  else if (p == 2)
+    read(RecursiveLeastSquares<2>::State{});
+  else if (p == 3)
+    read(RecursiveLeastSquares<3>::State{});
+  else if (p == 4)
+    read(RecursiveLeastSquares<4>::State{});
+  else
+    read(RecursiveLeastSquares<Eigen::Dynamic>::State{});
   return st;
 }
 

@@ -1,13 +1,13 @@
 // Rls: recursive least squares with the parameter count chosen at run time (what the daemon uses).
 // Model, state and contracts are those of RecursiveLeastSquares<P> (recursive_least_squares.h);
 // this class only picks the storage: fixed-size Eigen types for p <= kMaxFixedP (no indirection,
-// no heap), Eigen::Dynamic above (allocated once, at construction). Dispatch is one switch per call.
+// no heap), Eigen::Dynamic above (allocated once, at construction). Dispatch is one switch per
+// call.
 #pragma once
 
+#include <Eigen/Core>
 #include <span>
 #include <variant>
-
-#include <Eigen/Core>
 
 #include "estimators/ls/recursive_least_squares.h"
 
@@ -33,7 +33,8 @@ class Rls {
   // p >= 1; options valid (assert; call options.Validate() on anything from outside).
   Rls(const RlsOptions& options, int p);
 
-  // See RecursiveLeastSquares<P>: same results, same rejection rules (state unchanged on rejection).
+  // See RecursiveLeastSquares<P>: same results, same rejection rules (state unchanged on
+  // rejection).
   Status Update(const Sample& s, Innovation* out = nullptr, RecursiveResidual* rr = nullptr);
   Status UpdateExtended(const Sample& s, std::span<const double> x_lo, double y_lo,
                         Innovation* out = nullptr, RecursiveResidual* rr = nullptr);

@@ -17,9 +17,10 @@ struct RlsOptions {
 
   // Windup protection, used only while forgetting is active (lambda < 1 for the step) and the
   // parameters are identified. Each such step adds one pseudo-observation a * e_j (j cycles over
-  // 0..p-1) whose response a * theta_j equals the current estimate, so it never moves theta; it keeps
-  // the information in every direction >= about windup_floor * tr(R'R) / p. In [0, 1); 0 disables.
-  // Default 1e-6 bounds the condition number of R'R by about p / 1e-6 in unexcited directions.
+  // 0..p-1) whose response a * theta_j equals the current estimate, so it never moves theta; it
+  // keeps the information in every direction >= about windup_floor * tr(R'R) / p. In [0, 1); 0
+  // disables. Default 1e-6 bounds the condition number of R'R by about p / 1e-6 in unexcited
+  // directions.
   double windup_floor = 1e-6;
 
   // Rank test: column j counts as identified once |R_jj| > rank_tolerance * ||R(:, j)||, i.e. once
@@ -61,8 +62,8 @@ struct RlsOptions {
 // with R the information factor after this step's forgetting (for lambda = 1 and unit weights this
 // is exactly BDE's w_r). Under the model w_t ~ N(0, sigma^2), independent across t.
 struct RecursiveResidual {
-  bool valid = false;          // true when the parameters were identified before this observation
-  double value = kNaN;         // w_t (computed from the full weight, before any Huber down-weighting)
+  bool valid = false;   // true when the parameters were identified before this observation
+  double value = kNaN;  // w_t (computed from the full weight, before any Huber down-weighting)
   double robust_weight = 1.0;  // Huber factor applied to this observation's weight (1 = none)
   double lambda = 1.0;         // forgetting factor applied at this step
 };

@@ -22,7 +22,8 @@ std::vector<Real> BackSubstitute(const M& r, const ML& r_lo, const V& z, const V
   std::vector<Real> theta(static_cast<std::size_t>(p));
   for (int i = p - 1; i >= 0; --i) {
     Real acc = Get<Real>(z, z_lo, i, 0);
-    for (int k = i + 1; k < p; ++k) acc -= Get<Real>(r, r_lo, i, k) * theta[static_cast<std::size_t>(k)];
+    for (int k = i + 1; k < p; ++k)
+      acc -= Get<Real>(r, r_lo, i, k) * theta[static_cast<std::size_t>(k)];
     theta[static_cast<std::size_t>(i)] = acc / Get<Real>(r, r_lo, i, i);
   }
   return theta;
@@ -35,10 +36,12 @@ void InvertUpper(const M& r, const ML& r_lo, int p, Out* out) {
   for (int j = 0; j < p; ++j) {
     for (int i = j; i >= 0; --i) {
       Real acc = (i == j) ? Real(1.0) : Real(0.0);
-      for (int k = i + 1; k <= j; ++k) acc -= Get<Real>(r, r_lo, i, k) * col[static_cast<std::size_t>(k)];
+      for (int k = i + 1; k <= j; ++k)
+        acc -= Get<Real>(r, r_lo, i, k) * col[static_cast<std::size_t>(k)];
       col[static_cast<std::size_t>(i)] = acc / Get<Real>(r, r_lo, i, i);
     }
-    for (int i = 0; i < p; ++i) (*out)(i, j) = i <= j ? ToDouble(col[static_cast<std::size_t>(i)]) : 0.0;
+    for (int i = 0; i < p; ++i)
+      (*out)(i, j) = i <= j ? ToDouble(col[static_cast<std::size_t>(i)]) : 0.0;
   }
 }
 
@@ -49,7 +52,8 @@ typename RecursiveLeastSquares<P>::Vector RecursiveLeastSquares<P>::SolveTheta()
   const int p = state_.p;
   Vector theta(p);
   if (state_.extended) {
-    auto t = rls_detail::BackSubstitute<DoubleDouble>(state_.r, state_.r_lo, state_.z, state_.z_lo, p);
+    auto t =
+        rls_detail::BackSubstitute<DoubleDouble>(state_.r, state_.r_lo, state_.z, state_.z_lo, p);
     for (int i = 0; i < p; ++i) theta(i) = ToDouble(t[static_cast<std::size_t>(i)]);
   } else {
     theta = state_.r.template triangularView<Eigen::Upper>().solve(state_.z);
@@ -121,7 +125,8 @@ ParameterReport RecursiveLeastSquares<P>::Report(double level) const {
   }
   const double rss = this->rss();
   if (state_.n_eff > 0.0 && rss > 0.0) {
-    rep.log_likelihood = -0.5 * state_.n_eff * (std::log(2.0 * std::numbers::pi * rss / state_.n_eff) + 1.0);
+    rep.log_likelihood =
+        -0.5 * state_.n_eff * (std::log(2.0 * std::numbers::pi * rss / state_.n_eff) + 1.0);
   }
   return rep;
 }
@@ -131,12 +136,14 @@ Status RecursiveLeastSquares<P>::Predict(std::span<const double> x, double level
                                          Prediction* out) const {
   const int p = state_.p;
   if (x.size() != static_cast<std::size_t>(p)) {
-    return Status::Error(ErrorCode::kWrongRegressorCount,
-                         "expected " + std::to_string(p) + " regressors, got " + std::to_string(x.size()));
+    return Status::Error(
+        ErrorCode::kWrongRegressorCount,
+        "expected " + std::to_string(p) + " regressors, got " + std::to_string(x.size()));
   }
   for (std::size_t i = 0; i < x.size(); ++i) {
     if (!std::isfinite(x[i])) {
-      return Status::Error(ErrorCode::kNonFinite, "regressor " + std::to_string(i) + " is not finite");
+      return Status::Error(ErrorCode::kNonFinite,
+                           "regressor " + std::to_string(i) + " is not finite");
     }
   }
   Prediction pr;
@@ -260,34 +267,44 @@ template <int P>
 Status RecursiveLeastSquares<P>::Restore(const State& s) {
   auto bad = [](const std::string& why) { return Status::Error(ErrorCode::kInvalidState, why); };
   const int p = state_.p;
-  if (s.p != p) return bad("state has p = " + std::to_string(s.p) + ", estimator has " + std::to_string(p));
-  if (s.extended != options_.extended_precision) return bad("state and options disagree on extended precision");
-  if (s.r.rows() != p || s.r.cols() != p || s.z.size() != p) return bad("state matrices have the wrong size");
+  if (s.p != p)
+    return bad("state has p = " + std::to_string(s.p) + ", estimator has " + std::to_string(p));
+  if (s.extended != options_.extended_precision)
+    return bad("state and options disagree on extended precision");
+  if (s.r.rows() != p || s.r.cols() != p || s.z.size() != p)
+    return bad("state matrices have the wrong size");
   if (s.extended && (s.r_lo.rows() != p || s.r_lo.cols() != p || s.z_lo.size() != p)) {
     return bad("state low-order parts have the wrong size");
   }
-  if (!s.r.allFinite() || !s.z.allFinite() || !std::isfinite(s.rss)) return bad("state has non-finite values");
+  if (!s.r.allFinite() || !s.z.allFinite() || !std::isfinite(s.rss))
+    return bad("state has non-finite values");
   if (s.extended && (!s.r_lo.allFinite() || !s.z_lo.allFinite() || !std::isfinite(s.rss_lo))) {
     return bad("state has non-finite low-order parts");
   }
   for (int j = 0; j < p; ++j) {
     if (s.r(j, j) < 0.0) return bad("R has a negative diagonal entry");
     for (int i = j + 1; i < p; ++i) {
-      if (s.r(i, j) != 0.0 || (s.extended && s.r_lo(i, j) != 0.0)) return bad("R is not upper triangular");
+      if (s.r(i, j) != 0.0 || (s.extended && s.r_lo(i, j) != 0.0))
+        return bad("R is not upper triangular");
     }
   }
   if (!(s.rss + s.rss_lo >= 0.0)) return bad("negative residual sum of squares");
-  if (!(s.n_eff >= 0.0) || !std::isfinite(s.n_eff)) return bad("effective sample size must be finite and >= 0");
-  if (!(s.n_obs >= 0.0) || s.n_obs != std::floor(s.n_obs)) return bad("observation count must be a whole number >= 0");
+  if (!(s.n_eff >= 0.0) || !std::isfinite(s.n_eff))
+    return bad("effective sample size must be finite and >= 0");
+  if (!(s.n_obs >= 0.0) || s.n_obs != std::floor(s.n_obs))
+    return bad("observation count must be a whole number >= 0");
   if (std::isinf(s.previous_time)) return bad("previous time is infinite");
   if (!(s.trace >= 0.0) || !(s.trace_identified >= 0.0) || !std::isfinite(s.trace) ||
       !std::isfinite(s.trace_identified)) {
     return bad("information trace must be finite and >= 0");
   }
-  if (!(s.anchor >= 0.0 && s.anchor < p && s.anchor == std::floor(s.anchor))) return bad("anchor index out of range");
+  if (!(s.anchor >= 0.0 && s.anchor < p && s.anchor == std::floor(s.anchor)))
+    return bad("anchor index out of range");
   // Identified is sticky (set once the rank test passes); it needs a solvable R.
-  if (s.identified && !(s.r.diagonal().array() > 0.0).all()) return bad("identified but R is singular");
-  if (!s.identified && RankTest(s.r)) return bad("R has full rank but the state says not identified");
+  if (s.identified && !(s.r.diagonal().array() > 0.0).all())
+    return bad("identified but R is singular");
+  if (!s.identified && RankTest(s.r))
+    return bad("R has full rank but the state says not identified");
   state_ = s;
   return Status::Ok();
 }

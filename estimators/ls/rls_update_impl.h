@@ -3,8 +3,6 @@
 // DoubleDouble).
 #pragma once
 
-#include "estimators/ls/recursive_least_squares.h"
-
 #include <algorithm>
 #include <cassert>
 #include <cmath>
@@ -12,6 +10,7 @@
 
 #include "estimators/core/distributions.h"
 #include "estimators/ls/double_double.h"
+#include "estimators/ls/recursive_least_squares.h"
 #include "estimators/ls/t_log_density.h"
 
 namespace bayline::est {
@@ -53,8 +52,8 @@ inline void Set(M& hi, ML& lo, Eigen::Index i, Eigen::Index k, const Real& v) {
 // diagonal non-negative. Returns the leftover response entry (the recursive residual of the row)
 // and multiplies *cprod by the cosines.
 template <typename Real, typename M, typename V, typename RV>
-[[gnu::always_inline]] inline Real Annihilate(M& r, M& r_lo, V& z, V& z_lo, RV& row, RV& row_lo, int first, int p,
-                double* cprod) {
+[[gnu::always_inline]] inline Real Annihilate(M& r, M& r_lo, V& z, V& z_lo, RV& row, RV& row_lo,
+                                              int first, int p, double* cprod) {
   for (int i = first; i < p; ++i) {
     const Real b = Get<Real>(row, row_lo, i, 0);
     if (b == Real(0.0)) continue;  // nothing to rotate in this column
@@ -145,9 +144,9 @@ Status RecursiveLeastSquares<P>::UpdateExtended(const Sample& s, std::span<const
                          "UpdateExtended needs the extended_precision option");
   }
   if (x_lo.size() != static_cast<std::size_t>(state_.p)) {
-    return Status::Error(ErrorCode::kWrongRegressorCount,
-                         "expected " + std::to_string(state_.p) + " low-order regressor parts, got " +
-                             std::to_string(x_lo.size()));
+    return Status::Error(ErrorCode::kWrongRegressorCount, "expected " + std::to_string(state_.p) +
+                                                              " low-order regressor parts, got " +
+                                                              std::to_string(x_lo.size()));
   }
   for (std::size_t i = 0; i < x_lo.size(); ++i) {
     if (!std::isfinite(x_lo[i])) {
@@ -167,9 +166,8 @@ Status RecursiveLeastSquares<P>::UpdateChecked(const Sample& s, const double* x_
   Status st = CheckCommonFields(s, static_cast<std::size_t>(state_.p));
   if (!st.ok()) return st;
   if constexpr (kDynamic) {
-    return options_.extended_precision
-               ? UpdateImpl<DoubleDouble>(dyn_work_, s, x_lo, y_lo, out, rr)
-               : UpdateImpl<double>(dyn_work_, s, x_lo, y_lo, out, rr);
+    return options_.extended_precision ? UpdateImpl<DoubleDouble>(dyn_work_, s, x_lo, y_lo, out, rr)
+                                       : UpdateImpl<double>(dyn_work_, s, x_lo, y_lo, out, rr);
   } else {
     Work w;  // fixed size: on the stack, uninitialised (every entry used is loaded first)
     return options_.extended_precision ? UpdateImpl<DoubleDouble>(w, s, x_lo, y_lo, out, rr)
@@ -200,14 +198,13 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
   const double trace_forgotten = lambda * cur.trace;
   double a2 = 0.0;
   if (anchor) {
-    const double t_eff =
-        std::max(trace_forgotten, options_.windup_floor * cur.trace_identified);
+    const double t_eff = std::max(trace_forgotten, options_.windup_floor * cur.trace_identified);
     a2 = (1.0 - lambda) * options_.windup_floor * t_eff;
   }
   const int j = static_cast<int>(cur.anchor);
 
   // Forgets, anchors and absorbs the row with weight `weight` into the work copy. Returns eta.
-  auto run = [&](double weight, double* cprod) __attribute__((always_inline)) -> Real {
+  auto run = [&](double weight, double* cprod) __attribute__((always_inline))->Real {
     w.r.template triangularView<Eigen::Upper>() = cur.r;
     w.z = cur.z;
     if constexpr (kExt) {
@@ -216,7 +213,8 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
     }
     if (forget) {
       for (int k = 0; k < p; ++k) {
-        for (int i = 0; i <= k; ++i) Set<Real>(w.r, w.r_lo, i, k, Get<Real>(w.r, w.r_lo, i, k) * sqrt_lambda);
+        for (int i = 0; i <= k; ++i)
+          Set<Real>(w.r, w.r_lo, i, k, Get<Real>(w.r, w.r_lo, i, k) * sqrt_lambda);
         Set<Real>(w.z, w.z_lo, k, 0, Get<Real>(w.z, w.z_lo, k, 0) * sqrt_lambda);
       }
     }
@@ -225,7 +223,8 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
       // theta_j by back substitution on rows p-1..j of the (scaled) factor.
       for (int i = p - 1; i >= j; --i) {
         Real acc = Get<Real>(w.z, w.z_lo, i, 0);
-        for (int k = i + 1; k < p; ++k) acc -= Get<Real>(w.r, w.r_lo, i, k) * Get<Real>(w.row, w.row_lo, k, 0);
+        for (int k = i + 1; k < p; ++k)
+          acc -= Get<Real>(w.r, w.r_lo, i, k) * Get<Real>(w.row, w.row_lo, k, 0);
         Set<Real>(w.row, w.row_lo, i, 0, acc / Get<Real>(w.r, w.r_lo, i, i));  // theta_i
       }
       const Real a = Sqrt(Real(a2));
@@ -349,8 +348,11 @@ Status RecursiveLeastSquares<P>::InflateUncertainty(double factor) {
   if (state_.extended) {
     const DoubleDouble g = DoubleDouble(1.0) / Sqrt(DoubleDouble(factor));
     for (int k = 0; k < p; ++k) {
-      for (int i = 0; i <= k; ++i) Set<DoubleDouble>(state_.r, state_.r_lo, i, k, Get<DoubleDouble>(state_.r, state_.r_lo, i, k) * g);
-      Set<DoubleDouble>(state_.z, state_.z_lo, k, 0, Get<DoubleDouble>(state_.z, state_.z_lo, k, 0) * g);
+      for (int i = 0; i <= k; ++i)
+        Set<DoubleDouble>(state_.r, state_.r_lo, i, k,
+                          Get<DoubleDouble>(state_.r, state_.r_lo, i, k) * g);
+      Set<DoubleDouble>(state_.z, state_.z_lo, k, 0,
+                        Get<DoubleDouble>(state_.z, state_.z_lo, k, 0) * g);
     }
   } else {
     const double g = 1.0 / std::sqrt(factor);

@@ -14,8 +14,8 @@
 
 namespace bayline::est {
 
-// log(1 + x) for x > -1 by Kahan's correction of log(1 + x) (a few ulps; one log call, which is much
-// cheaper than the library log1p).
+// log(1 + x) for x > -1 by Kahan's correction of log(1 + x) (a few ulps; one log call, which is
+// much cheaper than the library log1p).
 inline double Log1pFast(double x) {
   const double v = 1.0 + x;
   return v == 1.0 ? x : std::log(v) * x / (v - 1.0);
@@ -27,7 +27,8 @@ inline double StudentTLogDensity(double u, double dof) {
   const double r = 2.0 * inv_dof;  // 1 / a
   const double r2 = r * r;
   const double series =
-      r * (-1.0 / 8 + r2 * (1.0 / 192 + r2 * (-1.0 / 640 + r2 * (17.0 / 14336 - r2 * (31.0 / 18432)))));
+      r *
+      (-1.0 / 8 + r2 * (1.0 / 192 + r2 * (-1.0 / 640 + r2 * (17.0 / 14336 - r2 * (31.0 / 18432)))));
   constexpr double kHalfLog2Pi = 0.91893853320467274178;  // log(2 pi) / 2
   return series - kHalfLog2Pi - 0.5 * (dof + 1.0) * Log1pFast(u * u * inv_dof);
 }

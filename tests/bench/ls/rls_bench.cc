@@ -1,9 +1,9 @@
 // ns per update of recursive least squares. Rows are precomputed (seeded) so only the update is
 // timed. Run: build-ls/tests/bench/ls/bayline_bench_ls --benchmark_min_time=0.2
+#include <benchmark/benchmark.h>
+
 #include <random>
 #include <vector>
-
-#include <benchmark/benchmark.h>
 
 #include "estimators/ls/linear_ml.h"
 #include "estimators/ls/recursive_least_squares.h"
@@ -34,7 +34,8 @@ struct Rows {
     const auto k = static_cast<std::size_t>(i & (kRows - 1));
     Sample s;
     s.y = y[k];
-    s.x = std::span<const double>(x.data() + k * static_cast<std::size_t>(p), static_cast<std::size_t>(p));
+    s.x = std::span<const double>(x.data() + k * static_cast<std::size_t>(p),
+                                  static_cast<std::size_t>(p));
     return s;
   }
 };

@@ -10,7 +10,8 @@ namespace bayline::est::nist {
 
 class CovarianceRls {
  public:
-  CovarianceRls(int p, double delta) : theta_(Eigen::VectorXd::Zero(p)), pm_(delta * Eigen::MatrixXd::Identity(p, p)) {}
+  CovarianceRls(int p, double delta)
+      : theta_(Eigen::VectorXd::Zero(p)), pm_(delta * Eigen::MatrixXd::Identity(p, p)) {}
   void Update(const Eigen::VectorXd& x, double y) {
     const Eigen::VectorXd px = pm_ * x;
     const double denom = 1.0 + x.dot(px);

@@ -2,11 +2,11 @@
 // regression text, e.g. the standard result (theta_j - theta_hat_j) / se_j ~ t_{n-p}; REFERENCES.md
 // standard identities), so nominal 95% intervals must cover the truth in 95% +/- 1% of replicates.
 // 20,000 replicates: the binomial sd of the coverage is 0.15%, so +/- 1% is about 6.5 sd.
+#include <gtest/gtest.h>
+
 #include <cstdio>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ls/recursive_least_squares.h"
 #include "estimators/ls/rls.h"
@@ -50,7 +50,8 @@ TEST(RlsCoverageTest, NominalNinetyFivePercentIntervalsCoverTheTruth) {
     std::printf("coverage of coefficient %d: %.4f\n", j, coverage);
     EXPECT_NEAR(coverage, 0.95, 0.01) << "coefficient " << j;
   }
-  std::printf("coverage of the prediction interval: %.4f\n", static_cast<double>(predicted) / kReplicates);
+  std::printf("coverage of the prediction interval: %.4f\n",
+              static_cast<double>(predicted) / kReplicates);
   EXPECT_NEAR(static_cast<double>(predicted) / kReplicates, 0.95, 0.01);
 }
 

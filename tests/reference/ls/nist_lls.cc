@@ -1,12 +1,11 @@
 #include "tests/reference/ls/nist_lls.h"
 
+#include <Eigen/Dense>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <fstream>
 #include <sstream>
-
-#include <Eigen/Dense>
 
 #include "estimators/ls/rls.h"
 #include "tests/reference/ls/covariance_rls.h"
@@ -116,10 +115,14 @@ void RowExtended(const Dataset& d, int i, std::vector<double>* x_hi, std::vector
 
 const char* ModeName(Mode m) {
   switch (m) {
-    case Mode::kDouble: return "double";
-    case Mode::kExtended: return "extended";
-    case Mode::kExtendedDoubleInputs: return "extended, double rows";
-    case Mode::kCovarianceForm: return "covariance form";
+    case Mode::kDouble:
+      return "double";
+    case Mode::kExtended:
+      return "extended";
+    case Mode::kExtendedDoubleInputs:
+      return "extended, double rows";
+    case Mode::kCovarianceForm:
+      return "covariance form";
   }
   return "?";
 }

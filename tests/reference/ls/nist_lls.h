@@ -19,11 +19,11 @@ inline const std::vector<std::string>& DatasetNames() {
 
 struct Dataset {
   std::string name;
-  std::vector<int> powers;           // regressor of B_k: x^k (one x column) or x_k / 1 (Longley)
-  std::vector<double> certified_b;   // as printed by NIST, parsed to the nearest double
+  std::vector<int> powers;          // regressor of B_k: x^k (one x column) or x_k / 1 (Longley)
+  std::vector<double> certified_b;  // as printed by NIST, parsed to the nearest double
   std::vector<double> certified_sd;
   double certified_residual_sd = 0;
-  bool multi_column = false;         // Longley
+  bool multi_column = false;  // Longley
   std::vector<std::string> y_text;
   std::vector<std::vector<std::string>> x_text;  // per row, the x column(s)
   int p() const { return static_cast<int>(powers.size()); }

@@ -1,11 +1,12 @@
 // LinearMl: maximum likelihood of the linear-gaussian model on the RLS recursion.
-#include <cmath>
-#include <vector>
+#include "estimators/ls/linear_ml.h"
 
 #include <gtest/gtest.h>
 
+#include <cmath>
+#include <vector>
+
 #include "estimators/core/distributions.h"
-#include "estimators/ls/linear_ml.h"
 #include "tests/unit/estimators/ls/test_util.h"
 
 namespace bayline::est {

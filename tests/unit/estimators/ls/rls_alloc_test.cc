@@ -1,12 +1,12 @@
 // The update path never allocates: this binary replaces the global operator new with a counting
 // one and runs updates (fixed, dynamic, extended, robust, forgetting, with all outputs) between two
 // readings of the counter.
+#include <gtest/gtest.h>
+
 #include <atomic>
 #include <cstdlib>
 #include <new>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ls/linear_ml.h"
 #include "estimators/ls/rls.h"

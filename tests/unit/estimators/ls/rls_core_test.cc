@@ -1,9 +1,9 @@
 // RecursiveLeastSquares / Rls: batch equivalence, exact start, innovations, prediction, rejection.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <limits>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/core/distributions.h"
 #include "estimators/ls/recursive_least_squares.h"
@@ -165,7 +165,8 @@ TEST(RlsTest, InnovationAndRecursiveResidualMatchClosedForms) {
     EXPECT_NEAR(inn.standardized, e / std::sqrt(s2 * (1.0 + q)), 1e-9);
     // Student t predictive with i - 2 degrees of freedom (common practice, no source).
     EXPECT_NEAR(inn.log_predictive,
-                dist::StudentTLogPdf(inn.standardized, i - 2.0) - std::log(inn.predictive_sd), 1e-9);
+                dist::StudentTLogPdf(inn.standardized, i - 2.0) - std::log(inn.predictive_sd),
+                1e-9);
   }
 }
 
@@ -218,7 +219,8 @@ TEST(RlsTest, WeightsEqualRepeatedObservations) {
   for (int i = 0; i < 30; ++i) {
     const double w = 1.0 + (i % 3);
     ASSERT_TRUE(weighted.Update(SampleAt(d, i, &buf, w)).ok());
-    for (int k = 0; k < static_cast<int>(w); ++k) ASSERT_TRUE(repeated.Update(SampleAt(d, i, &buf)).ok());
+    for (int k = 0; k < static_cast<int>(w); ++k)
+      ASSERT_TRUE(repeated.Update(SampleAt(d, i, &buf)).ok());
   }
   EXPECT_LT(MaxRelErr(weighted.coefficients(), repeated.coefficients()), 1e-12);
   EXPECT_NEAR(weighted.effective_n(), repeated.effective_n(), 1e-12);

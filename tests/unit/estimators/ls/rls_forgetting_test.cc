@@ -1,13 +1,13 @@
 // Forgetting (per observation and per elapsed time), windup protection, robust mode and
 // uncertainty inflation.
+#include <gtest/gtest.h>
+
+#include <Eigen/SVD>
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <random>
 #include <vector>
-
-#include <Eigen/SVD>
-#include <gtest/gtest.h>
 
 #include "estimators/ls/recursive_least_squares.h"
 #include "estimators/ls/rls.h"

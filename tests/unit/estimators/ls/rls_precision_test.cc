@@ -1,10 +1,10 @@
 // Double-double arithmetic, the extended-precision mode, the fast t log-density and the
 // ill-conditioning flag.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/core/distributions.h"
 #include "estimators/ls/double_double.h"
@@ -41,7 +41,7 @@ TEST(DoubleDoubleTest, ParsesDecimalsBeyondDoublePrecision) {
   ASSERT_TRUE(ParseDoubleDouble("0.1", &v));
   EXPECT_EQ(v.hi, 0.1);
   EXPECT_LT(std::fabs((v * 10.0 - DoubleDouble(1.0)).hi), 1e-31);  // 10 * 0.1 = 1 to dd accuracy
-  EXPECT_NE(v.lo, 0.0);  // 0.1 is not a binary fraction
+  EXPECT_NE(v.lo, 0.0);                                            // 0.1 is not a binary fraction
   ASSERT_TRUE(ParseDoubleDouble("-0.670191154593408E-01", &v));
   EXPECT_EQ(v.hi, -0.670191154593408E-01);
   ASSERT_TRUE(ParseDoubleDouble("760.", &v));
@@ -70,7 +70,8 @@ TEST(StudentTLogDensityTest, MatchesDefiningFormula) {
   for (double dof : {30.0, 31.5, 47.25, 100.0, 1e3, 1e4, 1e5}) {
     for (double u : {0.0, 0.3, -1.7, 4.0, 25.0}) {
       const double ref = static_cast<double>(ReferenceTLogPdf(u, dof));
-      EXPECT_NEAR(StudentTLogDensity(u, dof), ref, 1e-13 * (1.0 + std::fabs(ref))) << dof << " " << u;
+      EXPECT_NEAR(StudentTLogDensity(u, dof), ref, 1e-13 * (1.0 + std::fabs(ref)))
+          << dof << " " << u;
     }
   }
   for (double dof : {1.0, 5.0, 29.9}) {

@@ -1,10 +1,10 @@
 // State capture and restore: continuing after Pack -> Unpack -> Restore is bit-identical to never
 // having stopped; truncated or inconsistent states are rejected and change nothing.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ls/linear_ml.h"
 #include "estimators/ls/recursive_least_squares.h"
@@ -71,14 +71,16 @@ RlsOptions TestOptions(bool extended) {
 }
 
 TEST(RlsStateTest, RestoreThenContinueIsBitIdenticalFixed) {
-  CheckRoundTrip<RecursiveLeastSquares<3>>([] { return RecursiveLeastSquares<3>(TestOptions(false)); }, 3, 31);
+  CheckRoundTrip<RecursiveLeastSquares<3>>(
+      [] { return RecursiveLeastSquares<3>(TestOptions(false)); }, 3, 31);
 }
 TEST(RlsStateTest, RestoreThenContinueIsBitIdenticalDynamic) {
   CheckRoundTrip<RecursiveLeastSquares<Eigen::Dynamic>>(
       [] { return RecursiveLeastSquares<Eigen::Dynamic>(TestOptions(false), 7); }, 7, 32);
 }
 TEST(RlsStateTest, RestoreThenContinueIsBitIdenticalExtended) {
-  CheckRoundTrip<RecursiveLeastSquares<2>>([] { return RecursiveLeastSquares<2>(TestOptions(true)); }, 2, 33);
+  CheckRoundTrip<RecursiveLeastSquares<2>>(
+      [] { return RecursiveLeastSquares<2>(TestOptions(true)); }, 2, 33);
 }
 TEST(RlsStateTest, RestoreThenContinueIsBitIdenticalRuntimeP) {
   CheckRoundTrip<Rls>([] { return Rls(TestOptions(false), 4); }, 4, 34);

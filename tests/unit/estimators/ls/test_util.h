@@ -1,12 +1,11 @@
 // Helpers shared by the ls unit tests: seeded data, batch least squares, relative comparisons.
 #pragma once
 
+#include <Eigen/Dense>
 #include <cmath>
 #include <cstring>
 #include <random>
 #include <vector>
-
-#include <Eigen/Dense>
 
 #include "estimators/core/sample.h"
 #include "estimators/core/state_codec.h"
@@ -42,7 +41,8 @@ inline Sample SampleAt(const Data& d, int i, std::vector<double>* buf, double we
   return s;
 }
 
-// Weighted batch least squares (the reference for the identities) by column-pivoted Householder QR on sqrt(w)-scaled rows.
+// Weighted batch least squares (the reference for the identities) by column-pivoted Householder QR
+// on sqrt(w)-scaled rows.
 inline Eigen::VectorXd BatchLs(const Eigen::MatrixXd& x, const Eigen::VectorXd& y,
                                const Eigen::VectorXd* w = nullptr) {
   Eigen::MatrixXd xs = x;
@@ -53,7 +53,8 @@ inline Eigen::VectorXd BatchLs(const Eigen::MatrixXd& x, const Eigen::VectorXd& 
       ys(i) *= std::sqrt((*w)(i));
     }
   }
-  // Columns equilibrated to unit norm first, so pivoted QR's rank threshold sees the scaled problem.
+  // Columns equilibrated to unit norm first, so pivoted QR's rank threshold sees the scaled
+  // problem.
   const Eigen::VectorXd norms = xs.colwise().norm().transpose();
   for (Eigen::Index j = 0; j < xs.cols(); ++j) xs.col(j) /= norms(j);
   Eigen::VectorXd t = xs.colPivHouseholderQr().solve(ys);
