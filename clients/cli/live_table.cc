@@ -31,9 +31,13 @@ void LiveTable::Absorb(const bayline::v1::Publication& p) {
       estimates_[{p.estimate().channel(), p.estimate().estimator()}] = p.estimate();
       break;
     case bayline::v1::Publication::kAlarm:
-      ++alarms_;
-      last_alarm_[p.alarm().channel()] = p.alarm();
-      alarm_active_[p.alarm().channel()] = p.alarm().state() == "raised";
+      if (p.alarm().state() == "raised") {
+        ++alarms_;
+        alarms_by_channel_[p.alarm().channel()] = {p.alarm(), 0};
+      } else if (auto it = alarms_by_channel_.find(p.alarm().channel());
+                 it != alarms_by_channel_.end()) {
+        it->second.cleared_seq = p.alarm().seq();
+      }
       break;
     case bayline::v1::Publication::kInputError:
       ++input_errors_;
@@ -70,17 +74,20 @@ std::vector<std::string> LiveTable::Render(const std::string& title, int width, 
       row.push_back(static_cast<int>(i) < e.names_size() ? FormatParameter(e, static_cast<int>(i))
                                                          : "");
     }
-    auto alarm = last_alarm_.find(key.first);
+    auto alarm = alarms_by_channel_.find(key.first);
     std::string alarm_text;
-    if (first_of_channel && alarm != last_alarm_.end()) {
-      alarm_text = (alarm_active_.at(key.first) ? "! " : "") + FormatAlarm(alarm->second);
+    if (first_of_channel && alarm != alarms_by_channel_.end()) {
+      const AlarmView& view = alarm->second;
+      alarm_text = view.cleared_seq == 0 ? "! " + FormatAlarm(view.raised)
+                                         : FormatAlarm(view.raised) + ", cleared #" +
+                                               std::to_string(view.cleared_seq);
     }
     row.push_back(alarm_text);
     rows.push_back(std::move(row));
   }
   std::vector<std::string> lines = {
       title + "   publications " + std::to_string(publications_) + "   alarms " +
-      std::to_string(alarms_) + "   input errors " + std::to_string(input_errors_)};
+      std::to_string(alarms_) + " raised   input errors " + std::to_string(input_errors_)};
   std::vector<std::string> table = AlignColumns(rows);
   int footer = (last_input_error_.empty() ? 0 : 1) + (last_prediction_.empty() ? 0 : 1);
   int room = std::max(2, height - 2 - footer);

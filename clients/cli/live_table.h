@@ -28,8 +28,11 @@ class LiveTable {
 
  private:
   std::map<std::pair<std::string, std::string>, bayline::v1::Estimate> estimates_;
-  std::map<std::string, bayline::v1::Alarm> last_alarm_;
-  std::map<std::string, bool> alarm_active_;
+  struct AlarmView {
+    bayline::v1::Alarm raised;  // the channel's last raised alarm
+    uint64_t cleared_seq = 0;   // seq where it cleared; 0 while it is active
+  };
+  std::map<std::string, AlarmView> alarms_by_channel_;
   std::string last_input_error_;
   std::string last_prediction_;
   uint64_t publications_ = 0, alarms_ = 0, input_errors_ = 0;

@@ -42,7 +42,7 @@ TEST(LiveTableTest, OneRowPerChannelAndEstimatorWithLatestValuesAndAlarm) {
 
   auto lines = table.Render("title", 200, 40);
   ASSERT_EQ(lines.size(), 5u);  // title, header, 3 rows
-  EXPECT_NE(lines[0].find("publications 5   alarms 1"), std::string::npos) << lines[0];
+  EXPECT_NE(lines[0].find("publications 5   alarms 1 raised"), std::string::npos) << lines[0];
   EXPECT_EQ(lines[1].rfind("CHANNEL", 0), 0u);
   EXPECT_EQ(lines[2].rfind("site/probe1", 0), 0u);
   EXPECT_NE(lines[2].find("reference 1.05 [1.04, 1.06]"), std::string::npos) << lines[2];
@@ -52,6 +52,23 @@ TEST(LiveTableTest, OneRowPerChannelAndEstimatorWithLatestValuesAndAlarm) {
   EXPECT_EQ(lines[4].rfind("site/probe2", 0), 0u);
   // Columns line up: the EST column starts at the same offset in every row.
   EXPECT_EQ(lines[2].find(" ls "), lines[4].find(" ls "));
+}
+
+TEST(LiveTableTest, ClearedAlarmKeepsTheRaiseAndNamesTheClear) {
+  LiveTable table;
+  table.Absorb(EstimateOf("p", "ls", 5, 1.0));
+  bayline::v1::Publication alarm;
+  alarm.mutable_alarm()->set_channel("p");
+  alarm.mutable_alarm()->set_detector("ewma");
+  alarm.mutable_alarm()->set_state("raised");
+  alarm.mutable_alarm()->set_seq(4);
+  table.Absorb(alarm);
+  alarm.mutable_alarm()->set_state("cleared");
+  alarm.mutable_alarm()->set_seq(9);
+  table.Absorb(alarm);
+  auto lines = table.Render("t", 200, 40);
+  EXPECT_NE(lines[2].find("ewma raised #4, cleared #9"), std::string::npos) << lines[2];
+  EXPECT_EQ(lines[2].find("!"), std::string::npos);
 }
 
 TEST(LiveTableTest, CutsToTheTerminalSize) {
