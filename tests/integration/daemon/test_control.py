@@ -102,3 +102,14 @@ def test_malformed_and_empty_requests_get_error_replies(daemons):
     reply = d.request_raw(control_pb2.Request().SerializeToString())
     assert not reply.ok and "empty request" in reply.error
     assert d.stats().frames_received == 0  # still answering
+
+
+def test_periodic_snapshots_follow_snapshot_every_s(daemons, tmp_path):
+    config = tmp_path / "fast.conf"
+    config.write_text("snapshot_every_s: 0.2\n")
+    d = daemons(extra_args=["--config", str(config)]).start()
+    feed(d, per_channel=2)
+    d.wait_stats(lambda st: st.snapshots_written >= 2, "two periodic snapshots")
+    assert d.stop() == 0  # one more at exit; then nothing writes while we look
+    files = sorted(os.listdir(d.state_dir))
+    assert len(files) == 2 and all(f.endswith(".bls") for f in files), files  # older ones pruned
