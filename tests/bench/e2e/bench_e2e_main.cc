@@ -71,6 +71,7 @@ double RawRate(zmq::context_t& ctx, const std::vector<std::string>& frames, size
 struct DaemonRun {
   double obs_per_s = 0;
   uint64_t publications = 0;
+  double cpu_us_per_obs = 0;  // daemon CPU time (all threads) per observation
 };
 
 DaemonRun DaemonRate(zmq::context_t& ctx, const std::string& baylined, const std::string& dir,
@@ -78,12 +79,14 @@ DaemonRun DaemonRate(zmq::context_t& ctx, const std::string& baylined, const std
                      size_t total, uint32_t per_frame) {
   DaemonProcess d(ctx, baylined, dir, {"--config", config});
   Counter sub(ctx, d.publish_endpoint(), zmq::socket_type::sub);
+  const double cpu0 = d.CpuSeconds();
   const int64_t t0 = SteadyNs();
   SendAll(ctx, d.pull_endpoint(), frames, total);
   d.WaitAccepted(uint64_t(total) * per_frame, 300);
   const int64_t t1 = SteadyNs();
   DaemonRun run;
   run.obs_per_s = double(total) * per_frame / (double(t1 - t0) * 1e-9);
+  run.cpu_us_per_obs = (d.CpuSeconds() - cpu0) * 1e6 / (double(total) * per_frame);
   run.publications = d.Stats().publications();
   return run;
 }
@@ -221,14 +224,14 @@ int main(int argc, char** argv) {
     const double raw_batch = RawRate(ctx, batch, sizes.batch_frames, 100);
     const DaemonRun d_batch =
         DaemonRate(ctx, baylined, dir + "/batch", every100, batch, sizes.batch_frames, 100);
-    std::printf("\n%-34s %14s %14s %9s %12s\n", "throughput (estimates every 100th)",
-                "daemon obs/s", "raw zmq obs/s", "fraction", "publications");
-    std::printf("%-34s %14.0f %14.0f %9.3f %12llu\n", "single-observation frames",
+    std::printf("\n%-34s %14s %14s %9s %12s %12s\n", "throughput (estimates every 100th)",
+                "daemon obs/s", "raw zmq obs/s", "fraction", "publications", "cpu us/obs");
+    std::printf("%-34s %14.0f %14.0f %9.3f %12llu %12.2f\n", "single-observation frames",
                 d_single.obs_per_s, raw_single, d_single.obs_per_s / raw_single,
-                static_cast<unsigned long long>(d_single.publications));
-    std::printf("%-34s %14.0f %14.0f %9.3f %12llu\n", "100-observation batch frames",
+                static_cast<unsigned long long>(d_single.publications), d_single.cpu_us_per_obs);
+    std::printf("%-34s %14.0f %14.0f %9.3f %12llu %12.2f\n", "100-observation batch frames",
                 d_batch.obs_per_s, raw_batch, d_batch.obs_per_s / raw_batch,
-                static_cast<unsigned long long>(d_batch.publications));
+                static_cast<unsigned long long>(d_batch.publications), d_batch.cpu_us_per_obs);
     std::fflush(stdout);
 
     const Percentiles raw_lat = RawLatency(ctx, sizes.latency_seconds);

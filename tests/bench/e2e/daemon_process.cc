@@ -111,4 +111,21 @@ uint64_t DaemonProcess::RssBytes() const {
   return 0;
 }
 
+double DaemonProcess::CpuSeconds() const {
+  std::ifstream stat("/proc/" + std::to_string(pid_) + "/stat");
+  std::string content((std::istreambuf_iterator<char>(stat)), std::istreambuf_iterator<char>());
+  // Fields after the parenthesised command name: state is field 3, utime 14, stime 15.
+  std::istringstream fields(content.substr(content.rfind(')') + 2));
+  std::string field;
+  double utime = 0, stime = 0;
+  for (int index = 3; fields >> field; ++index) {
+    if (index == 14) utime = std::stod(field);
+    if (index == 15) {
+      stime = std::stod(field);
+      break;
+    }
+  }
+  return (utime + stime) / double(sysconf(_SC_CLK_TCK));
+}
+
 }  // namespace bayline::bench

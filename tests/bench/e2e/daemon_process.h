@@ -31,6 +31,9 @@ class DaemonProcess {
   bayline::v1::Stats WaitAccepted(uint64_t n, double timeout_s);
   // Resident set size in bytes (/proc/<pid>/status VmRSS).
   uint64_t RssBytes() const;
+  // CPU time (user + system, all threads) the daemon used so far, in seconds (/proc/<pid>/stat):
+  // a cost per observation that does not depend on how busy the rest of the machine is.
+  double CpuSeconds() const;
 
  private:
   zmq::context_t& context_;
