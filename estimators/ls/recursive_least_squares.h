@@ -27,15 +27,20 @@
 //   degrees of freedom; one-step predictions; innovations (core/report.h) and recursive residuals.
 //
 // Windup: with lambda < 1 and regressors that stop exciting a direction, R'R in that direction
-// decays like lambda^t and the covariance blows up. The remedy used here (RlsOptions::windup_floor)
-// is stabilised forgetting anchored at the current estimate: at each forgetting step, one
-// pseudo-row a e_j' with response a theta_j (j = 0, 1, ..., p-1 in rotation) is annihilated into
-// [R z], with a^2 = (1 - lambda) * windup_floor * max(T, windup_floor * T_id); T is the discounted
-// trace of R'R tracked incrementally and T_id its value when the parameters were first identified.
-// Its residual is zero, so theta and S do not move; over p steps it adds about
-// windup_floor * T / p * I to the information, so R'R stays positive definite with condition number
-// bounded by about p / windup_floor, and never decays below windup_floor^2 T_id / p even if the
-// regressors stop altogether. Cost: one partial back substitution and <= p rotations per step.
+// decays like lambda^t and the covariance blows up. The remedy used here (RlsOptions::windup_floor,
+// rho) is stabilised forgetting anchored at the current estimate, one coordinate per step in
+// rotation: at each forgetting step, for j = 0, 1, ..., p-1, 0, ... in turn, if
+//     R_jj^2 < iota = rho * max(T, rho * T_id) / p
+// (R_jj^2 is the information on theta_j given theta_0..theta_{j-1}), a pseudo-row a e_j' with
+// response a theta_j and a^2 = iota - R_jj^2 is annihilated into [R z], which lifts R_jj^2 to iota.
+// T is the discounted trace of R'R (tracked incrementally, so T >= lambda_max(R'R)) and T_id its
+// value when the parameters were first identified. The pseudo-row's residual is zero, so theta and
+// S do not move. Every R_jj^2 then stays above about lambda^p iota, hence
+//     lambda_min(R'R) >= det(R'R) / lambda_max^{p-1} = prod_j R_jj^2 / lambda_max^{p-1} > 0:
+// R'R stays positive definite and bounded (its trace is at most T), even if the regressors stop
+// altogether (iota >= rho^2 T_id / p). While every direction is excited no anchor is applied, so
+// the estimate is the discounted least-squares one and the cost is one comparison; an anchor costs
+// a partial back substitution and <= p - j rotations.
 //
 // Conditioning: ConditionNumber() is the 1-norm condition number of R with its columns scaled to
 // unit norm (rotation-based least squares is invariant to column scaling, so this is the relevant

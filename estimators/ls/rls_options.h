@@ -16,11 +16,11 @@ struct RlsOptions {
   ForgettingOptions forgetting;
 
   // Windup protection, used only while forgetting is active (lambda < 1 for the step) and the
-  // parameters are identified. Each such step adds one pseudo-observation a * e_j (j cycles over
-  // 0..p-1) whose response a * theta_j equals the current estimate, so it never moves theta; it
-  // keeps the information in every direction >= about windup_floor * tr(R'R) / p. In [0, 1); 0
-  // disables. Default 1e-6 bounds the condition number of R'R by about p / 1e-6 in unexcited
-  // directions.
+  // parameters are identified. At each such step one coordinate j (in rotation) is checked, and if
+  // R_jj^2 < windup_floor * T / p (T = discounted trace of R'R) a pseudo-observation a * e_j with
+  // response a * theta_j (the current estimate, so theta never moves) lifts it to that floor. See
+  // recursive_least_squares.h. In [0, 1); 0 disables. Default 1e-6: unexcited directions keep about
+  // 1e-6 of the average information per coordinate.
   double windup_floor = 1e-6;
 
   // Rank test: column j counts as identified once |R_jj| > rank_tolerance * ||R(:, j)||, i.e. once

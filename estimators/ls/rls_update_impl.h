@@ -193,15 +193,16 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
   const double s2_prev = (cur.identified && dof_prev > 0.0) ? rss() / dof_prev : kNaN;
   const bool have_pred = cur.identified && dof_prev > 0.0 && s2_prev > 0.0;
 
-  // Windup anchor amount for this step (see the header).
+  // Windup floor for this step's coordinate j (see the header).
   const bool anchor = forget && cur.identified && options_.windup_floor > 0.0;
   const double trace_forgotten = lambda * cur.trace;
-  double a2 = 0.0;
+  double iota = 0.0;
   if (anchor) {
     const double t_eff = std::max(trace_forgotten, options_.windup_floor * cur.trace_identified);
-    a2 = (1.0 - lambda) * options_.windup_floor * t_eff;
+    iota = options_.windup_floor * t_eff / p;
   }
   const int j = static_cast<int>(cur.anchor);
+  double a2 = 0.0;  // information added by the anchor (set by run; the same on a robust re-run)
 
   // Forgets, anchors and absorbs the row with weight `weight` into the work copy. Returns eta.
   auto run = [&](double weight, double* cprod) __attribute__((always_inline))->Real {
@@ -219,7 +220,9 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
       }
     }
     double unused = 1.0;
-    if (anchor && a2 > 0.0) {
+    const double rjj = w.r(j, j);
+    a2 = (anchor && rjj * rjj < iota) ? iota - rjj * rjj : 0.0;
+    if (a2 > 0.0) {
       // theta_j by back substitution on rows p-1..j of the (scaled) factor.
       for (int i = p - 1; i >= j; --i) {
         Real acc = Get<Real>(w.z, w.z_lo, i, 0);
@@ -318,7 +321,7 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
     state_.previous_time =
         std::isnan(state_.previous_time) ? s.time : std::max(state_.previous_time, s.time);
   }
-  if (anchor && a2 > 0.0) state_.anchor = static_cast<double>((j + 1) % p);
+  if (anchor) state_.anchor = static_cast<double>((j + 1) % p);
   if (!state_.identified && RankTest(state_.r)) {
     state_.identified = true;
     state_.trace_identified = state_.trace;

@@ -37,7 +37,11 @@ long AllocationsDuringUpdates(Est& est, int p, bool with_time) {
   std::vector<std::vector<double>> rows(300);
   for (int i = 0; i < 300; ++i) {
     rows[static_cast<std::size_t>(i)].assign(d.x.row(i).data(), d.x.row(i).data());
-    for (int j = 0; j < p; ++j) rows[static_cast<std::size_t>(i)].push_back(d.x(i, j));
+    for (int j = 0; j < p; ++j) {
+      // The last regressor stops after row 150 so the windup anchor runs too (p > 1).
+      const bool stopped = p > 1 && j == p - 1 && i >= 150;
+      rows[static_cast<std::size_t>(i)].push_back(stopped ? 0.0 : d.x(i, j));
+    }
   }
   std::vector<double> lo(static_cast<std::size_t>(p), 0.0);
   Innovation inn;
