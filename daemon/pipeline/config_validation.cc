@@ -91,7 +91,7 @@ Status ValidateDetector(const DetectorSpec& d, const std::vector<Model>& models,
   }
   const struct { const char* name; double v; } non_negative[] = {
       {"k", d.k()}, {"h", d.h()}, {"limit", d.limit()}, {"threshold", d.threshold()},
-      {"delta", d.delta()}, {"band_low", 0}, {"inflate_on_alarm", d.inflate_on_alarm()}};
+      {"delta", d.delta()}, {"inflate_on_alarm", d.inflate_on_alarm()}};
   for (const auto& f : non_negative) {
     if (!(f.v >= 0 && Finite(f.v))) return Bad(path + "." + f.name, "must be finite and >= 0, got " + Num(f.v));
   }

@@ -129,6 +129,7 @@ class Pipeline {
   // naming the channel and changes nothing. Channels of other partitions are skipped. A channel
   // whose spec digest no longer matches its rule (or that no rule matches any more) is not
   // restored: it restarts from its rule, and its name is appended to *reset_channels (if given).
+  // A restored channel replaces a channel of the same name already held.
   bayline::est::Status RestoreChannels(const bayline::v1::Snapshot& in,
                                        std::vector<std::string>* reset_channels);
   bayline::est::Status RestoreChannels(const bayline::v1::Snapshot& in);
