@@ -2,6 +2,8 @@
 // domain), streamed one observation at a time. Scores are NIST's LRE, capped at 15 digits.
 #include <gtest/gtest.h>
 
+#include <ostream>
+
 #include "tests/reference/ls/nist_lls.h"
 
 namespace bayline::est::nist {
@@ -11,6 +13,10 @@ struct Expect {
   const char* name;
   double min_lre;  // double mode, coefficients and nonzero certified sds
 };
+
+void PrintTo(const Expect& e, std::ostream* os) {
+  *os << e.name << " (LRE >= " << e.min_lre << ")";
+}
 
 // Thresholds for the default (double) mode; source of the certified values: NIST StRD.
 const Expect kDouble[] = {
