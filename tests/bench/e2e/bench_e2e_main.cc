@@ -152,8 +152,14 @@ Percentiles DaemonLatency(zmq::context_t& ctx, const std::string& baylined, cons
   });
   // The subscription needs a moment to reach the PUB socket; the first paced observations may be
   // missed (they are simply not sampled).
+  const double cpu0 = d.CpuSeconds();
+  const int64_t t0 = SteadyNs();
   SendPaced(ctx, d.pull_endpoint(), 50000, seconds, false);
+  const double send_s = double(SteadyNs() - t0) * 1e-9;
   d.WaitAccepted(kChannels + uint64_t(50000 * seconds), 60);
+  const double accept_s = double(SteadyNs() - t0) * 1e-9;
+  std::printf("  (latency run: sent in %.2f s, all accepted after %.2f s, daemon cpu %.2f us/obs)\n",
+              send_s, accept_s, (d.CpuSeconds() - cpu0) * 1e6 / (50000 * seconds));
   const int64_t wait_end = SteadyNs() + 200'000'000;  // let the last publications arrive
   while (SteadyNs() < wait_end) std::this_thread::sleep_for(std::chrono::milliseconds(10));
   done = true;
