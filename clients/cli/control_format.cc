@@ -1,6 +1,7 @@
 #include "clients/cli/control_format.h"
 
 #include <algorithm>
+#include <cstdio>
 #include <vector>
 
 #include "clients/cli/text_format.h"
@@ -14,7 +15,12 @@ std::string Join(const std::vector<std::string>& lines) {
   return out;
 }
 
-std::string SignedNumber(double v) { return (v > 0 ? "+" : "") + FormatNumber(v); }
+// Shift estimates are rough: three significant digits say all they can.
+std::string SignedNumber(double v) {
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%+.3g", v);
+  return buffer;
+}
 
 }  // namespace
 

@@ -154,8 +154,12 @@ def plot_channel(records, channel, output, y_label=None, x_label=None, units=Non
     # the trajectory stays readable (the early band is clipped, not hidden).
     for name, bounds in settled.items():
         if bounds:
-            low = min(b[0] for b in bounds)
-            high = max(b[1] for b in bounds)
+            # 1st and 99th percentiles, so a brief excursion (e.g. right after an alarm, while the
+            # estimator re-converges) does not flatten the rest.
+            lows = sorted(b[0] for b in bounds)
+            highs = sorted(b[1] for b in bounds)
+            low = lows[len(lows) // 100]
+            high = highs[-1 - len(highs) // 100]
             pad = 0.15 * (high - low) or 0.1 * max(abs(high), 1.0)
             panel_of[name].set_ylim(low - pad, high + pad)
 
@@ -216,6 +220,9 @@ def main(argv=None):
     try:
         records = load_jsonl(args.input)
         observations = read_observations(args.observations, args.channel) if args.observations else None
+        if args.observations and not observations:
+            print(f"bayline plot: warning: no observations of {args.channel} in "
+                  f"{args.observations} (columns channel, y and seq expected)", file=sys.stderr)
         plot_channel(records, args.channel, args.output, args.y_label, args.x_label, args.units,
                      args.title, args.x_axis, observations)
     except (OSError, ValueError) as e:
