@@ -136,7 +136,9 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
     // Q here is Q* (V = 1); the predictive is Student-t with scale^2 = (bV / aV) Q*.
     const double nu = 2 * v_shape, scale = std::sqrt(v_scale / v_shape * Q), t = e / scale;
     inn.predictive_sd = nu > 2 ? scale * std::sqrt(nu / (nu - 2)) : map_internal::kInf;
-    inn.standardized = map_internal::StudentTNormalScore(t, nu);
+    // The normal score costs an incomplete beta and a normal quantile; only a caller that asked
+    // for the innovation reads it.
+    if (out) inn.standardized = map_internal::StudentTNormalScore(t, nu);
     inn.log_predictive = dist::StudentTLogPdf(t, nu) - std::log(scale);
     v_shape += 0.5;
     v_scale += 0.5 * e * e / Q;
@@ -147,7 +149,7 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
         -0.5 * std::log(2 * std::numbers::pi * Q) - 0.5 * inn.standardized * inn.standardized;
   }
   const double ll = state_.log_likelihood + inn.log_predictive;
-  if (!std::isfinite(ll) || !std::isfinite(inn.standardized) || !std::isfinite(v_scale)) {
+  if (!std::isfinite(ll) || (out && !std::isfinite(inn.standardized)) || !std::isfinite(v_scale)) {
     return map_internal::Numerical("log-likelihood not finite");
   }
 

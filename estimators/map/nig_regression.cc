@@ -141,9 +141,11 @@ Status NigRegression<P>::Update(const Sample& s, Innovation* out) {
     inn.prediction = f;
     inn.residual = s.y - f;
     inn.predictive_sd = nu > 2 ? scale * std::sqrt(nu / (nu - 2)) : kInf;
-    inn.standardized = map_internal::StudentTNormalScore(t, nu);
+    // The normal score costs an incomplete beta and a normal quantile; only a caller that asked
+    // for the innovation reads it.
+    if (out) inn.standardized = map_internal::StudentTNormalScore(t, nu);
     inn.log_predictive = dist::StudentTLogPdf(t, nu) - std::log(scale);
-    if (!std::isfinite(inn.log_predictive) || !std::isfinite(inn.standardized)) {
+    if (!std::isfinite(inn.log_predictive) || (out && !std::isfinite(inn.standardized))) {
       return map_internal::Numerical("predictive density not finite");
     }
   }
