@@ -1,5 +1,6 @@
 #include "estimators/core/distributions.h"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <numbers>
@@ -34,13 +35,28 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, double x, double 
   auto g = [&](double v) { return upper ? target - sf(v) : cdf(v) - target; };
   double a = lo, b = hi;
   if (!(x > a && x < b)) x = std::isfinite(a) && std::isfinite(b) ? 0.5 * (a + b) : (std::isfinite(a) ? a + 1.0 : (std::isfinite(b) ? b - 1.0 : 0.0));
+  // Stopping: Newton converges quadratically, leaving an error of about C step^2 after a step (C =
+  // |x f' / 2f| relative, a few hundred at most here), so a Newton step below kNewtonDone x ends the
+  // search. Near the root the step is ruled by the rounding noise of F itself (up to ~1e-11 in p for
+  // the incomplete beta at large parameters) and may point out of the bracket that same noise set;
+  // after a Newton step below kNoiseFloor x that means x is as good as F allows, where bisecting on
+  // would only move x around within the noise (it used to cost a dozen extra evaluations).
+  constexpr double kNewtonDone = 1e-10, kNoiseFloor = 1e-8;
+  double last_newton = kInf;  // relative size of the last Newton step, kInf after a bisection
   for (int i = 0; i < 400; ++i) {
     const double gx = g(x);
     if (gx == 0.0) return x;
     if (gx < 0.0) a = x; else b = x;
     const double density = std::exp(log_pdf(x));
     double next = x - gx / density;
-    if (!(density > 0.0) || !std::isfinite(next) || next <= a || next >= b) {
+    if (density > 0.0 && std::isfinite(next) && next > a && next < b) {
+      // Relative to the distance from the nearer end of the support too: near a finite end (a
+      // beta quantile close to 1) the precision that matters is that of the distance to it.
+      last_newton = std::fabs(next - x) / std::min({std::fabs(next), next - lo, hi - next});
+      if (last_newton <= kNewtonDone) return next;
+    } else {
+      if (last_newton <= kNoiseFloor) return x;
+      last_newton = kInf;
       if (std::isfinite(a) && std::isfinite(b)) {
         next = 0.5 * (a + b);
       } else if (std::isfinite(a)) {  // root above x, upper end open
