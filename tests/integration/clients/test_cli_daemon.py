@@ -209,3 +209,36 @@ def test_send_over_pub_to_a_subscribing_daemon(tmp_path, start_daemon):
     assert "sent 30 observations" in r.stderr
     daemon.wait_accepted(30)
     assert int(list_json(daemon)["compressor"]["accepted"]) == 30
+
+
+def test_reload_applies_a_changed_config_and_refuses_a_broken_one(tmp_path, start_daemon):
+    daemon = start_daemon(PROBE_CONFIG)
+    data = write_probe_csv(tmp_path / "probes.csv", rows=20, gain=1.0, offset=0.0)
+    run_cli(*probe_send_args(daemon, data), check=True)
+    daemon.wait_accepted(40)
+    assert list_json(daemon)["cold/probe1"]["rule"] == "probes"
+
+    # A changed spec for the probes rule: the daemon resets the channels it governs.
+    with open(daemon.config_path, "w") as f:
+        f.write(PROBE_CONFIG.replace("arl0: 500", "arl0: 800"))
+    r = run_cli("reload", "--control", daemon.control_endpoint, check=True)
+    assert r.returncode == 0 and r.stdout.strip()
+    assert "cold/probe1" not in list_json(daemon)
+
+    # A broken file is refused with an error naming it; the daemon keeps its configuration.
+    with open(daemon.config_path, "w") as f:
+        f.write("rules { match: \"**\" spec { model: \"no_such_model\" } }\n")
+    r = run_cli("reload", "--control", daemon.control_endpoint)
+    assert r.returncode == 1 and "model" in r.stderr
+    run_cli(*probe_send_args(daemon, data), check=True)
+    daemon.wait_accepted(80)
+    assert list_json(daemon)["cold/probe1"]["rule"] == "probes"
+
+
+def test_send_at_a_limited_rate_delivers_every_observation(tmp_path, start_daemon):
+    daemon = start_daemon(PROBE_CONFIG)
+    data = write_probe_csv(tmp_path / "probes.csv", rows=25, gain=1.0, offset=0.0)
+    r = run_cli(*probe_send_args(daemon, data), "--rate", "2000", "--batch", "4", check=True)
+    assert "sent 50 observations" in r.stderr
+    daemon.wait_accepted(50)
+    assert int(list_json(daemon)["cold/probe2"]["accepted"]) == 25
