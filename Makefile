@@ -35,7 +35,7 @@ bench: build
 	@for b in $(BUILD)/tests/bench/*/bayline_bench_*; do [ -x "$$b" ] && "$$b" --benchmark_min_time=0.2; done; true
 
 demo: build
-	@[ -x clients/demo/run_demo.sh ] && clients/demo/run_demo.sh $(BUILD) || echo "demo: not built yet"
+	clients/demo/run_demo.sh $(BUILD)
 
 clean:
 	rm -rf $(BUILD)
