@@ -126,6 +126,9 @@ def test_student_t_matches_scipy_stats():
     check_quantiles([("t_ppf", [p, dof], stats.t(dof), mp_t(dof)) for dof in [1, 2, 3.5, 10, 57, 1000] for p in PS])
     # dof 1e6: the incomplete beta continued fraction near its crossover leaves about 4e-11 in p
     check_quantiles([("t_ppf", [p, 1e6], stats.t(1e6), mp_t(1e6)) for p in PS], rtol_p=1e-10)
+    # ages of old channels, where the quantile solver stops once F's own rounding rules the Newton
+    # step; the continued fraction leaves up to 4e-12 in p at dof 1e5
+    check_quantiles([("t_ppf", [p, dof], stats.t(dof), mp_t(dof)) for dof in [1e4, 1e5] for p in PS], rtol_p=1e-11)
     cases = []
     for dof in [1, 2, 3.5, 10, 57, 1000, 1e6]:
         for t in [-50, -3, -0.1, 0, 0.7, 2, 12]:
@@ -138,6 +141,8 @@ def test_gamma_and_chi_squared_match_scipy_stats():
     shapes, rates = [0.05, 0.5, 1, 2.5, 40, 1e4, 1e6], [0.01, 1, 250]
     check_quantiles([("gamma_ppf", [p, a, r], stats.gamma(a, scale=1 / r), mp_gamma(a, r)) for a in shapes for r in rates for p in PS])
     check_quantiles([("chi2_ppf", [p, k], stats.chi2(k), mp_gamma(k / 2, 0.5)) for k in [1, 3, 10, 200] for p in PS])
+    # shapes of old channels' variance posteriors, below the Wilson-Hilferty switch at 1e7
+    check_quantiles([("gamma_ppf", [p, a, 1.0], stats.gamma(a), mp_gamma(a, 1.0)) for a in [1e3 + 0.5, 1e5] for p in PS])
     cases = []
     for shape in shapes:
         for rate in rates:
