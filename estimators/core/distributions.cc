@@ -107,6 +107,20 @@ double NormalQuantile(double p) {
   return p < 0.5 ? x : -x;
 }
 
+double NormalLowerQuantileFrom(double q, double x) {
+  if (!(q > 0.0 && q <= 0.5) || !(x <= 0.0) || !std::isfinite(x)) return NormalQuantile(q);
+  for (int i = 0; i < 4; ++i) {
+    const double density = std::exp(NormalLogPdf(x));
+    if (!(density > 0.0)) break;
+    const double u = (NormalCdf(x) - q) / density;
+    const double step = u / (1.0 + 0.5 * x * u);
+    x -= step;
+    // Halley's error after a step is ~K step^3 with K = x^2 / 12 + 1/6 (up to ~120 for q >= 1e-300).
+    if (std::fabs(step) <= 1e-7 * std::min(1.0, std::fabs(x))) break;
+  }
+  return x;
+}
+
 double StudentTLogPdf(double t, double dof) {
   if (!(dof > 0)) return kNaN;
   if (dof > kStudentTNormalDof) return NormalLogPdf(t);

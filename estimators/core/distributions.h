@@ -12,6 +12,10 @@ double NormalLogPdf(double x, double mean = 0.0, double sd = 1.0);
 double NormalCdf(double z);          // standard normal
 double NormalSf(double z);           // 1 - NormalCdf(z), accurate in the upper tail
 double NormalQuantile(double p);     // standard normal
+// Phi^{-1}(q) for a lower tail 0 < q <= 1/2 from a caller's start x0 <= 0 near it (say within 1e-3
+// relative): the Halley steps of NormalQuantile, ending after the first step below 1e-7 min(1, |x|)
+// (cubic convergence leaves < 1e-19 after it), so one step when x0 is that good; at most four.
+double NormalLowerQuantileFrom(double q, double x0);
 
 double StudentTLogPdf(double t, double dof);
 double StudentTCdf(double t, double dof);

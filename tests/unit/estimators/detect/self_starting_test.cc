@@ -98,6 +98,18 @@ TEST(ChartsSelfStartingTest, TailsKeepPrecisionAndSymmetry) {
   EXPECT_TRUE(std::isnan(StudentTToNormal(1.0, 0.0)));
 }
 
+// At dof >= 1e4 the normal quantile starts from the large-dof approximation and may take a single
+// Halley step; it must agree with the generic NormalQuantile of the same tail to rounding (near z = 0
+// that is absolute: the tail 1/2 - O(z) holds z only to ~ulp(1/2) / phi(0) = 3e-16).
+TEST(ChartsSelfStartingTest, LargeDofStartAgreesWithGenericNormalQuantile) {
+  for (double dof : {1e4, 3.3e4, 1e5, 1e6, 1e7}) {
+    for (double t : {1e-6, 0.01, 0.3, 1.0, 1.9, 4.0, 9.0, 20.0, 37.0}) {
+      const double generic = -dist::NormalQuantile(dist::StudentTCdf(-t, dof));
+      EXPECT_NEAR(StudentTToNormal(t, dof), generic, 4e-15 * generic + 4e-16) << "t " << t << " dof " << dof;
+    }
+  }
+}
+
 TEST(ChartsSelfStartingTest, RejectsNonFiniteAndKeepsState) {
   SelfStartingStandardizer s;
   double z = 0;
