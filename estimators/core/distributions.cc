@@ -123,9 +123,11 @@ double NormalLowerQuantileFrom(double q, double x) {
 
 double StudentTLogPdf(double t, double dof) {
   if (!(dof > 0)) return kNaN;
-  if (dof > kStudentTNormalDof) return NormalLogPdf(t);
-  return special::LogGamma(0.5 * (dof + 1)) - special::LogGamma(0.5 * dof) -
-         0.5 * std::log(dof * std::numbers::pi) - 0.5 * (dof + 1) * std::log1p(t * t / dof);
+  // log Gamma((dof+1)/2) - log Gamma(dof/2) - log sqrt(pi) = -log B(dof/2, 1/2): LogBeta keeps full
+  // precision for large dof, where the difference of two log-gammas would lose it. Exact at any
+  // dof (no normal limit), so log-likelihood sums stay accurate on old channels.
+  return -special::LogBeta(0.5 * dof, 0.5) - 0.5 * std::log(dof) -
+         0.5 * (dof + 1) * std::log1p(t * t / dof);
 }
 
 double StudentTCdf(double t, double dof) {
