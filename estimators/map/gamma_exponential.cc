@@ -58,40 +58,10 @@ Status GammaExponential::Update(const Sample& s, Innovation* out) {
   return Status::Ok();
 }
 
-ParameterReport GammaExponential::Report(double level) const {
-  ParameterReport r;
-  const double a = state_.a, b = state_.b;
-  const bool ok = map_internal::LevelOk(level);
-  r.value = {a >= 1 ? (a - 1) / b : 0.0};
-  r.posterior_mean = {a / b};
-  r.std_error = {std::sqrt(a) / b};
-  r.lower = {ok ? dist::GammaQuantile(0.5 - 0.5 * level, a, b) : kNaN};
-  r.upper = {ok ? dist::GammaQuantile(0.5 + 0.5 * level, a, b) : kNaN};
-  r.level = level;
-  r.identifiable = true;
-  r.effective_n = state_.effective_n;
-  r.log_likelihood = state_.log_marginal;
-  return r;
-}
-
-void GammaExponential::State::Pack(StateWriter& w) const {
-  for (double v : {a, b, effective_n, log_marginal, count, last_time}) w.Put(v);
-}
-
-Status GammaExponential::State::Unpack(StateReader& r) {
-  for (double* v : {&a, &b, &effective_n, &log_marginal, &count, &last_time}) r.Get(*v);
-  return r.status();
-}
+ParameterReport GammaExponential::Report(double level) const { return GammaRateReport(state_, level); }
 
 Status GammaExponential::Restore(const State& s) {
-  if (!(s.a > 0) || !std::isfinite(s.a) || !(s.b > 0) || !std::isfinite(s.b)) {
-    return map_internal::BadState("gamma parameters must be > 0 and finite");
-  }
-  if (Status st =
-          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
-      !st.ok()) {
-    return st;
-  }
+  if (Status st = ValidateGammaRateState(s); !st.ok()) return st;
   state_ = s;
   return Status::Ok();
 }

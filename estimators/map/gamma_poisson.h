@@ -30,6 +30,7 @@
 #include "estimators/core/sample.h"
 #include "estimators/core/state_codec.h"
 #include "estimators/core/status.h"
+#include "estimators/map/gamma_rate_posterior.h"
 
 namespace bayline::est {
 
@@ -42,13 +43,7 @@ class GammaPoisson {
     Status Validate() const;  // ok or kInvalidConfig naming the field
   };
 
-  struct State {
-    double a = 1, b = 1e-3;
-    double effective_n = 0, log_marginal = 0, count = 0;
-    double last_time = kNaN;  // latest time among accepted observations (NaN: none timed)
-    void Pack(StateWriter& w) const;
-    Status Unpack(StateReader& r);  // kInvalidState on a short / long input
-  };
+  using State = GammaRateState;  // Gamma(a, b) posterior of the rate; see gamma_rate_posterior.h
 
   // Precondition: options.Validate().ok() (asserted). Starts at the prior.
   explicit GammaPoisson(const Options& options);
