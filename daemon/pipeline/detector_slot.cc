@@ -11,26 +11,6 @@ namespace {
 using est::ErrorCode;
 using est::Status;
 
-template <typename T>
-T& Get(T& e) { return e; }
-template <typename T>
-T& Get(Boxed<T>& e) { return *e; }
-template <typename T>
-const T& Get(const T& e) { return e; }
-template <typename T>
-const T& Get(const Boxed<T>& e) { return *e; }
-
-template <typename E>
-Status UnpackInto(E& e, std::span<const double> values) {
-  auto state = e.state();
-  est::StateReader reader(values);
-  Status s = state.Unpack(reader);
-  if (!s.ok()) return s;
-  s = reader.status();
-  if (!s.ok()) return s;
-  return e.Restore(state);
-}
-
 Status BadState(const char* why) { return Status::Error(ErrorCode::kInvalidState, why); }
 
 }  // namespace
@@ -112,7 +92,7 @@ Status DetectorSlot::Update(const DetectorSetup& setup, const DetectorInput& in,
   Status s = std::visit(
       [&](auto& slot) -> Status {
         using T = std::decay_t<decltype(slot)>;
-        auto& d = Get(slot);
+        auto& d = Unwrap(slot);
         if constexpr (std::is_same_v<T, est::Cusum> || std::is_same_v<T, est::Ewma> ||
                       std::is_same_v<T, est::PageHinkley> || std::is_same_v<T, Boxed<est::Glr>>) {
           *event = d.Update(z, in.mark);
@@ -197,7 +177,7 @@ void DetectorSlot::Pack(std::vector<double>* out) const {
   }
   EndSection(out, section);
 
-  std::visit([&](const auto& slot) { Get(slot).state().Pack(w); }, impl_);
+  std::visit([&](const auto& slot) { Unwrap(slot).state().Pack(w); }, impl_);
 }
 
 Status DetectorSlot::Unpack(std::span<const double> values) {
@@ -230,7 +210,7 @@ Status DetectorSlot::Unpack(std::span<const double> values) {
   if (!s.ok()) return s;
 
   Impl impl = impl_;
-  s = std::visit([&](auto& slot) { return UnpackInto(Get(slot), values.subspan(pos)); }, impl);
+  s = std::visit([&](auto& slot) { return UnpackInto(Unwrap(slot), values.subspan(pos)); }, impl);
   if (!s.ok()) return s;
 
   impl_ = std::move(impl);

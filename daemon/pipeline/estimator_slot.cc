@@ -6,6 +6,8 @@
 #include <utility>
 #include <type_traits>
 
+#include "daemon/pipeline/packing.h"
+
 #include "estimators/core/distributions.h"
 
 namespace bayline::pipeline {
@@ -53,28 +55,6 @@ EstimatorSlot::Impl MakeImpl(const ResolvedSpec& s, EstimatorKind kind) {
       return Impl(Boxed<est::PoissonRegressionMl>(est::PoissonRegressionMl(s.glm)));
   }
   return Impl(std::in_place_type<est::GaussianMl>, s.ml);
-}
-
-template <typename T>
-T& Get(T& e) { return e; }
-template <typename T>
-T& Get(Boxed<T>& e) { return *e; }
-template <typename T>
-const T& Get(const T& e) { return e; }
-template <typename T>
-const T& Get(const Boxed<T>& e) { return *e; }
-
-// Unpacks into a copy of the current state (so dynamically sized members have their size), then
-// Restore validates and replaces.
-template <typename E>
-Status UnpackInto(E& e, std::span<const double> values) {
-  auto state = e.state();
-  est::StateReader reader(values);
-  Status s = state.Unpack(reader);
-  if (!s.ok()) return s;
-  s = reader.status();
-  if (!s.ok()) return s;
-  return e.Restore(state);
 }
 
 // Chi-square quantiles for the residual-variance interval, cached per thread by (dof, level):
@@ -182,7 +162,7 @@ Status EstimatorSlot::Update(const est::Sample& sample, est::Innovation* innovat
   return std::visit(
       [&](auto& slot) -> Status {
         using T = std::decay_t<decltype(slot)>;
-        auto& e = Get(slot);
+        auto& e = Unwrap(slot);
         if constexpr (std::is_same_v<T, GaussianLs>) {
           est::Sample with_intercept = sample;
           with_intercept.x = kOne;
@@ -200,7 +180,7 @@ est::ParameterReport EstimatorSlot::Report(double level) const {
   return std::visit(
       [&](const auto& slot) {
         using T = std::decay_t<decltype(slot)>;
-        est::ParameterReport r = Get(slot).Report(level);
+        est::ParameterReport r = Unwrap(slot).Report(level);
         if constexpr (std::is_same_v<T, GaussianLs>) AppendResidualVariance(slot, level, &r);
         return r;
       },
@@ -259,14 +239,14 @@ Status EstimatorSlot::Inflate(double factor) {
 
 void EstimatorSlot::Pack(std::vector<double>* out) const {
   est::StateWriter w(out);
-  std::visit([&](const auto& slot) { Get(slot).state().Pack(w); }, impl_);
+  std::visit([&](const auto& slot) { Unwrap(slot).state().Pack(w); }, impl_);
 }
 
 Status EstimatorSlot::Unpack(std::span<const double> values) {
   // Work on a copy so that a state that passes Unpack but not Restore leaves *this untouched
   // (Restore already promises that; the copy keeps the promise independent of each family).
   Impl copy = impl_;
-  Status s = std::visit([&](auto& slot) { return UnpackInto(Get(slot), values); }, copy);
+  Status s = std::visit([&](auto& slot) { return UnpackInto(Unwrap(slot), values); }, copy);
   if (s.ok()) impl_ = std::move(copy);
   return s;
 }

@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "estimators/core/state_codec.h"
+#include "estimators/core/status.h"
 
 namespace bayline::pipeline {
 
@@ -47,6 +48,20 @@ inline bool NextSection(std::span<const double> values, std::size_t* pos,
   *section = values.subspan(*pos + 1, static_cast<std::size_t>(n));
   *pos += 1 + static_cast<std::size_t>(n);
   return true;
+}
+
+// Restores an estimator or detector from one packed section: unpacks into a copy of its current
+// state (so dynamically sized members have their size), requires the section to be consumed
+// exactly, then lets Restore validate and replace. On any error `e` is unchanged.
+template <typename E>
+est::Status UnpackInto(E& e, std::span<const double> values) {
+  auto state = e.state();
+  est::StateReader reader(values);
+  est::Status s = state.Unpack(reader);
+  if (!s.ok()) return s;
+  s = reader.status();
+  if (!s.ok()) return s;
+  return e.Restore(state);
 }
 
 }  // namespace bayline::pipeline
