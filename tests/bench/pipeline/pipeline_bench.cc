@@ -1,8 +1,9 @@
 // Pipeline throughput and footprint.
 //
-// BM_ProcessGaussian/<channels>: ns per Pipeline::Process() call for gaussian channels with the
-// default rule (ls + ml + map + a self-starting CUSUM), publishing every 100th observation of each
-// channel into a sink that only counts. Before timing, channel i has seen 1 + i % 100 observations,
+// BM_ProcessGaussian/channels:C/every_n:N: ns per Pipeline::Process() call for gaussian channels
+// with the default rule (ls + ml + map + a self-starting CUSUM), publishing every Nth observation of
+// each channel (three estimates) into a sink that only counts; N = 1 is the latency scenario's
+// load, N = 100 the throughput scenarios'. Before timing, channel i has seen 1 + i % 100 observations,
 // so publications happen at the steady rate (1 call in 100) at every channel count. Channels are visited with a large prime stride, so at 1e6
 // channels nearly every call misses the cache, as in a fleet where observations interleave. The
 // observation message is reused (as the daemon reuses its parsed frames); seq is 0 (the pipeline
@@ -60,13 +61,13 @@ long ResidentBytes() {
 
 // One populated pipeline, kept across benchmark repetitions for the same channel count.
 struct Fleet {
-  explicit Fleet(std::size_t n) {
+  Fleet(std::size_t n, int every_n) : every(every_n) {
     names.reserve(n);
     for (std::size_t i = 0; i < n; ++i) {
       names.push_back("coldstore/site" + std::to_string(i % 97) + "/probe" + std::to_string(i));
     }
     auto config = DefaultConfig();
-    config.mutable_rules(0)->mutable_spec()->mutable_publish()->set_every_n(100);
+    config.mutable_rules(0)->mutable_spec()->mutable_publish()->set_every_n(static_cast<uint32_t>(every_n));
     const long before = ResidentBytes();
     pipeline = std::make_unique<Pipeline>(config);
     bayline::v1::Observation obs;
@@ -93,20 +94,21 @@ struct Fleet {
   CountingSink sink;
   int64_t time_ns = 1'700'000'000'000'000'000;
   double bytes_per_channel = 0;
+  int every = 100;
 };
 
-Fleet& FleetOf(std::size_t n) {
+Fleet& FleetOf(std::size_t n, int every_n) {
   static std::unique_ptr<Fleet> fleet;
-  if (!fleet || fleet->names.size() != n) {
+  if (!fleet || fleet->names.size() != n || fleet->every != every_n) {
     fleet.reset();  // free the previous one before building the next
-    fleet = std::make_unique<Fleet>(n);
+    fleet = std::make_unique<Fleet>(n, every_n);
   }
   return *fleet;
 }
 
 void BM_ProcessGaussian(benchmark::State& state) {
   const auto n = static_cast<std::size_t>(state.range(0));
-  Fleet& fleet = FleetOf(n);
+  Fleet& fleet = FleetOf(n, static_cast<int>(state.range(1)));
   bayline::v1::Observation obs;
   std::size_t index = 0;
   constexpr std::size_t kStride = 1'000'003;  // prime: visits every channel, in cache-hostile order
@@ -125,7 +127,13 @@ void BM_ProcessGaussian(benchmark::State& state) {
   state.counters["channels"] = static_cast<double>(fleet.pipeline->counters().channels);
   state.counters["rejected"] = static_cast<double>(fleet.pipeline->counters().rejected_total);
 }
-BENCHMARK(BM_ProcessGaussian)->Arg(1)->Arg(10'000)->Arg(1'000'000)->Unit(benchmark::kNanosecond);
+BENCHMARK(BM_ProcessGaussian)
+    ->ArgNames({"channels", "every_n"})
+    ->Args({1, 100})
+    ->Args({10'000, 100})
+    ->Args({1'000'000, 100})
+    ->Args({10'000, 1})
+    ->Unit(benchmark::kNanosecond);
 
 }  // namespace
 }  // namespace bayline::pipeline
