@@ -9,7 +9,9 @@
 //            and the raw one-hop (PUSH -> PULL) latency at the same pace
 //   memory   1,000,000 channels, one observation each: daemon RSS growth per channel
 // Everything is bounded in count and time and runs on loopback. Flags: --quick (smaller counts,
-// for a smoke run); other arguments (e.g. make bench's --benchmark_min_time) are ignored.
+// for a smoke run); --only=single|batch|latency|memory (one scenario, e.g. under perf);
+// --baylined=PATH (measure another build of the daemon); other arguments (e.g. make bench's
+// --benchmark_min_time) are ignored.
 #include <signal.h>
 #include <unistd.h>
 
@@ -106,7 +108,8 @@ void SendPaced(zmq::context_t& ctx, const std::string& endpoint, double rate, do
   const size_t total = size_t(rate * seconds);
   const auto start = std::chrono::steady_clock::now();
   for (size_t i = 0; i < total; ++i) {
-    std::this_thread::sleep_until(start + std::chrono::nanoseconds(int64_t(double(i) * 1e9 / rate)));
+    std::this_thread::sleep_until(start +
+                                  std::chrono::nanoseconds(int64_t(double(i) * 1e9 / rate)));
     auto* o = frame.mutable_observation();
     o->set_channel(ChannelName(uint32_t(i % kChannels)));
     o->set_y(y(rng));
@@ -158,8 +161,9 @@ Percentiles DaemonLatency(zmq::context_t& ctx, const std::string& baylined, cons
   const double send_s = double(SteadyNs() - t0) * 1e-9;
   d.WaitAccepted(kChannels + uint64_t(50000 * seconds), 60);
   const double accept_s = double(SteadyNs() - t0) * 1e-9;
-  std::printf("  (latency run: sent in %.2f s, all accepted after %.2f s, daemon cpu %.2f us/obs)\n",
-              send_s, accept_s, (d.CpuSeconds() - cpu0) * 1e6 / (50000 * seconds));
+  std::printf(
+      "  (latency run: sent in %.2f s, all accepted after %.2f s, daemon cpu %.2f us/obs)\n",
+      send_s, accept_s, (d.CpuSeconds() - cpu0) * 1e6 / (50000 * seconds));
   const int64_t wait_end = SteadyNs() + 200'000'000;  // let the last publications arrive
   while (SteadyNs() < wait_end) std::this_thread::sleep_for(std::chrono::milliseconds(10));
   done = true;
@@ -208,12 +212,15 @@ double MemoryPerChannel(zmq::context_t& ctx, const std::string& baylined, const 
 int main(int argc, char** argv) {
   using namespace bayline::bench;
   Sizes sizes;
+  std::string baylined = BAYLINED_PATH;  // --baylined=PATH: another build, for comparisons
+  std::string only;  // --only single|batch|latency|memory: one scenario (for profiling)
   for (int i = 1; i < argc; ++i) {
-    if (std::string(argv[i]) == "--quick") {
-      sizes = {200'000, 6'000, 1, 100'000};
-    }
+    const std::string arg = argv[i];
+    if (arg == "--quick") sizes = {200'000, 6'000, 1, 100'000};
+    if (arg.rfind("--only=", 0) == 0) only = arg.substr(7);
+    if (arg.rfind("--baylined=", 0) == 0) baylined = arg.substr(11);
   }
-  const std::string baylined = BAYLINED_PATH;
+  const auto run = [&only](const char* scenario) { return only.empty() || only == scenario; };
   char pattern[] = "/tmp/bayline-bench-e2e-XXXXXX";
   const std::string dir = mkdtemp(pattern);
   const std::string every100 = WriteConfig(dir, "every100.conf", 100);
@@ -222,41 +229,51 @@ int main(int argc, char** argv) {
   std::printf("bayline_bench_e2e: baylined over tcp loopback, %u channels, %u cores\n", kChannels,
               std::thread::hardware_concurrency());
   try {
-    const auto single = MakeFrames(kChannels, 200'000, 0, 1);
-    const double raw_single = RawRate(ctx, single, sizes.single_frames, 1);
-    const DaemonRun d_single =
-        DaemonRate(ctx, baylined, dir + "/single", every100, single, sizes.single_frames, 1);
-    const auto batch = MakeFrames(kChannels, 2'000, 100, 2);
-    const double raw_batch = RawRate(ctx, batch, sizes.batch_frames, 100);
-    const DaemonRun d_batch =
-        DaemonRate(ctx, baylined, dir + "/batch", every100, batch, sizes.batch_frames, 100);
-    std::printf("\n%-34s %14s %14s %9s %12s %12s\n", "throughput (estimates every 100th)",
-                "daemon obs/s", "raw zmq obs/s", "fraction", "publications", "cpu us/obs");
-    std::printf("%-34s %14.0f %14.0f %9.3f %12llu %12.2f\n", "single-observation frames",
-                d_single.obs_per_s, raw_single, d_single.obs_per_s / raw_single,
-                static_cast<unsigned long long>(d_single.publications), d_single.cpu_us_per_obs);
-    std::printf("%-34s %14.0f %14.0f %9.3f %12llu %12.2f\n", "100-observation batch frames",
-                d_batch.obs_per_s, raw_batch, d_batch.obs_per_s / raw_batch,
-                static_cast<unsigned long long>(d_batch.publications), d_batch.cpu_us_per_obs);
-    std::fflush(stdout);
-
-    const Percentiles raw_lat = RawLatency(ctx, sizes.latency_seconds);
-    const Percentiles lat = DaemonLatency(ctx, baylined, dir + "/latency", every1,
-                                          sizes.latency_seconds);
-    std::printf("\n%-34s %10s %10s %10s %10s\n", "latency at 50,000 obs/s (us)", "p50", "p99",
-                "p99.9", "samples");
-    std::printf("%-34s %10.1f %10.1f %10.1f %10zu\n", "send -> publication (baylined)", lat.p50_us,
-                lat.p99_us, lat.p999_us, lat.samples);
-    std::printf("%-34s %10.1f %10.1f %10.1f %10zu\n", "raw one hop (PUSH -> PULL)", raw_lat.p50_us,
-                raw_lat.p99_us, raw_lat.p999_us, raw_lat.samples);
-    std::printf("%-34s %10s %10.1f\n", "p99 above raw", "", lat.p99_us - raw_lat.p99_us);
-    std::fflush(stdout);
-
-    uint64_t rss = 0;
-    const double per_channel =
-        MemoryPerChannel(ctx, baylined, dir + "/memory", every100, sizes.memory_channels, &rss);
-    std::printf("\n%-34s %10u channels, RSS %.1f MiB, %.0f bytes per channel\n", "memory",
-                sizes.memory_channels, double(rss) / (1 << 20), per_channel);
+    const char* row = "%-34s %14.0f %14.0f %9.3f %12llu %12.2f\n";
+    if (run("single") || run("batch")) {
+      std::printf("\n%-34s %14s %14s %9s %12s %12s\n", "throughput (estimates every 100th)",
+                  "daemon obs/s", "raw zmq obs/s", "fraction", "publications", "cpu us/obs");
+    }
+    if (run("single")) {
+      const auto single = MakeFrames(kChannels, 200'000, 0, 1);
+      const double raw_single = RawRate(ctx, single, sizes.single_frames, 1);
+      const DaemonRun d_single =
+          DaemonRate(ctx, baylined, dir + "/single", every100, single, sizes.single_frames, 1);
+      std::printf(row, "single-observation frames", d_single.obs_per_s, raw_single,
+                  d_single.obs_per_s / raw_single,
+                  static_cast<unsigned long long>(d_single.publications), d_single.cpu_us_per_obs);
+      std::fflush(stdout);
+    }
+    if (run("batch")) {
+      const auto batch = MakeFrames(kChannels, 2'000, 100, 2);
+      const double raw_batch = RawRate(ctx, batch, sizes.batch_frames, 100);
+      const DaemonRun d_batch =
+          DaemonRate(ctx, baylined, dir + "/batch", every100, batch, sizes.batch_frames, 100);
+      std::printf(row, "100-observation batch frames", d_batch.obs_per_s, raw_batch,
+                  d_batch.obs_per_s / raw_batch,
+                  static_cast<unsigned long long>(d_batch.publications), d_batch.cpu_us_per_obs);
+      std::fflush(stdout);
+    }
+    if (run("latency")) {
+      const Percentiles raw_lat = RawLatency(ctx, sizes.latency_seconds);
+      const Percentiles lat =
+          DaemonLatency(ctx, baylined, dir + "/latency", every1, sizes.latency_seconds);
+      std::printf("\n%-34s %10s %10s %10s %10s\n", "latency at 50,000 obs/s (us)", "p50", "p99",
+                  "p99.9", "samples");
+      std::printf("%-34s %10.1f %10.1f %10.1f %10zu\n", "send -> publication (baylined)",
+                  lat.p50_us, lat.p99_us, lat.p999_us, lat.samples);
+      std::printf("%-34s %10.1f %10.1f %10.1f %10zu\n", "raw one hop (PUSH -> PULL)",
+                  raw_lat.p50_us, raw_lat.p99_us, raw_lat.p999_us, raw_lat.samples);
+      std::printf("%-34s %10s %10.1f\n", "p99 above raw", "", lat.p99_us - raw_lat.p99_us);
+      std::fflush(stdout);
+    }
+    if (run("memory")) {
+      uint64_t rss = 0;
+      const double per_channel =
+          MemoryPerChannel(ctx, baylined, dir + "/memory", every100, sizes.memory_channels, &rss);
+      std::printf("\n%-34s %10u channels, RSS %.1f MiB, %.0f bytes per channel\n", "memory",
+                  sizes.memory_channels, double(rss) / (1 << 20), per_channel);
+    }
   } catch (const std::exception& e) {
     std::fprintf(stderr, "bayline_bench_e2e: %s\n", e.what());
     std::filesystem::remove_all(dir);
