@@ -28,7 +28,6 @@ Daemon::~Daemon() {
   // Threads end before their sockets and the context go away.
   if (ingest_) ingest_->Stop();
   for (auto& w : workers_) w->Stop();
-  if (publisher_) publisher_->Stop();
 }
 
 void Daemon::ApplyRuntimeSettings() {
@@ -83,8 +82,8 @@ bool Daemon::Start() {
   }
   std::vector<Worker*> raw_workers;
   for (size_t i = 0; i < worker_count; ++i) {
-    workers_.push_back(std::make_unique<Worker>(int(i), std::move(pipelines[i]), context_,
-                                                kPublisherInprocEndpoint, kWorkerQueueCapacity));
+    workers_.push_back(std::make_unique<Worker>(int(i), std::move(pipelines[i]), *publisher_,
+                                                kWorkerQueueCapacity));
     raw_workers.push_back(workers_.back().get());
   }
   ingest_ = std::make_unique<Ingest>(context_, raw_workers, shard_,
@@ -109,7 +108,6 @@ bool Daemon::Start() {
   }
   control_service_ = std::make_unique<ControlService>(workers_, *ingest_, shard_, *this);
 
-  publisher_->Start();
   for (auto& w : workers_) w->Start();
   ingest_->Start();
   std::vector<std::string> pulls(ingest_bound.begin(),
@@ -229,8 +227,7 @@ void Daemon::Shutdown() {
   bayline::v1::SnapshotInfo info;
   std::string error;
   SnapshotNow(&info, &error);  // queued behind every batch: the workers drain first
-  for (auto& w : workers_) w->Stop();
-  publisher_->Stop();
+  for (auto& w : workers_) w->Stop();  // each sends its last publications before it ends
   spdlog::info("stopped");
 }
 

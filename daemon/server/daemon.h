@@ -1,12 +1,13 @@
 // Daemon: assembles and runs baylined.
 //
 // Threads: the supervisor (the thread calling Run: control socket, signals, periodic snapshots,
-// reload), one ingest thread, N worker threads each owning one pipeline partition, one publisher
-// thread owning the PUB socket. Start-up order: signals blocked -> configuration -> state restored
-// into the pipelines -> sockets bound (any failure: exit 1 before a thread starts) -> threads
-// started -> "ready" log line with every resolved endpoint.
+// reload), one ingest thread, N worker threads each owning one pipeline partition and sending its
+// publications on the shared PUB socket (Publisher). Start-up order: signals blocked ->
+// configuration -> state restored into the pipelines -> sockets bound (any failure: exit 1 before
+// a thread starts) -> threads started -> "ready" log line with every resolved endpoint.
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
-// queues, a snapshot is written, the threads end, exit 0.
+// queues and send their last publications, a snapshot is written, the threads end, the PUB socket
+// lingers (up to 1 s) until connected subscribers have them, exit 0.
 #pragma once
 
 #include <zmq.hpp>

@@ -1,10 +1,12 @@
 #include "daemon/server/ingest.h"
 
+#include <pthread.h>
 #include <spdlog/spdlog.h>
 
 #include <chrono>
 
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/server/frame_scan.h"
 #include "daemon/server/routing.h"
 
 namespace bayline::server {
@@ -12,6 +14,11 @@ namespace {
 
 constexpr const char* kStopEndpoint = "inproc://bayline-ingest-stop";
 constexpr int kIngestHighWaterMark = 100000;
+
+// The counters have one writer, the ingest thread: a plain load and store, no locked instruction.
+void Increment(std::atomic<uint64_t>& counter) {
+  counter.store(counter.load(std::memory_order_relaxed) + 1, std::memory_order_relaxed);
+}
 
 int64_t NowNs() {
   return std::chrono::duration_cast<std::chrono::nanoseconds>(
@@ -65,7 +72,12 @@ bool Ingest::Bind(const IngestEndpoints& endpoints, std::vector<std::string>* bo
   return true;
 }
 
-void Ingest::Start() { thread_ = std::thread([this] { Run(); }); }
+void Ingest::Start() {
+  thread_ = std::thread([this] {
+    pthread_setname_np(pthread_self(), "bl-ingest");
+    Run();
+  });
+}
 
 void Ingest::Stop() {
   if (!thread_.joinable()) return;
@@ -104,7 +116,7 @@ bool Ingest::HandleMessage(zmq::socket_t& socket) {
     if (!socket.recv(next, zmq::recv_flags::none)) return false;
     part = std::move(next);
   }
-  frames_received_.fetch_add(1, std::memory_order_relaxed);
+  Increment(frames_received_);
   HandleFrame(part, NowNs());
   return true;
 }
@@ -118,6 +130,13 @@ void Ingest::HandleFrame(const zmq::message_t& frame, int64_t arrival_ns) {
            arrival_ns);
     return;
   }
+  // The usual case: split the frame without decoding it; the workers decode the observations.
+  if (ScanIngestFrame(frame.to_string_view(), &scanned_)) {
+    for (const ScannedObservation& o : scanned_) Route(o.channel, o.bytes, arrival_ns);
+    return;
+  }
+  // Anything else is decoded here by protobuf, which decides whether the frame is valid; its
+  // observations are handed over re-encoded.
   if (!frame_.ParseFromArray(frame.data(), int(frame.size()))) {
     Reject("malformed_frame",
            "frame of " + std::to_string(frame.size()) + " bytes is not a bayline.v1.IngestFrame",
@@ -126,31 +145,34 @@ void Ingest::HandleFrame(const zmq::message_t& frame, int64_t arrival_ns) {
   }
   switch (frame_.payload_case()) {
     case bayline::v1::IngestFrame::kObservation:
-      Route(frame_.mutable_observation(), arrival_ns);
+      RouteDecoded(frame_.observation(), arrival_ns);
       break;
-    case bayline::v1::IngestFrame::kBatch: {
-      auto* observations = frame_.mutable_batch()->mutable_observations();
-      for (int i = 0; i < observations->size(); ++i) Route(observations->Mutable(i), arrival_ns);
+    case bayline::v1::IngestFrame::kBatch:
+      for (const auto& observation : frame_.batch().observations()) {
+        RouteDecoded(observation, arrival_ns);
+      }
       break;
-    }
     default:
       Reject("malformed_frame", "frame holds neither an observation nor a batch", arrival_ns);
   }
 }
 
-void Ingest::Route(bayline::v1::Observation* observation, int64_t arrival_ns) {
-  const uint64_t h = pipeline::ChannelHash(observation->channel());
+void Ingest::RouteDecoded(const bayline::v1::Observation& observation, int64_t arrival_ns) {
+  observation.SerializeToString(&encoded_);
+  Route(observation.channel(), encoded_, arrival_ns);
+}
+
+void Ingest::Route(std::string_view channel, std::string_view observation, int64_t arrival_ns) {
+  const uint64_t h = pipeline::ChannelHash(channel);
   if (!InShard(h, shard_)) {
-    other_shard_.fetch_add(1, std::memory_order_relaxed);
+    Increment(other_shard_);
     return;
   }
   const size_t worker = WorkerOf(h, shard_, workers_.size());
   auto& batch = pending_[worker];
   if (!batch) batch = workers_[worker]->TakeEmptyBatch();
-  // Swap rather than copy: the frame message gets back the batch slot's buffers for reuse.
-  batch->batch.mutable_observations()->Add()->Swap(observation);
-  batch->arrival_ns.push_back(arrival_ns);
-  observations_received_.fetch_add(1, std::memory_order_relaxed);
+  batch->Add(observation, arrival_ns);
+  Increment(observations_received_);
   if (batch->size() >= kMaxBatch) Flush(worker);
 }
 

@@ -1,6 +1,7 @@
 // The ingest thread: receives IngestFrames on PULL (bound) and SUB (connected, subscribed to
-// everything) sockets, decodes them into one reused message, drops channels of other shards, and
-// routes each observation to its worker in per-worker batches.
+// everything) sockets, splits them into observations (frame_scan.h: the observations stay
+// serialized; only their channel names are read), drops channels of other shards, and routes each
+// observation to its worker in per-worker batches; the workers decode them.
 //
 // Frames: a message's last part is the IngestFrame (earlier parts, e.g. a producer's PUB topic,
 // are ignored). A frame over max_frame_bytes is refused as "oversized_frame" without decoding; one
@@ -21,11 +22,13 @@
 #include <atomic>
 #include <memory>
 #include <string>
+#include <string_view>
 #include <thread>
 #include <vector>
 
 #include "bayline/v1/observation.pb.h"
 #include "daemon/server/daemon_options.h"
+#include "daemon/server/frame_scan.h"
 #include "daemon/server/rate_limited_log.h"
 #include "daemon/server/worker.h"
 
@@ -70,7 +73,8 @@ class Ingest {
   // Receives and handles one message if one is waiting; false when none was.
   bool HandleMessage(zmq::socket_t& socket);
   void HandleFrame(const zmq::message_t& frame, int64_t arrival_ns);
-  void Route(bayline::v1::Observation* observation, int64_t arrival_ns);
+  void Route(std::string_view channel, std::string_view observation, int64_t arrival_ns);
+  void RouteDecoded(const bayline::v1::Observation& observation, int64_t arrival_ns);
   void Reject(const char* reason, std::string detail, int64_t arrival_ns);
   void Flush(size_t worker);
   void FlushAll();
@@ -85,7 +89,9 @@ class Ingest {
   std::thread thread_;
 
   // Owned by the ingest thread.
-  bayline::v1::IngestFrame frame_;
+  std::vector<ScannedObservation> scanned_;
+  bayline::v1::IngestFrame frame_;  // frames the scanner leaves to protobuf
+  std::string encoded_;
   std::vector<std::unique_ptr<IngestBatch>> pending_;  // one per worker
   RateLimitedLog log_;
 

@@ -6,9 +6,9 @@ namespace bayline::server {
 
 void ZmqPublicationSink::Publish(const std::string& topic,
                                  const bayline::v1::Publication& publication) {
-  publication.SerializeToString(&buffer_);
-  push_.send(zmq::buffer(topic), zmq::send_flags::sndmore);
-  push_.send(zmq::buffer(buffer_), zmq::send_flags::none);
+  pending_.emplace_back(topic.data(), topic.size());
+  zmq::message_t& body = pending_.emplace_back(publication.ByteSizeLong());
+  publication.SerializeWithCachedSizesToArray(static_cast<uint8_t*>(body.data()));
   if (publication.has_input_error()) {
     const auto& e = publication.input_error();
     if (log_.Allow(e.reason())) {
@@ -16,6 +16,8 @@ void ZmqPublicationSink::Publish(const std::string& topic,
                    e.message());
     }
   }
+  // Alarms leave at once; everything else at the end of the item or when enough have gathered.
+  if (publication.has_alarm() || pending_.size() >= 2 * kMaxPending) Flush();
 }
 
 }  // namespace bayline::server

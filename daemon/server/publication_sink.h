@@ -1,27 +1,38 @@
-// The worker side of publishing: a pipeline::PublicationSink that sends each publication as the
-// two-frame message [topic, serialized Publication] on the worker's inproc PUSH socket (the
-// publisher thread forwards it to the PUB socket). Input errors are also logged, rate-limited per
-// reason. Thread safety: none; owned by one worker thread.
+// The worker side of publishing: a pipeline::PublicationSink that serializes each publication
+// straight into a ZeroMQ message and collects the [topic, Publication] pairs of the work being
+// processed; Flush() hands them to the shared PUB socket (Publisher::Send) in one call. The worker
+// flushes after every item it takes from its queue (a batch of observations, a rejected frame, a
+// control task), before it can block again, and the sink flushes by itself every kMaxPending
+// publications and at once after an alarm. Input errors are also logged, rate-limited per reason.
+// Thread safety: none; owned by one worker thread.
 #pragma once
 
 #include <zmq.hpp>
 
 #include <string>
+#include <vector>
 
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/server/publisher.h"
 #include "daemon/server/rate_limited_log.h"
 
 namespace bayline::server {
 
 class ZmqPublicationSink : public pipeline::PublicationSink {
  public:
-  explicit ZmqPublicationSink(zmq::socket_t& push) : push_(push) {}
+  static constexpr size_t kMaxPending = 256;  // publications
+
+  explicit ZmqPublicationSink(Publisher& publisher) : publisher_(publisher) {
+    pending_.reserve(2 * kMaxPending);
+  }
   void Publish(const std::string& topic, const bayline::v1::Publication& publication) override;
+  // Sends every collected publication now.
+  void Flush() { publisher_.Send(pending_); }
   void FlushLog() { log_.Flush(); }
 
  private:
-  zmq::socket_t& push_;
-  std::string buffer_;  // reused serialization buffer
+  Publisher& publisher_;
+  std::vector<zmq::message_t> pending_;  // topic, publication, topic, publication, ...
   RateLimitedLog log_;
 };
 

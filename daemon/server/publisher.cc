@@ -1,27 +1,12 @@
 #include "daemon/server/publisher.h"
 
-#include <spdlog/spdlog.h>
-
 namespace bayline::server {
-namespace {
-constexpr const char* kStopEndpoint = "inproc://bayline-publisher-stop";
-}
 
-Publisher::Publisher(zmq::context_t& context)
-    : pull_(context, zmq::socket_type::pull),
-      pub_(context, zmq::socket_type::pub),
-      stop_receiver_(context, zmq::socket_type::pair),
-      stop_sender_(context, zmq::socket_type::pair) {}
-
-Publisher::~Publisher() { Stop(); }
+Publisher::Publisher(zmq::context_t& context) : pub_(context, zmq::socket_type::pub) {}
 
 bool Publisher::Bind(const std::string& publish_endpoint, std::string* bound_endpoint,
                      std::string* error) {
   try {
-    pull_.set(zmq::sockopt::rcvhwm, kPublishHighWaterMark);
-    pull_.bind(kPublisherInprocEndpoint);
-    stop_receiver_.bind(kStopEndpoint);
-    stop_sender_.connect(kStopEndpoint);
     pub_.set(zmq::sockopt::sndhwm, kPublishHighWaterMark);
     pub_.set(zmq::sockopt::linger, 1000);
     pub_.bind(publish_endpoint);
@@ -33,42 +18,18 @@ bool Publisher::Bind(const std::string& publish_endpoint, std::string* bound_end
   return true;
 }
 
-void Publisher::Start() { thread_ = std::thread([this] { Run(); }); }
-
-void Publisher::Stop() {
-  if (!thread_.joinable()) return;
-  stop_sender_.send(zmq::str_buffer("stop"), zmq::send_flags::none);
-  thread_.join();
-}
-
-bool Publisher::ForwardOne(zmq::recv_flags flags) {
-  zmq::message_t part;
-  for (;;) {
-    if (!pull_.recv(part, flags)) return false;
-    const bool more = part.more();
-    pub_.send(part, more ? zmq::send_flags::sndmore : zmq::send_flags::none);
-    if (!more) break;
-    flags = zmq::recv_flags::none;  // the rest of a multipart message is already there
-  }
-  forwarded_.fetch_add(1, std::memory_order_relaxed);
-  return true;
-}
-
-void Publisher::Run() {
-  zmq::pollitem_t items[] = {{pull_.handle(), 0, ZMQ_POLLIN, 0},
-                             {stop_receiver_.handle(), 0, ZMQ_POLLIN, 0}};
-  for (;;) {
-    zmq::poll(items, 2, std::chrono::milliseconds(-1));
-    if (items[0].revents & ZMQ_POLLIN) {
-      // Forward a burst before polling again (polling per message costs a system call).
-      for (int i = 0; i < 1024 && ForwardOne(zmq::recv_flags::dontwait); ++i) {
-      }
+void Publisher::Send(std::vector<zmq::message_t>& parts) {
+  if (parts.empty()) return;
+  {
+    std::lock_guard lock(mutex_);
+    // PUB never blocks: at a subscriber's high-water mark it drops that subscriber's copy.
+    for (size_t i = 0; i + 1 < parts.size(); i += 2) {
+      (void)pub_.send(parts[i], zmq::send_flags::sndmore);
+      (void)pub_.send(parts[i + 1], zmq::send_flags::none);
     }
-    if (items[1].revents & ZMQ_POLLIN) break;
   }
-  // Workers have stopped before the publisher: forward what they sent last.
-  while (ForwardOne(zmq::recv_flags::dontwait)) {
-  }
+  sent_.fetch_add(parts.size() / 2, std::memory_order_relaxed);
+  parts.clear();
 }
 
 }  // namespace bayline::server

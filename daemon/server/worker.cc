@@ -1,23 +1,22 @@
 #include "daemon/server/worker.h"
 
+#include <pthread.h>
 
 namespace bayline::server {
 
-Worker::Worker(int index, std::unique_ptr<pipeline::Pipeline> pipeline, zmq::context_t& context,
-               const std::string& publisher_endpoint, size_t queue_capacity)
-    : index_(index),
-      pipeline_(std::move(pipeline)),
-      push_(context, zmq::socket_type::push),
-      sink_(push_),
-      queue_(queue_capacity) {
-  push_.set(zmq::sockopt::sndhwm, 100000);
-  push_.set(zmq::sockopt::linger, 0);
-  push_.connect(publisher_endpoint);
-}
+Worker::Worker(int index, std::unique_ptr<pipeline::Pipeline> pipeline, Publisher& publisher,
+               size_t queue_capacity)
+    : index_(index), pipeline_(std::move(pipeline)), sink_(publisher), queue_(queue_capacity) {}
 
 Worker::~Worker() { Stop(); }
 
-void Worker::Start() { thread_ = std::thread([this] { Run(); }); }
+void Worker::Start() {
+  thread_ = std::thread([this] {
+    const std::string name = "bl-worker-" + std::to_string(index_);
+    pthread_setname_np(pthread_self(), name.c_str());
+    Run();
+  });
+}
 
 void Worker::Stop() {
   if (stopped_) return;
@@ -62,8 +61,7 @@ void Worker::PostFrameRejection(std::string reason, std::string detail, int64_t 
 }
 
 void Worker::Recycle(std::unique_ptr<IngestBatch> batch) {
-  batch->batch.mutable_observations()->Clear();  // keeps the cleared messages for reuse
-  batch->arrival_ns.clear();
+  batch->Clear();
   std::lock_guard lock(free_mutex_);
   free_batches_.push_back(std::move(batch));
 }
@@ -72,9 +70,18 @@ void Worker::Run() {
   for (;;) {
     Item item = queue_.Pop();
     if (item.batch) {
-      const auto& observations = item.batch->batch.observations();
-      for (int i = 0; i < observations.size(); ++i) {
-        pipeline_->Process(observations.Get(i), item.batch->arrival_ns[size_t(i)], sink_);
+      const IngestBatch& batch = *item.batch;
+      for (size_t i = 0; i < batch.size(); ++i) {
+        const std::string_view bytes = batch.At(i);
+        const int64_t arrival_ns = batch.entries[i].arrival_ns;
+        if (observation_.ParseFromArray(bytes.data(), int(bytes.size()))) {
+          pipeline_->Process(observation_, arrival_ns, sink_);
+        } else {  // not expected: ingest hands over only observations that decode
+          pipeline_->RejectFrame("malformed_frame",
+                                 "observation of " + std::to_string(bytes.size()) +
+                                     " bytes is not a bayline.v1.Observation",
+                                 arrival_ns, sink_);
+        }
       }
       Recycle(std::move(item.batch));
     }
@@ -83,6 +90,7 @@ void Worker::Run() {
                              item.rejection->arrival_ns, sink_);
     }
     if (item.task) item.task(*pipeline_);
+    sink_.Flush();  // before the next Pop can block
     if (item.stop) break;
   }
   sink_.FlushLog();

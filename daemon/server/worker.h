@@ -3,13 +3,12 @@
 //   * observation batches from the ingest thread (processed in order, so per-channel order holds);
 //   * tasks from the supervisor thread (control requests, snapshots, reload), run on the worker's
 //     own thread between batches, so nothing touches the pipeline from another thread.
-// Publications leave through the worker's own PUSH socket to the publisher thread.
+// Publications are collected while an item is processed and sent on the shared PUB socket
+// (Publisher) when it is done, before the worker can block again.
 //
 // Lifetime: construct (in the supervisor thread) -> Start() -> ... -> Stop() (drains the queue,
 // then joins). Submit/Call after Stop are programmer errors.
 #pragma once
-
-#include <zmq.hpp>
 
 #include <atomic>
 #include <functional>
@@ -17,32 +16,52 @@
 #include <memory>
 #include <mutex>
 #include <string>
+#include <string_view>
 #include <thread>
 #include <vector>
 
 #include "bayline/v1/observation.pb.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/publication_sink.h"
+#include "daemon/server/publisher.h"
 #include "daemon/server/work_queue.h"
 
 namespace bayline::server {
 
-// Observations bound for one worker, with their arrival times (ns since the epoch). Reused: the
-// worker clears a processed batch and hands it back for the ingest thread to refill, so protobuf
-// keeps the strings and arrays it already allocated.
+// Observations bound for one worker, still serialized (each a bayline.v1.Observation), with
+// their arrival times (ns since the epoch). The worker decodes them, so decoding runs on every
+// worker in parallel rather than on the one ingest thread. Reused: the worker clears a processed
+// batch and hands it back for the ingest thread to refill, keeping its buffers' capacity.
 struct IngestBatch {
-  bayline::v1::ObservationBatch batch;
-  std::vector<int64_t> arrival_ns;
-  size_t size() const { return arrival_ns.size(); }
+  struct Entry {
+    uint32_t offset = 0;  // into bytes
+    uint32_t size = 0;
+    int64_t arrival_ns = 0;
+  };
+  std::string bytes;
+  std::vector<Entry> entries;
+
+  void Add(std::string_view observation, int64_t arrival_ns) {
+    entries.push_back({uint32_t(bytes.size()), uint32_t(observation.size()), arrival_ns});
+    bytes.append(observation);
+  }
+  std::string_view At(size_t i) const {
+    return {bytes.data() + entries[i].offset, entries[i].size};
+  }
+  size_t size() const { return entries.size(); }
+  void Clear() {
+    bytes.clear();
+    entries.clear();
+  }
 };
 
 class Worker {
  public:
   using Task = std::function<void(pipeline::Pipeline&)>;
 
-  // `publisher_endpoint`: the publisher thread's inproc PULL endpoint (already bound).
-  Worker(int index, std::unique_ptr<pipeline::Pipeline> pipeline, zmq::context_t& context,
-         const std::string& publisher_endpoint, size_t queue_capacity);
+  // `publisher` (bound already) must outlive the worker.
+  Worker(int index, std::unique_ptr<pipeline::Pipeline> pipeline, Publisher& publisher,
+         size_t queue_capacity);
   ~Worker();
   Worker(const Worker&) = delete;
   Worker& operator=(const Worker&) = delete;
@@ -94,8 +113,8 @@ class Worker {
 
   const int index_;
   std::unique_ptr<pipeline::Pipeline> pipeline_;
-  zmq::socket_t push_;
-  ZmqPublicationSink sink_;  // used only on the worker thread
+  ZmqPublicationSink sink_;               // used only on the worker thread
+  bayline::v1::Observation observation_;  // decoding buffer, worker thread only
   WorkQueue<Item> queue_;
   std::mutex free_mutex_;
   std::vector<std::unique_ptr<IngestBatch>> free_batches_;
