@@ -2,8 +2,11 @@
 // intervals from. Parameterisations:
 //   Normal(mean, sd); StudentT(dof) standard (location 0, scale 1); ChiSquared(k);
 //   Gamma(shape, rate) with mean shape / rate; Beta(a, b); Poisson(mean); Binomial(n, p).
-// Quantiles solve F(x) = p by safeguarded Newton iteration on the distribution function (the upper
-// tail is used for p > 1/2, so both tails keep full relative precision). p must be in (0, 1).
+// Quantiles solve F(x) = p by safeguarded Halley iteration on the distribution function (the upper
+// tail is used for p > 1/2, so both tails keep full relative precision), started from an asymptotic
+// expansion; where that expansion alone is as accurate as the iteration (relative tail error below
+// 1e-13, measured against 40-digit mpmath in tests/reference/core) it is returned directly.
+// p must be in [0, 1] (0 and 1 give the ends of the support).
 #pragma once
 
 namespace bayline::est::dist {
@@ -19,13 +22,24 @@ double NormalLowerQuantileFrom(double q, double x0);
 
 double StudentTLogPdf(double t, double dof);
 double StudentTCdf(double t, double dof);
+// Direct Cornish-Fisher expansion in 1/dof (4 terms) where dof >= 250 max(1, z^2) and |z| <= 10,
+// z = Phi^-1(p) (relative tail error < 1e-13), and above dof 1e7.
 double StudentTQuantile(double p, double dof);
+// z = Phi^{-1}(F_t(t; dof)), the normal score of a Student t value: odd in t, |z| at full relative
+// precision in both tails (computed from the tail on t's own side). For dof >= 200 and |t| <= 10,
+// and for dof >= 1e4 and |t| <= 40, it is Hill's normalizing expansion (G. W. Hill 1970, CACM
+// Algorithm 395), with |error| < 1.6e-11 there (measured against 45-digit mpmath; < 4e-14 from
+// dof 1e4); elsewhere Phi^{-1} of the exact tail F_t(-|t|). NaN when dof <= 0 or t is NaN; +-infinity when that tail
+// underflows (|z| > 38.4).
+double StudentTNormalScore(double t, double dof);
 
 double ChiSquaredCdf(double x, double k);
 double ChiSquaredQuantile(double p, double k);
 
 double GammaLogPdf(double x, double shape, double rate);
 double GammaCdf(double x, double shape, double rate);
+// Direct Cornish-Fisher expansion (terms through shape^-3/2) where shape^4 >= 1.2e23 max(1, z^2)^5
+// (relative tail error < 2e-14), and at any p above shape 1e7.
 double GammaQuantile(double p, double shape, double rate);
 
 double BetaLogPdf(double x, double a, double b);

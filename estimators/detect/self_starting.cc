@@ -8,23 +8,9 @@
 
 namespace bayline::est {
 
-double StudentTToNormal(double t, double dof) {
-  if (std::isnan(t) || !(dof > 0.0)) return kNaN;
-  // Work in the tail on t's own side: F(-|t|) keeps full relative precision where 1 - F would not.
-  const double tail = dist::StudentTCdf(-std::fabs(t), dof);
-  // At large dof, sqrt((dof - 1/2) log1p(t^2 / dof)) is z to O(dof^-2) (within 1e-9 relative for
-  // |t| <= 1.5 at dof 1e4, 3e-8 for |t| <= 12), so one Halley step from it is exact where
-  // NormalQuantile's generic start needs two (an old channel's residuals, whose dof is its age).
-  const double z = dof >= 1e4 && tail > 0.0
-                       ? -dist::NormalLowerQuantileFrom(
-                             tail, -std::sqrt((dof - 0.5) * std::log1p(t * t / dof)))
-                       : -dist::NormalQuantile(tail);  // >= 0
-  return t < 0.0 ? -z : z;
-}
-
 double StandardizeRecursiveResidual(double w, double scale, double dof) {
   if (!std::isfinite(w) || !(scale > 0.0) || !std::isfinite(scale) || !(dof >= 1.0)) return kNaN;
-  return StudentTToNormal(w / scale, dof);
+  return dist::StudentTNormalScore(w / scale, dof);
 }
 
 namespace {
@@ -54,7 +40,7 @@ Status SelfStartingStandardizer::Update(double y, double* z) {
   if (n1 >= 2.0 && next.m2 > 0.0) {
     const double s = std::sqrt(next.m2 / (n1 - 1.0));
     const double t = (y - next.mean) / (s * std::sqrt(1.0 + 1.0 / n1));
-    out = StudentTToNormal(t, n1 - 1.0);
+    out = dist::StudentTNormalScore(t, n1 - 1.0);
   }
   next.count += 1.0;
   const double d = y - next.mean;

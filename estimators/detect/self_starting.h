@@ -19,8 +19,9 @@
 //
 // KnownStandardizer (Phase II): z = (y - mean) / sd with user-given in-control mean and sd.
 //
-// The t-to-normal transform uses the tail on the value's own side, so |z| keeps full relative
-// precision far out in the tails. Thread safety: none (one owner per object).
+// The t-to-normal transform is dist::StudentTNormalScore (core/distributions.h): it uses the tail
+// on the value's own side, so |z| keeps full relative precision far out in the tails (infinite
+// where that tail underflows, |z| > 38.4). Thread safety: none (one owner per object).
 #pragma once
 
 #include "estimators/core/report.h"
@@ -29,11 +30,9 @@
 
 namespace bayline::est {
 
-// Phi^{-1}(F_{t,dof}(t)): the normal score of a Student t value. NaN when dof <= 0 or t is NaN.
-double StudentTToNormal(double t, double dof);
-
 // z for a recursive residual w given the residual scale of the earlier observations and its dof:
-// StudentTToNormal(w / scale, dof). NaN when w is not finite, scale <= 0 or not finite, dof < 1.
+// dist::StudentTNormalScore(w / scale, dof). NaN when w is not finite, scale <= 0 or not finite,
+// dof < 1.
 double StandardizeRecursiveResidual(double w, double scale, double dof);
 
 class SelfStartingStandardizer {

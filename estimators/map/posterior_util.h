@@ -45,17 +45,11 @@ inline double NormalScoreFromTails(double lower, double upper) {
   return upper > 0 ? -dist::NormalQuantile(upper) : kMaxScore;
 }
 
-// Normal score Phi^{-1}(F_t(t)) of a standard Student-t variate.
+// Normal score Phi^{-1}(F_t(t)) of a standard Student-t variate (dist::StudentTNormalScore), clamped
+// to +-kMaxScore where its tail underflows.
 inline double StudentTNormalScore(double t, double nu) {
-  if (t == 0.0) return 0.0;
-  const double tail = dist::StudentTCdf(-std::fabs(t), nu);  // smaller tail, full precision
-  if (!(tail > 0)) return t > 0 ? kMaxScore : -kMaxScore;
-  // Large nu (an old channel): sqrt((nu - 1/2) log1p(t^2 / nu)) is z to O(nu^-2), a start from
-  // which one Halley step is exact (see StudentTToNormal in detect/self_starting.cc).
-  const double z = nu >= 1e4 ? -dist::NormalLowerQuantileFrom(
-                                   tail, -std::sqrt((nu - 0.5) * std::log1p(t * t / nu)))
-                             : -dist::NormalQuantile(tail);
-  return t > 0 ? z : -z;
+  const double z = dist::StudentTNormalScore(t, nu);
+  return z > kMaxScore ? kMaxScore : (z < -kMaxScore ? -kMaxScore : z);
 }
 
 // The time kept for the next discount: the latest time seen (untimed or out-of-order samples do not

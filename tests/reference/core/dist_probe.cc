@@ -35,6 +35,7 @@ int main() {
     else if (f == "t_cdf") r = d::StudentTCdf(a[0], a[1]);
     else if (f == "t_ppf") r = d::StudentTQuantile(a[0], a[1]);
     else if (f == "t_logpdf") r = d::StudentTLogPdf(a[0], a[1]);
+    else if (f == "t_score") r = d::StudentTNormalScore(a[0], a[1]);
     else if (f == "chi2_cdf") r = d::ChiSquaredCdf(a[0], a[1]);
     else if (f == "chi2_ppf") r = d::ChiSquaredQuantile(a[0], a[1]);
     else if (f == "gamma_cdf") r = d::GammaCdf(a[0], a[1], a[2]);

@@ -139,6 +139,106 @@ def test_student_t_matches_scipy_stats():
     check(cases, rtol=1e-10)
 
 
+def test_student_t_quantile_around_the_cornish_fisher_switch():
+    """StudentTQuantile returns its Cornish-Fisher start directly where dof >= 250 max(1, z^2) and
+    |z| <= 10 (z the normal quantile of p) and iterates on the exact distribution function
+    elsewhere: on both sides of that switch, for several p, it must meet the same tail precision as
+    everywhere else (relative 1e-12, judged by mpmath at 40 digits as in check_quantiles)."""
+    cases = []
+    for p in [0.3, 0.2, 0.025, 0.975, 1e-6, 1e-10, 1 - 1e-6, 1e-23, 1e-24]:
+        z = float(special.ndtri(p))
+        switch = 250 * max(1.0, z * z)
+        for dof in [switch * 0.5, switch * 0.999, switch, switch * 1.001, switch * 2]:
+            cases.append(("t_ppf", [p, dof], stats.t(dof), mp_t(dof)))
+    # the Newton start at small dof, and very large dof (beyond the former normal-limit switch at 1e7,
+    # now the expansion too)
+    for dof in [0.5, 1.5, 3, 4.99, 30, 99.9, 1e7, 1.0000001e7, 1e9]:
+        for p in [1e-10, 0.025, 0.975]:
+            cases.append(("t_ppf", [p, dof], stats.t(dof), mp_t(dof)))
+    check_quantiles(cases, rtol_p=1e-12, rtol_x=1e-7)
+
+
+def test_gamma_quantile_around_its_switches():
+    """GammaQuantile returns its Cornish-Fisher expansion directly where shape^4 >= 1.2e23
+    max(1, z^2)^5 and above shape 1e7, starts the iteration from it from shape 20, and from the
+    Wilson-Hilferty cube root (or the small-y power law) below: every side must meet the tail
+    precision of check_quantiles (mpmath at 40 digits).
+    (mpmath's incomplete gamma does not converge for non-integer shapes of a million or more, nor
+    its lower tail at 1e7: whole shapes on either side of the switches there, the lower tail as
+    1 - upper, which at 40 digits keeps more than 25 for p >= 1e-12.)"""
+    def mp_gamma_large(shape, rate):
+        a = mpmath.mpf(shape)
+        def tail(x, upper):
+            q = mpmath.gammainc(a, x * rate, mpmath.inf, regularized=True)
+            return q if upper else 1 - q
+        return tail
+    cases = []
+    for p in [0.3, 0.025, 0.975, 1e-6]:
+        z = float(special.ndtri(p))
+        switch = (1.2e23 * max(1.0, z * z) ** 5) ** 0.25
+        for shape in [np.floor(switch), np.ceil(switch)]:
+            if shape <= 1e7:
+                cases.append(("gamma_ppf", [p, shape, 1.0], stats.gamma(shape), mp_gamma_large(shape, 1.0)))
+    # above 1e7 scipy's ppf is looser still (1.3% in the tail at p = 1e-10: 7e-7 relative in x)
+    check_quantiles([("gamma_ppf", [p, shape, 2.0], stats.gamma(shape, scale=0.5), mp_gamma_large(shape, 2.0))
+                     for shape in [1e7, 1e7 + 1] for p in [1e-10, 1e-6, 0.025, 0.5, 0.975, 1 - 1e-6]],
+                    rtol_x=1e-5)
+    for shape in [0.999, 1.001, 19.99, 20.0, 20.01, 300]:
+        for p in [1e-10, 1e-6, 0.025, 0.5, 0.975, 1 - 1e-6]:
+            cases.append(("gamma_ppf", [p, shape, 2.0], stats.gamma(shape, scale=0.5), mp_gamma(shape, 2.0)))
+    check_quantiles(cases)
+
+
+def mp_t_score(t, dof):
+    """Phi^{-1}(F_t(t; dof)) in 40-digit arithmetic (mpmath, Debian python3-mpmath): the tail on t's
+    own side by mpmath.betainc, then the normal quantile by Newton steps on mpmath.ncdf. None where
+    that tail is below 1e-300 (a double's score is then infinite or on the edge of it)."""
+    mpmath.mp.dps = 40
+    nu, tt = mpmath.mpf(dof), mpmath.mpf(abs(t))
+    tail = mpmath.betainc(nu / 2, mpmath.mpf(1) / 2, 0, nu / (nu + tt * tt), regularized=True) / 2
+    if tail < 1e-300:
+        return None
+    z = mpmath.mpf(float(special.ndtri(float(tail))))
+    for _ in range(50):
+        step = (mpmath.ncdf(z) - tail) / mpmath.npdf(z)
+        z -= step
+        if abs(step) < mpmath.mpf(10) ** -35 * (1 + abs(z)):
+            break
+    return float(-z if t > 0 else z)
+
+
+def test_student_t_normal_score_matches_mpmath():
+    """StudentTNormalScore: Hill's expansion for dof >= 200 and |t| <= 10 and for dof >= 1e4 and
+    |t| <= 40, Phi^{-1} of the exact t tail elsewhere. Reference: mp_t_score at 40 digits.
+    Tolerance on the expansion's side: 1.6e-11 absolute, the largest truncation error measured over
+    that region (at dof 200, |t| = 10; 45-digit mpmath on a grid of 60 t per dof), plus 4e-15 |z|
+    for rounding (measured at most 3e-15 from dof 1000, where truncation is negligible); on this
+    grid the worst is 1.567e-11 at dof 200, t = 10. Elsewhere 1e-14 (1 + |z|): the exact tail
+    (incomplete beta, ~1e-15 relative at these parameters) mapped to z (a relative tail error e
+    moves z by at most e / |z| in the tails, e / phi(0) near 0) and the normal quantile's own 1e-15
+    relative; the worst measured here is 1.1e-15."""
+    cases = []
+    for dof in [1, 3, 10, 49.9, 50, 100, 199.9, 200, 200.1, 1000, 9999, 1e4, 1e6, 1e7, 1.0000001e7, 1e9]:
+        # (t = 300 at dof 1e6 or more underflows: mpmath's betainc does not converge there)
+        for t in [1e-8, 0.3, 1.0, 2.5, 5.0, 9.99, 10.0, 10.01, 15.0, 39.9, 40.0, 40.1] + [300.0] * (dof < 1e6):
+            for sign in [1, -1]:
+                z = mp_t_score(sign * t, dof)
+                if z is None:
+                    continue  # the tail underflows: covered below
+                expansion = (dof >= 200 and t <= 10) or (dof >= 1e4 and t <= 40)
+                tol = 1.6e-11 + 4e-15 * abs(z) if expansion else 1e-14 * (1 + abs(z))
+                cases.append(("t_score", [sign * t, dof], z, tol))
+    got = run_probe([(n, a) for n, a, _, _ in cases])
+    bad = [f"t_score{tuple(a)}: got {g!r}, mpmath {z!r}, tolerance {tol:.1e}"
+           for (n, a, z, tol), g in zip(cases, got) if not abs(g - z) <= tol]
+    assert not bad, "\n".join(bad[:20])
+    # odd in t, exactly; infinite where the tail underflows (dof 1e6, t = 300: tail ~ 1e-19500)
+    assert run_probe([("t_score", [2.7, 40]), ("t_score", [-2.7, 40]), ("t_score", [0.0, 5]),
+                      ("t_score", [300.0, 1e6]), ("t_score", [-300.0, 1e6])]) == \
+        [run_probe([("t_score", [2.7, 40])])[0], -run_probe([("t_score", [2.7, 40])])[0], 0.0,
+         float("inf"), -float("inf")]
+
+
 def test_gamma_and_chi_squared_match_scipy_stats():
     shapes, rates = [0.05, 0.5, 1, 2.5, 40, 1e4, 1e6], [0.01, 1, 250]
     check_quantiles([("gamma_ppf", [p, a, r], stats.gamma(a, scale=1 / r), mp_gamma(a, r)) for a in shapes for r in rates for p in PS])
