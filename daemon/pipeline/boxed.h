@@ -1,8 +1,8 @@
 // Boxed<T>: a heap-held T with value semantics (deep copy), for the large or dynamically sized
-// estimators and detectors, so that a std::variant of slot types stays as small as its small
-// alternatives while remaining copyable (the pipeline copies slots to roll back a failed update).
-// Copy-assignment between two boxes assigns the T in place, so a reused backup of the same kind
-// and size does not allocate.
+// estimators and detectors: a channel block (channel.h) then holds one pointer for them, and a
+// detector slot's std::variant stays as small as its small alternatives while remaining copyable.
+// Copy-assignment between two boxes assigns the T in place, so a reused rollback backup of the same
+// kind and size (EstimatorSlot::SaveTo) does not allocate.
 #pragma once
 
 #include <memory>

@@ -7,8 +7,8 @@
 namespace bayline::pipeline {
 namespace {
 
-void FillInfo(const std::string& name, const Channel& ch, bayline::v1::ChannelInfo* info) {
-  info->set_name(name);
+void FillInfo(const Channel& ch, bayline::v1::ChannelInfo* info) {
+  info->set_name(std::string(ch.name()));
   info->set_model(std::string(ModelName(ch.spec->model)));
   info->set_rule(ch.spec->rule_name);
   info->set_accepted(ch.accepted);
@@ -17,12 +17,11 @@ void FillInfo(const std::string& name, const Channel& ch, bayline::v1::ChannelIn
   info->set_alarm_active(ch.alarm_active());
 }
 
-template <typename Registry>
-std::vector<const typename Registry::value_type*> SortedByName(const Registry& channels) {
-  std::vector<const typename Registry::value_type*> out;
+std::vector<const Channel*> SortedByName(const ChannelRegistry& channels) {
+  std::vector<const Channel*> out;
   out.reserve(channels.size());
-  for (const auto& entry : channels) out.push_back(&entry);
-  std::sort(out.begin(), out.end(), [](const auto* a, const auto* b) { return a->first < b->first; });
+  channels.ForEach([&](const Channel& ch) { out.push_back(&ch); });
+  std::sort(out.begin(), out.end(), [](const Channel* a, const Channel* b) { return a->name() < b->name(); });
   return out;
 }
 
@@ -30,28 +29,27 @@ std::vector<const typename Registry::value_type*> SortedByName(const Registry& c
 
 bayline::v1::ChannelList PipelineState::List(std::string_view glob) const {
   bayline::v1::ChannelList list;
-  for (const auto* entry : SortedByName(channels_)) {
-    if (glob.empty() || GlobMatch(glob, entry->first)) {
-      FillInfo(entry->first, entry->second, list.add_channels());
-    }
+  for (const Channel* ch : SortedByName(channels_)) {
+    if (glob.empty() || GlobMatch(glob, ch->name())) FillInfo(*ch, list.add_channels());
   }
   return list;
 }
 
 std::optional<bayline::v1::ChannelReport> PipelineState::Ask(std::string_view channel) const {
-  auto it = channels_.find(std::string(channel));
-  if (it == channels_.end()) return std::nullopt;
-  const Channel& ch = it->second;
+  const Channel* found = channels_.Find(channel);
+  if (found == nullptr) return std::nullopt;
+  const Channel& ch = *found;
   const ResolvedSpec& spec = *ch.spec;
   bayline::v1::ChannelReport report;
-  FillInfo(it->first, ch, report.mutable_info());
-  for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
-    FillEstimate(it->first, spec, spec.estimators[i], ch.estimators[i].Report(spec.level),
+  FillInfo(ch, report.mutable_info());
+  for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
+    FillEstimate(ch.name(), spec, spec.estimators[i], ch.estimator(i).Report(spec.level),
                  ch.seq.last, ch.last_time_ns, ch.accepted, report.add_estimates());
   }
-  for (std::size_t d = 0; d < ch.detectors.size(); ++d) {
+  const std::span<const DetectorSlot> detectors = ch.detectors();
+  for (std::size_t d = 0; d < detectors.size(); ++d) {
     const DetectorSetup& setup = spec.detectors[d];
-    const DetectorSlot& slot = ch.detectors[d];
+    const DetectorSlot& slot = detectors[d];
     auto* ds = report.add_detectors();
     ds->set_detector(std::string(DetectorKindName(setup.kind)));
     ds->set_watched(std::string(EstimatorKindName(spec.estimators[static_cast<std::size_t>(setup.watch)])));
@@ -62,7 +60,7 @@ std::optional<bayline::v1::ChannelReport> PipelineState::Ask(std::string_view ch
     if (slot.alarms_raised() > 0) {
       const LastAlarm& a = slot.last_alarm();
       auto* alarm = ds->mutable_last_alarm();
-      alarm->set_channel(it->first);
+      alarm->set_channel(std::string(ch.name()));
       alarm->set_seq(a.seq);
       alarm->set_time_ns(a.time_ns);
       alarm->set_detector(ds->detector());
@@ -81,7 +79,7 @@ std::optional<bayline::v1::ChannelReport> PipelineState::Ask(std::string_view ch
 }
 
 bool PipelineState::Reset(std::string_view channel) {
-  const bool erased = channels_.erase(std::string(channel)) > 0;
+  const bool erased = channels_.Erase(channel);
   counters_.channels = channels_.size();
   return erased;
 }
@@ -95,8 +93,8 @@ est::Status PipelineState::Reconfigure(const bayline::v1::DaemonConfig& config,
   // Decide for every channel before changing anything.
   std::vector<std::pair<Channel*, std::shared_ptr<const ResolvedSpec>>> keep;
   std::vector<std::string> drop;
-  for (auto& [name, ch] : channels_) {
-    const int rule = rules.Match(name);
+  channels_.ForEach([&](Channel& ch) {
+    const int rule = rules.Match(ch.name());
     std::shared_ptr<const ResolvedSpec> spec;
     bool same = false;
     if (rule >= 0) {
@@ -108,16 +106,16 @@ est::Status PipelineState::Reconfigure(const bayline::v1::DaemonConfig& config,
     if (same) {
       keep.emplace_back(&ch, std::move(spec));
     } else {
-      drop.push_back(name);
+      drop.emplace_back(ch.name());
     }
-  }
+  });
 
   config_ = config;
   limits_ = LimitsOf(config);
   rules_ = std::move(rules);
   for (auto& [ch, spec] : keep) ch->spec = std::move(spec);  // same content, new rule name
   std::sort(drop.begin(), drop.end());
-  for (const auto& name : drop) channels_.erase(name);
+  for (const auto& name : drop) channels_.Erase(name);
   counters_.channels = channels_.size();
   if (reset != nullptr) reset->insert(reset->end(), drop.begin(), drop.end());
   return est::Status::Ok();

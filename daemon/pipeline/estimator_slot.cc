@@ -20,41 +20,73 @@ constexpr double kOne[] = {1.0};
 
 bool IsWhole(double v) { return std::isfinite(v) && std::floor(v) == v; }
 
-EstimatorSlot::Impl MakeImpl(const ResolvedSpec& s, EstimatorKind kind) {
-  using Impl = EstimatorSlot::Impl;
+// The one place that maps (model, kind) to the estimator type: calls make(std::type_identity<T>,
+// factory) where factory() returns the fresh estimator (called only when it is constructed).
+template <typename Make>
+decltype(auto) WithEstimatorType(const ResolvedSpec& s, EstimatorKind kind, Make&& make) {
+  using est::Rls;
+  using GaussianLs = EstimatorSlot::GaussianLs;
+  auto of = [&](auto type, auto factory) -> decltype(auto) { return make(type, factory); };
+  using std::type_identity;
   switch (s.model) {
     case Model::kGaussian:
-      if (kind == EstimatorKind::kLs) return Impl(std::in_place_type<EstimatorSlot::GaussianLs>, s.rls, 1);
-      if (kind == EstimatorKind::kMl) return Impl(std::in_place_type<est::GaussianMl>, s.ml);
-      return Impl(std::in_place_type<est::NormalGamma>, s.normal_gamma);
-    case Model::kLinear:
-      if (kind == EstimatorKind::kLs) return Impl(Boxed<est::Rls>(est::Rls(s.rls, s.p)));
+      if (kind == EstimatorKind::kLs) {
+        return of(type_identity<GaussianLs>{}, [&] { return GaussianLs(s.rls, 1); });
+      }
       if (kind == EstimatorKind::kMl) {
-        est::RlsOptions o = s.rls;
-        o.robust = false;  // ml is the gaussian likelihood, not a Huber M-estimate
-        return Impl(Boxed<est::LinearMl>(est::LinearMl(o, s.p)));
+        return of(type_identity<est::GaussianMl>{}, [&] { return est::GaussianMl(s.ml); });
+      }
+      return of(type_identity<est::NormalGamma>{}, [&] { return est::NormalGamma(s.normal_gamma); });
+    case Model::kLinear:
+      if (kind == EstimatorKind::kLs) {
+        return of(type_identity<Boxed<Rls>>{}, [&] { return Boxed<Rls>(Rls(s.rls, s.p)); });
+      }
+      if (kind == EstimatorKind::kMl) {
+        return of(type_identity<Boxed<est::LinearMl>>{}, [&] {
+          est::RlsOptions o = s.rls;
+          o.robust = false;  // ml is the gaussian likelihood, not a Huber M-estimate
+          return Boxed<est::LinearMl>(est::LinearMl(o, s.p));
+        });
       }
       if (s.random_walk) {
-        return Impl(Boxed<est::DynamicLinearModel<>>(est::DynamicLinearModel<>(s.dlm)));
+        return of(type_identity<Boxed<est::DynamicLinearModel<>>>{}, [&] {
+          return Boxed<est::DynamicLinearModel<>>(est::DynamicLinearModel<>(s.dlm));
+        });
       }
-      return Impl(Boxed<est::NigRegression<>>(est::NigRegression<>(s.nig)));
-    case Model::kLognormal: return Impl(std::in_place_type<est::LognormalMl>, s.ml);
+      return of(type_identity<Boxed<est::NigRegression<>>>{},
+                [&] { return Boxed<est::NigRegression<>>(est::NigRegression<>(s.nig)); });
+    case Model::kLognormal:
+      return of(type_identity<est::LognormalMl>{}, [&] { return est::LognormalMl(s.ml); });
     case Model::kPoisson:
-      if (kind == EstimatorKind::kMl) return Impl(std::in_place_type<est::PoissonMl>, s.ml);
-      return Impl(std::in_place_type<est::GammaPoisson>, s.gamma_poisson);
+      if (kind == EstimatorKind::kMl) {
+        return of(type_identity<est::PoissonMl>{}, [&] { return est::PoissonMl(s.ml); });
+      }
+      return of(type_identity<est::GammaPoisson>{},
+                [&] { return est::GammaPoisson(s.gamma_poisson); });
     case Model::kBinomial:
-      if (kind == EstimatorKind::kMl) return Impl(std::in_place_type<est::BinomialMl>, s.ml);
-      return Impl(std::in_place_type<est::BetaBinomial>, s.beta_binomial);
+      if (kind == EstimatorKind::kMl) {
+        return of(type_identity<est::BinomialMl>{}, [&] { return est::BinomialMl(s.ml); });
+      }
+      return of(type_identity<est::BetaBinomial>{},
+                [&] { return est::BetaBinomial(s.beta_binomial); });
     case Model::kExponential:
-      if (kind == EstimatorKind::kMl) return Impl(std::in_place_type<est::ExponentialMl>, s.ml);
-      return Impl(std::in_place_type<est::GammaExponential>, s.gamma_exponential);
-    case Model::kGamma: return Impl(std::in_place_type<est::GammaMl>, s.ml);
+      if (kind == EstimatorKind::kMl) {
+        return of(type_identity<est::ExponentialMl>{}, [&] { return est::ExponentialMl(s.ml); });
+      }
+      return of(type_identity<est::GammaExponential>{},
+                [&] { return est::GammaExponential(s.gamma_exponential); });
+    case Model::kGamma:
+      return of(type_identity<est::GammaMl>{}, [&] { return est::GammaMl(s.ml); });
     case Model::kLogistic:
-      return Impl(Boxed<est::LogisticRegressionMl>(est::LogisticRegressionMl(s.glm)));
+      return of(type_identity<Boxed<est::LogisticRegressionMl>>{}, [&] {
+        return Boxed<est::LogisticRegressionMl>(est::LogisticRegressionMl(s.glm));
+      });
     case Model::kPoissonRegression:
-      return Impl(Boxed<est::PoissonRegressionMl>(est::PoissonRegressionMl(s.glm)));
+      return of(type_identity<Boxed<est::PoissonRegressionMl>>{}, [&] {
+        return Boxed<est::PoissonRegressionMl>(est::PoissonRegressionMl(s.glm));
+      });
   }
-  return Impl(std::in_place_type<est::GaussianMl>, s.ml);
+  return of(type_identity<est::GaussianMl>{}, [&] { return est::GaussianMl(s.ml); });
 }
 
 // Chi-square quantiles for the residual-variance interval, cached per thread by (dof, level):
@@ -154,12 +186,22 @@ bool EstimatorCanInflate(Model model, EstimatorKind kind) {
   return kind == EstimatorKind::kMl && model == Model::kLinear;
 }
 
-EstimatorSlot::EstimatorSlot(const ResolvedSpec& spec, EstimatorKind kind)
-    : impl_(MakeImpl(spec, kind)) {}
+std::size_t EstimatorSlot::StorageSize(const ResolvedSpec& spec, EstimatorKind kind) {
+  return WithEstimatorType(spec, kind, [](auto type, auto&&) {
+    return Impl::StorageSizeOf<typename decltype(type)::type>();
+  });
+}
+
+EstimatorSlot* EstimatorSlot::Create(void* storage, const ResolvedSpec& spec, EstimatorKind kind) {
+  return WithEstimatorType(spec, kind, [&](auto type, auto&& factory) {
+    using T = typename decltype(type)::type;
+    return ::new (storage) EstimatorSlot(std::in_place_type<T>, factory);
+  });
+}
 
 Status EstimatorSlot::Update(const est::Sample& sample, est::Innovation* innovation,
                              est::RecursiveResidual* rr) {
-  return std::visit(
+  return impl_.Visit(
       [&](auto& slot) -> Status {
         using T = std::decay_t<decltype(slot)>;
         auto& e = Unwrap(slot);
@@ -172,38 +214,36 @@ Status EstimatorSlot::Update(const est::Sample& sample, est::Innovation* innovat
         } else {
           return e.Update(sample, innovation);
         }
-      },
-      impl_);
+      });
 }
 
 est::ParameterReport EstimatorSlot::Report(double level) const {
-  return std::visit(
+  return impl_.Visit(
       [&](const auto& slot) {
         using T = std::decay_t<decltype(slot)>;
         est::ParameterReport r = Unwrap(slot).Report(level);
         if constexpr (std::is_same_v<T, GaussianLs>) AppendResidualVariance(slot, level, &r);
         return r;
-      },
-      impl_);
+      });
 }
 
 bool EstimatorSlot::CanPredict() const {
-  return std::holds_alternative<Boxed<est::Rls>>(impl_) ||
-         std::holds_alternative<Boxed<est::LinearMl>>(impl_) ||
-         std::holds_alternative<Boxed<est::NigRegression<>>>(impl_) ||
-         std::holds_alternative<Boxed<est::DynamicLinearModel<>>>(impl_);
+  return impl_.get_if<Boxed<est::Rls>>() != nullptr ||
+         impl_.get_if<Boxed<est::LinearMl>>() != nullptr ||
+         impl_.get_if<Boxed<est::NigRegression<>>>() != nullptr ||
+         impl_.get_if<Boxed<est::DynamicLinearModel<>>>() != nullptr;
 }
 
 est::Prediction EstimatorSlot::Predict(std::span<const double> x, double level) const {
   est::Prediction out;
   out.level = level;
-  if (const auto* rls = std::get_if<Boxed<est::Rls>>(&impl_)) {
+  if (const auto* rls = impl_.get_if<Boxed<est::Rls>>()) {
     if (!(*rls)->Predict(x, level, &out).ok()) out.valid = false;
-  } else if (const auto* nig = std::get_if<Boxed<est::NigRegression<>>>(&impl_)) {
+  } else if (const auto* nig = impl_.get_if<Boxed<est::NigRegression<>>>()) {
     out = (*nig)->Predict(x, level);
-  } else if (const auto* dlm = std::get_if<Boxed<est::DynamicLinearModel<>>>(&impl_)) {
+  } else if (const auto* dlm = impl_.get_if<Boxed<est::DynamicLinearModel<>>>()) {
     out = (*dlm)->Predict(x, level);
-  } else if (const auto* ml = std::get_if<Boxed<est::LinearMl>>(&impl_)) {
+  } else if (const auto* ml = impl_.get_if<Boxed<est::LinearMl>>()) {
     // Plug-in gaussian predictive (linear_ml.h): y ~ N(x'theta, sigma2_ml + x' Cov x).
     const double sigma2 = (*ml)->sigma2_ml();
     if (!(*ml)->rls().identifiable() || !std::isfinite(sigma2) ||
@@ -225,30 +265,50 @@ est::Prediction EstimatorSlot::Predict(std::span<const double> x, double level) 
 }
 
 bool EstimatorSlot::CanInflate() const {
-  return std::holds_alternative<GaussianLs>(impl_) ||
-         std::holds_alternative<Boxed<est::Rls>>(impl_) ||
-         std::holds_alternative<Boxed<est::LinearMl>>(impl_);
+  return impl_.get_if<GaussianLs>() != nullptr ||
+         impl_.get_if<Boxed<est::Rls>>() != nullptr ||
+         impl_.get_if<Boxed<est::LinearMl>>() != nullptr;
 }
 
 Status EstimatorSlot::Inflate(double factor) {
-  if (auto* ls = std::get_if<GaussianLs>(&impl_)) return ls->InflateUncertainty(factor);
-  if (auto* rls = std::get_if<Boxed<est::Rls>>(&impl_)) return (*rls)->InflateUncertainty(factor);
-  if (auto* ml = std::get_if<Boxed<est::LinearMl>>(&impl_)) return (*ml)->InflateUncertainty(factor);
+  if (auto* ls = impl_.get_if<GaussianLs>()) return ls->InflateUncertainty(factor);
+  if (auto* rls = impl_.get_if<Boxed<est::Rls>>()) return (*rls)->InflateUncertainty(factor);
+  if (auto* ml = impl_.get_if<Boxed<est::LinearMl>>()) return (*ml)->InflateUncertainty(factor);
   return Status::Error(ErrorCode::kInvalidConfig, "this estimator cannot inflate its uncertainty");
+}
+
+void EstimatorSlot::SaveTo(Backup* backup) const {
+  impl_.Visit([&](const auto& e) {
+    using T = std::decay_t<decltype(e)>;
+    if (T* b = std::get_if<T>(backup)) {
+      *b = e;  // same kind: assigned in place, no allocation for equal sizes
+    } else {
+      backup->template emplace<T>(e);
+    }
+  });
+}
+
+void EstimatorSlot::RestoreFrom(const Backup& backup) {
+  impl_.Visit([&](auto& e) {
+    using T = std::decay_t<decltype(e)>;
+    e = std::get<T>(backup);
+  });
 }
 
 void EstimatorSlot::Pack(std::vector<double>* out) const {
   est::StateWriter w(out);
-  std::visit([&](const auto& slot) { Unwrap(slot).state().Pack(w); }, impl_);
+  impl_.Visit([&](const auto& slot) { Unwrap(slot).state().Pack(w); });
 }
 
 Status EstimatorSlot::Unpack(std::span<const double> values) {
-  // Work on a copy so that a state that passes Unpack but not Restore leaves *this untouched
+  // Works on a copy so that a state that passes Unpack but not Restore leaves *this untouched
   // (Restore already promises that; the copy keeps the promise independent of each family).
-  Impl copy = impl_;
-  Status s = std::visit([&](auto& slot) { return UnpackInto(Unwrap(slot), values); }, copy);
-  if (s.ok()) impl_ = std::move(copy);
-  return s;
+  return impl_.Visit([&](auto& slot) {
+    auto copy = slot;
+    Status s = UnpackInto(Unwrap(copy), values);
+    if (s.ok()) slot = std::move(copy);
+    return s;
+  });
 }
 
 }  // namespace bayline::pipeline

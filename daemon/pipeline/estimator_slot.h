@@ -1,7 +1,14 @@
 // EstimatorSlot: one estimator of a channel behind one small interface (update, report, predict,
-// inflate, pack / unpack), whatever its family. The concrete estimator lives in a std::variant:
-// the small fixed-size ones inline (a gaussian channel's three estimators need no heap node), the
-// large or dynamically sized ones (regressions) in a Boxed<T>.
+// inflate, pack / unpack), whatever its family. The concrete estimator is held in an InlineVariant
+// (inline_variant.h) inside the channel's block (channel.h), so each slot takes its own
+// estimator's size, not the largest one's: the fixed-size estimators inline (a gaussian channel's
+// three need no heap node of their own), the large or dynamically sized ones (regressions) as a
+// Boxed<T> (one pointer in the block).
+//
+// A slot is created in raw storage of StorageSize(spec, kind) bytes by Create and ended by
+// Destroy; it cannot be copied or moved (its estimator lives past sizeof(EstimatorSlot)). For
+// rolling back an update, SaveTo / RestoreFrom copy the estimator to and from a Backup (a
+// std::variant reused across observations: same kind and size as last time, no allocation).
 //
 // Sample convention: callers pass the sample with the FULL regressor row for regression models
 // (intercept column included) and an empty x for the other models; the gaussian ls slot supplies
@@ -9,10 +16,12 @@
 #pragma once
 
 #include <span>
+#include <utility>
 #include <variant>
 #include <vector>
 
 #include "daemon/pipeline/boxed.h"
+#include "daemon/pipeline/inline_variant.h"
 #include "daemon/pipeline/resolved_spec.h"
 #include "estimators/core/report.h"
 #include "estimators/core/sample.h"
@@ -47,15 +56,27 @@ est::Status CheckObservation(const ResolvedSpec& spec, const est::Sample& sample
 class EstimatorSlot {
  public:
   using GaussianLs = est::RecursiveLeastSquares<1>;
-  using Impl = std::variant<GaussianLs, est::GaussianMl, est::LognormalMl, est::PoissonMl,
-                            est::BinomialMl, est::ExponentialMl, est::GammaMl, est::NormalGamma,
-                            est::BetaBinomial, est::GammaPoisson, est::GammaExponential,
-                            Boxed<est::Rls>, Boxed<est::LinearMl>, Boxed<est::NigRegression<>>,
-                            Boxed<est::DynamicLinearModel<>>, Boxed<est::LogisticRegressionMl>,
-                            Boxed<est::PoissonRegressionMl>>;
+  template <template <typename...> class Holder>
+  using Alternatives =
+      Holder<GaussianLs, est::GaussianMl, est::LognormalMl, est::PoissonMl, est::BinomialMl,
+             est::ExponentialMl, est::GammaMl, est::NormalGamma, est::BetaBinomial,
+             est::GammaPoisson, est::GammaExponential, Boxed<est::Rls>, Boxed<est::LinearMl>,
+             Boxed<est::NigRegression<>>, Boxed<est::DynamicLinearModel<>>,
+             Boxed<est::LogisticRegressionMl>, Boxed<est::PoissonRegressionMl>>;
+  using Impl = Alternatives<InlineVariant>;
+  using Backup = Alternatives<std::variant>;
+  static constexpr std::size_t kAlignment = Impl::kAlignment;
 
-  // A fresh estimator of `kind` for `spec` (the kind must be allowed by the spec's model).
-  EstimatorSlot(const ResolvedSpec& spec, EstimatorKind kind);
+  // Bytes of storage (aligned to kAlignment) for the estimator of `kind` for `spec` (the kind must
+  // be allowed by the spec's model).
+  static std::size_t StorageSize(const ResolvedSpec& spec, EstimatorKind kind);
+  // A fresh estimator of `kind` for `spec`, constructed in `storage`.
+  static EstimatorSlot* Create(void* storage, const ResolvedSpec& spec, EstimatorKind kind);
+  // Ends the estimator's lifetime; the storage may then be released.
+  void Destroy() { impl_.Destroy(); }
+
+  EstimatorSlot(const EstimatorSlot&) = delete;
+  EstimatorSlot& operator=(const EstimatorSlot&) = delete;
 
   // Absorbs the sample; strong guarantee (rejection changes nothing). *innovation gets the
   // one-step innovation, *rr the recursive residual (valid only for ls).
@@ -71,13 +92,22 @@ class EstimatorSlot {
   bool CanInflate() const;
   est::Status Inflate(double factor);
 
+  // Copies the estimator into *backup (assigning in place when it already holds the same kind);
+  // RestoreFrom copies it back (backup must come from SaveTo of a slot of the same kind).
+  void SaveTo(Backup* backup) const;
+  void RestoreFrom(const Backup& backup);
+
   void Pack(std::vector<double>* out) const;
   // Validates a packed state and replaces the current one; kInvalidState (nothing changed) if it
   // does not unpack or fails the estimator's checks.
   est::Status Unpack(std::span<const double> values);
 
  private:
-  Impl impl_;
+  template <typename T, typename Factory>
+  EstimatorSlot(std::in_place_type_t<T> type, Factory&& factory)
+      : impl_(type, std::forward<Factory>(factory)) {}
+
+  Impl impl_;  // the only member: the estimator follows it in the same storage
 };
 
 // True when `kind` can inflate its covariance on an alarm for `model` (config validation).

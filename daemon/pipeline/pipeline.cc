@@ -1,6 +1,7 @@
 #include "daemon/pipeline/pipeline.h"
 
 #include <cmath>
+#include <span>
 #include <string>
 
 #include "daemon/pipeline/channel_name.h"
@@ -25,21 +26,20 @@ PipelineState::PipelineState(const bayline::v1::DaemonConfig& config, uint32_t p
       partition_count_(partition_count == 0 ? 1 : partition_count) {
   rules_.Build(config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
   x_full_.reserve(limits_.max_regressors + 1);
-  backup_.reserve(kMaxEstimatorsPerChannel);
-}
-
-bool PipelineState::Owns(std::string_view name) const {
-  return partition_count_ <= 1 || ChannelHash(name) % partition_count_ == partition_index_;
 }
 
 est::Sample PipelineState::BuildSample(const ResolvedSpec& spec,
                                        const bayline::v1::Observation& obs, int64_t time_ns) {
-  x_full_.clear();
-  if (spec.intercept) x_full_.push_back(1.0);
-  x_full_.insert(x_full_.end(), obs.x().begin(), obs.x().end());
   est::Sample s;
+  if (spec.intercept) {
+    x_full_.clear();
+    x_full_.push_back(1.0);
+    x_full_.insert(x_full_.end(), obs.x().begin(), obs.x().end());
+    s.x = x_full_;
+  } else {
+    s.x = std::span<const double>(obs.x().data(), static_cast<std::size_t>(obs.x_size()));
+  }
   s.y = obs.has_y() ? obs.y() : est::kNaN;
-  s.x = x_full_;
   s.trials = obs.has_trials() ? obs.trials() : 1.0;
   s.exposure = obs.has_exposure() ? obs.exposure() : 1.0;
   s.weight = obs.has_weight() ? obs.weight() : 1.0;
@@ -47,27 +47,71 @@ est::Sample PipelineState::BuildSample(const ResolvedSpec& spec,
   return s;
 }
 
+void PipelineState::RejectName(const bayline::v1::Observation& obs, ChannelNameProblem problem,
+                               int64_t time_ns, PublicationSink& sink) {
+  // The name is not echoed: it may be invalid UTF-8 (unserializable) or huge.
+  const std::string detail =
+      problem == ChannelNameProblem::kTooLong
+          ? "channel name has " + std::to_string(obs.channel().size()) + " bytes, limit " +
+                std::to_string(limits_.max_channel_name_bytes)
+      : problem == ChannelNameProblem::kEmpty
+          ? std::string("channel name is empty")
+          : std::string("channel name is not valid UTF-8 or contains control characters");
+  publisher_.InputError(sink, "", obs.seq(), time_ns, ChannelNameReason(problem), detail);
+}
+
+std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
+    const bayline::v1::Observation& obs, int64_t time_ns, PublicationSink& sink) {
+  const std::string& name = obs.channel();
+  const int rule = rules_.Match(name);
+  if (rule < 0) {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, "no_matching_rule",
+                          "no rule matches channel \"" + name + "\"");
+    return nullptr;
+  }
+  if (channels_.size() >= limits_.max_channels) {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, "channel_limit",
+                          "channel limit of " + std::to_string(limits_.max_channels) +
+                              " reached; new channels are refused");
+    return nullptr;
+  }
+  std::shared_ptr<const ResolvedSpec> spec;
+  const est::Status s =
+      rules_.ResolveForObservation(rule, static_cast<uint32_t>(obs.x_size()), &spec);
+  if (!s.ok()) {
+    publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
+                          s.message());
+    return nullptr;
+  }
+  return spec;
+}
+
 void PipelineState::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
                             PublicationSink& sink) {
   const std::string& name = obs.channel();
   const int64_t time_ns = obs.time_ns() != 0 ? obs.time_ns() : arrival_ns;
 
-  const ChannelNameProblem problem = CheckChannelName(name, limits_.max_channel_name_bytes);
-  if (problem != ChannelNameProblem::kOk) {
-    // The name is not echoed: it may be invalid UTF-8 (unserializable) or huge.
-    const std::string detail =
-        problem == ChannelNameProblem::kTooLong
-            ? "channel name has " + std::to_string(name.size()) + " bytes, limit " +
-                  std::to_string(limits_.max_channel_name_bytes)
-        : problem == ChannelNameProblem::kEmpty
-            ? std::string("channel name is empty")
-            : std::string("channel name is not valid UTF-8 or contains control characters");
-    publisher_.InputError(sink, "", obs.seq(), time_ns, ChannelNameReason(problem), detail);
+  // A registered name passed CheckChannelName when its channel was created, so only the length
+  // (the limit may have been lowered by a reload) is checked before the lookup, and the full
+  // check runs for names that are not registered.
+  if (name.empty() || name.size() > limits_.max_channel_name_bytes) {
+    RejectName(obs, CheckChannelName(name, limits_.max_channel_name_bytes), time_ns, sink);
     return;
   }
-  if (!Owns(name)) {
-    ++counters_.not_owned;
-    return;
+  const uint64_t hash = ChannelHash(name);
+  Channel* ch = channels_.Find(name, hash);
+  if (ch != nullptr) {
+    ch->Prefetch();
+  } else {
+    if (const auto problem = CheckChannelName(name, limits_.max_channel_name_bytes);
+        problem != ChannelNameProblem::kOk) {
+      RejectName(obs, problem, time_ns, sink);
+      return;
+    }
+    if (!Owns(hash)) {  // registered channels are always owned
+      ++counters_.not_owned;
+      return;
+    }
   }
   if (static_cast<uint64_t>(obs.x_size()) > limits_.max_regressors) {
     publisher_.InputError(sink, name, obs.seq(), time_ns, "too_many_regressors",
@@ -77,7 +121,7 @@ void PipelineState::Process(const bayline::v1::Observation& obs, int64_t arrival
   }
   if (!obs.has_y()) {
     if (obs.x_size() > 0) {
-      AnswerPrediction(obs, time_ns, sink);
+      AnswerPrediction(ch, obs, time_ns, sink);
     } else {
       publisher_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
                             "y is missing (and no regressors: not a prediction request)");
@@ -85,41 +129,21 @@ void PipelineState::Process(const bayline::v1::Observation& obs, int64_t arrival
     return;
   }
 
-  auto it = channels_.find(name);
-  const bool is_new = it == channels_.end();
-  std::shared_ptr<const ResolvedSpec> spec;
-  if (is_new) {
-    const int rule = rules_.Match(name);
-    if (rule < 0) {
-      publisher_.InputError(sink, name, obs.seq(), time_ns, "no_matching_rule",
-                            "no rule matches channel \"" + name + "\"");
-      return;
-    }
-    if (channels_.size() >= limits_.max_channels) {
-      publisher_.InputError(sink, name, obs.seq(), time_ns, "channel_limit",
-                            "channel limit of " + std::to_string(limits_.max_channels) +
-                                " reached; new channels are refused");
-      return;
-    }
-    const est::Status s =
-        rules_.ResolveForObservation(rule, static_cast<uint32_t>(obs.x_size()), &spec);
-    if (!s.ok()) {
-      publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
-                            s.message());
-      return;
-    }
-  } else {
-    spec = it->second.spec;
+  std::shared_ptr<const ResolvedSpec> new_spec;
+  if (ch == nullptr) {
+    new_spec = ResolveNewChannel(obs, time_ns, sink);
+    if (new_spec == nullptr) return;
   }
+  const ResolvedSpec& spec = ch != nullptr ? *ch->spec : *new_spec;
 
-  const est::Sample sample = BuildSample(*spec, obs, time_ns);
-  if (est::Status s = CheckObservation(*spec, sample); !s.ok()) {
+  const est::Sample sample = BuildSample(spec, obs, time_ns);
+  if (est::Status s = CheckObservation(spec, sample); !s.ok()) {
     publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
                           s.message());
     return;
   }
 
-  const SeqWindow window = is_new ? SeqWindow{} : it->second.seq;
+  const SeqWindow window = ch != nullptr ? ch->seq : SeqWindow{};
   const uint64_t seq = obs.seq() != 0 ? obs.seq() : window.last + 1;
   const SeqClass seq_class = window.Classify(seq);
   if (seq_class == SeqClass::kDuplicate) {
@@ -127,63 +151,67 @@ void PipelineState::Process(const bayline::v1::Observation& obs, int64_t arrival
     return;
   }
 
-  if (is_new) {
-    it = channels_.try_emplace(name, spec).first;
-    counters_.channels = channels_.size();
-  }
-  Channel& ch = it->second;
-  if (est::Status s = UpdateEstimators(ch, sample); !s.ok()) {
-    if (is_new) {
-      channels_.erase(it);
-      counters_.channels = channels_.size();
+  if (ch == nullptr) {
+    // Registered only once its first observation is absorbed: a rejection leaves no channel.
+    ChannelPtr fresh = Channel::Create(std::move(new_spec), name);
+    if (est::Status s = UpdateEstimators(*fresh, sample); !s.ok()) {
+      publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
+      return;
     }
+    ch = channels_.InsertOrReplace(std::move(fresh));
+    counters_.channels = channels_.size();
+  } else if (est::Status s = UpdateEstimators(*ch, sample); !s.ok()) {
     publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
     return;
   }
 
-  ch.seq.Accept(seq);
+  ch->seq.Accept(seq);
   if (seq_class == SeqClass::kGap) ++counters_.seq_gaps;
   if (seq_class == SeqClass::kLate) ++counters_.seq_reordered;
-  ++ch.accepted;
+  ++ch->accepted;
   ++counters_.accepted;
-  if (time_ns > ch.last_time_ns) ch.last_time_ns = time_ns;
+  if (time_ns > ch->last_time_ns) ch->last_time_ns = time_ns;
 
-  RunDetectors(name, ch, sample, seq, time_ns, sink);
-  ApplyPublishPolicy(name, ch, seq, time_ns, sink);
+  RunDetectors(*ch, sample, seq, time_ns, sink);
+  ApplyPublishPolicy(*ch, seq, time_ns, sink);
 }
 
 est::Status PipelineState::UpdateEstimators(Channel& ch, const est::Sample& sample) {
-  const std::size_t n = ch.estimators.size();
-  if (n > 1) backup_ = ch.estimators;  // same kinds and sizes as last time: no allocation
+  const std::size_t n = ch.estimator_count();
+  const ResolvedSpec& spec = *ch.spec;
   for (std::size_t i = 0; i < n; ++i) {
+    EstimatorSlot& e = ch.estimator(i);
+    if (i + 1 < n) e.SaveTo(&backup_[i]);  // same kind and size as last time: no allocation
     innovations_[i] = est::Innovation();
     residuals_[i] = est::RecursiveResidual();
-    est::Innovation* innovation = ch.spec->needs_innovation[i] ? &innovations_[i] : nullptr;
-    est::Status s = ch.estimators[i].Update(sample, innovation, &residuals_[i]);
+    est::Innovation* innovation = spec.needs_innovation[i] ? &innovations_[i] : nullptr;
+    est::Status s = e.Update(sample, innovation, &residuals_[i]);
     if (!s.ok()) {
-      for (std::size_t j = 0; j < i; ++j) ch.estimators[j] = backup_[j];
+      for (std::size_t j = 0; j < i; ++j) ch.estimator(j).RestoreFrom(backup_[j]);
       return s;
     }
   }
   return est::Status::Ok();
 }
 
-void PipelineState::RunDetectors(const std::string& name, Channel& ch, const est::Sample& sample,
-                                 uint64_t seq, int64_t time_ns, PublicationSink& sink) {
+void PipelineState::RunDetectors(Channel& ch, const est::Sample& sample, uint64_t seq,
+                                 int64_t time_ns, PublicationSink& sink) {
   const ResolvedSpec& spec = *ch.spec;
-  for (std::size_t d = 0; d < ch.detectors.size(); ++d) {
+  const std::string_view name = ch.name();
+  const std::span<DetectorSlot> detectors = ch.detectors();
+  for (std::size_t d = 0; d < detectors.size(); ++d) {
     const DetectorSetup& setup = spec.detectors[d];
     const auto w = static_cast<std::size_t>(setup.watch);
     DetectorInput in;
     in.sample = &sample;
     in.innovation = &innovations_[w];
     in.rr = &residuals_[w];
-    in.watched = &ch.estimators[w];
+    in.watched = &ch.estimator(w);
     in.level = spec.level;
     in.mark.seq = static_cast<int64_t>(seq);
     in.mark.time = sample.time;
     est::DetectorEvent event;
-    if (!ch.detectors[d].Update(setup, in, &event).ok()) {
+    if (!detectors[d].Update(setup, in, &event).ok()) {
       ++counters_.detector_skips;
       continue;
     }
@@ -191,17 +219,17 @@ void PipelineState::RunDetectors(const std::string& name, Channel& ch, const est
       publisher_.Alarm(sink, name, setup, spec, event, false, seq, time_ns, sample.y);
     }
     if (event.raised) {
-      ch.detectors[d].RecordAlarm(
+      detectors[d].RecordAlarm(
           publisher_.Alarm(sink, name, setup, spec, event, true, seq, time_ns, sample.y));
-      if (setup.inflate_on_alarm > 1 && ch.estimators[w].CanInflate()) {
-        ch.estimators[w].Inflate(setup.inflate_on_alarm);  // factor validated: cannot fail
+      if (setup.inflate_on_alarm > 1 && ch.estimator(w).CanInflate()) {
+        ch.estimator(w).Inflate(setup.inflate_on_alarm);  // factor validated: cannot fail
       }
     }
   }
 }
 
-void PipelineState::ApplyPublishPolicy(const std::string& name, Channel& ch, uint64_t seq,
-                                       int64_t time_ns, PublicationSink& sink) {
+void PipelineState::ApplyPublishPolicy(Channel& ch, uint64_t seq, int64_t time_ns,
+                                       PublicationSink& sink) {
   const ResolvedSpec& spec = *ch.spec;
   PublishState& p = ch.publish;
   ++p.since_publish;
@@ -209,25 +237,24 @@ void PipelineState::ApplyPublishPolicy(const std::string& name, Channel& ch, uin
   if (spec.min_interval_ns > 0 && p.published && time_ns - p.last_publish_ns < spec.min_interval_ns) {
     return;
   }
-  for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
-    publisher_.Estimate(sink, name, spec, spec.estimators[i], ch.estimators[i].Report(spec.level),
-                        seq, time_ns, ch.accepted);
+  for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
+    publisher_.Estimate(sink, ch.name(), spec, spec.estimators[i],
+                        ch.estimator(i).Report(spec.level), seq, time_ns, ch.accepted);
   }
   p.since_publish = 0;
   p.last_publish_ns = time_ns;
   p.published = true;
 }
 
-void PipelineState::AnswerPrediction(const bayline::v1::Observation& obs, int64_t time_ns,
-                                     PublicationSink& sink) {
+void PipelineState::AnswerPrediction(const Channel* found, const bayline::v1::Observation& obs,
+                                     int64_t time_ns, PublicationSink& sink) {
   const std::string& name = obs.channel();
-  auto it = channels_.find(name);
-  if (it == channels_.end()) {
+  if (found == nullptr) {
     publisher_.InputError(sink, name, obs.seq(), time_ns, "unknown_channel",
                           "prediction request for unknown channel \"" + name + "\"");
     return;
   }
-  const Channel& ch = it->second;
+  const Channel& ch = *found;
   const ResolvedSpec& spec = *ch.spec;
   if (!IsRegressionModel(spec.model) ||
       static_cast<uint32_t>(obs.x_size()) != spec.regressor_count) {
@@ -248,9 +275,9 @@ void PipelineState::AnswerPrediction(const bayline::v1::Observation& obs, int64_
   if (spec.intercept) x_full_.push_back(1.0);
   x_full_.insert(x_full_.end(), obs.x().begin(), obs.x().end());
   bool answered = false;
-  for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
-    if (!ch.estimators[i].CanPredict()) continue;
-    const est::Prediction p = ch.estimators[i].Predict(x_full_, spec.level);
+  for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
+    if (!ch.estimator(i).CanPredict()) continue;
+    const est::Prediction p = ch.estimator(i).Predict(x_full_, spec.level);
     publisher_.Prediction(sink, name, spec.estimators[i],
                           std::span<const double>(obs.x().data(), obs.x().size()), p, obs.seq(),
                           time_ns);

@@ -7,10 +7,13 @@
 //
 // Per observation (Process):
 //   1. validate the channel name (empty_channel_name, channel_name_too_long, invalid_channel_name)
-//      and the regressor count (too_many_regressors);
-//   2. find the channel, or resolve a new one from the first matching rule (no_matching_rule,
-//      channel_limit); a rule with model "auto" becomes gaussian without regressors and linear with
-//      intercept with regressors;
+//      and the regressor count (too_many_regressors): the length always, the rest (UTF-8, control
+//      characters) only for a name that is not registered, since a registered name was validated
+//      when its channel was created;
+//   2. find the channel (by ChannelHash, computed once and also deciding the partition), or
+//      resolve a new one from the first matching rule (no_matching_rule, channel_limit); a rule
+//      with model "auto" becomes gaussian without regressors and linear with intercept with
+//      regressors; a new channel is registered only once its first observation is absorbed;
 //   3. validate the values against every estimator and detector of the channel BEFORE any of them
 //      is updated (non_finite, wrong_regressor_count, out_of_domain, invalid_weight); a rejected
 //      observation publishes exactly one InputError and changes no state at all;

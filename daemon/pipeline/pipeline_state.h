@@ -8,11 +8,12 @@
 #include <cstdint>
 #include <memory>
 #include <string>
-#include <unordered_map>
 #include <vector>
 
 #include "bayline/v1/config.pb.h"
 #include "daemon/pipeline/channel.h"
+#include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/channel_registry.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/pipeline/publications.h"
 #include "daemon/pipeline/rule_set.h"
@@ -46,18 +47,28 @@ class PipelineState {
   const Counters& counters() const { return counters_; }
 
  private:
-  using Registry = std::unordered_map<std::string, Channel>;
-
-  bool Owns(std::string_view name) const;
-  void AnswerPrediction(const bayline::v1::Observation& obs, int64_t time_ns,
+  // Whether this partition owns a channel of this ChannelHash.
+  bool Owns(uint64_t hash) const {
+    return partition_count_ <= 1 || hash % partition_count_ == partition_index_;
+  }
+  // Publishes the InputError for a name that CheckChannelName refused.
+  void RejectName(const bayline::v1::Observation& obs, ChannelNameProblem problem, int64_t time_ns,
+                  PublicationSink& sink);
+  // A new channel's spec from the first matching rule; nullptr after publishing the InputError.
+  std::shared_ptr<const ResolvedSpec> ResolveNewChannel(const bayline::v1::Observation& obs,
+                                                        int64_t time_ns, PublicationSink& sink);
+  // ch: the channel, nullptr when unknown.
+  void AnswerPrediction(const Channel* ch, const bayline::v1::Observation& obs, int64_t time_ns,
                         PublicationSink& sink);
-  // Updates every estimator; on a failure rolls back those already updated. Fills innovations_.
+  // Updates every estimator; on a failure restores those already updated from backup_, so a
+  // rejection changes nothing. Only estimators that are followed by another are backed up (the
+  // last one's own Update changes nothing when it fails). Fills innovations_ and residuals_.
   est::Status UpdateEstimators(Channel& ch, const est::Sample& sample);
-  void RunDetectors(const std::string& name, Channel& ch, const est::Sample& sample, uint64_t seq,
-                    int64_t time_ns, PublicationSink& sink);
-  void ApplyPublishPolicy(const std::string& name, Channel& ch, uint64_t seq, int64_t time_ns,
-                          PublicationSink& sink);
-  // Fills x_full_ (intercept column first when the spec has one) and returns the sample.
+  void RunDetectors(Channel& ch, const est::Sample& sample, uint64_t seq, int64_t time_ns,
+                    PublicationSink& sink);
+  void ApplyPublishPolicy(Channel& ch, uint64_t seq, int64_t time_ns, PublicationSink& sink);
+  // The sample of an observation; regressors are read in place unless the spec has an intercept
+  // column, which is put first in x_full_ with them.
   est::Sample BuildSample(const ResolvedSpec& spec, const bayline::v1::Observation& obs,
                           int64_t time_ns);
 
@@ -66,13 +77,13 @@ class PipelineState {
   uint32_t partition_index_;
   uint32_t partition_count_;
   RuleSet rules_;
-  Registry channels_;
+  ChannelRegistry channels_;
   Counters counters_;
   Publisher publisher_{&counters_};
 
   // Reused scratch of the per-observation path.
   std::vector<double> x_full_;
-  std::vector<EstimatorSlot> backup_;
+  std::array<EstimatorSlot::Backup, kMaxEstimatorsPerChannel - 1> backup_;
   std::array<est::Innovation, kMaxEstimatorsPerChannel> innovations_;
   std::array<est::RecursiveResidual, kMaxEstimatorsPerChannel> residuals_;
 };

@@ -21,16 +21,16 @@ est::Status Invalid(const std::string& channel, const std::string& why) {
 void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
   out->set_format_version(kFormatVersion);
   out->set_config_digest(ConfigDigest(config_));
-  std::vector<const Registry::value_type*> sorted;
+  std::vector<const Channel*> sorted;
   sorted.reserve(channels_.size());
-  for (const auto& entry : channels_) sorted.push_back(&entry);
-  std::sort(sorted.begin(), sorted.end(), [](const auto* a, const auto* b) { return a->first < b->first; });
+  channels_.ForEach([&](const Channel& ch) { sorted.push_back(&ch); });
+  std::sort(sorted.begin(), sorted.end(), [](const Channel* a, const Channel* b) { return a->name() < b->name(); });
   std::vector<double> values;
-  for (const auto* entry : sorted) {
-    const Channel& ch = entry->second;
+  for (const Channel* entry : sorted) {
+    const Channel& ch = *entry;
     const ResolvedSpec& spec = *ch.spec;
     auto* c = out->add_channels();
-    c->set_name(entry->first);
+    c->set_name(std::string(ch.name()));
     c->set_rule(spec.rule_name);
     c->set_spec_digest(spec.digest);
     c->set_model(std::string(ModelName(spec.model)));
@@ -42,16 +42,17 @@ void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
     c->mutable_publish()->set_since_publish(ch.publish.since_publish);
     c->mutable_publish()->set_last_publish_time_ns(ch.publish.last_publish_ns);
     c->mutable_publish()->set_published(ch.publish.published);
-    for (std::size_t i = 0; i < ch.estimators.size(); ++i) {
+    for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
       values.clear();
-      ch.estimators[i].Pack(&values);
+      ch.estimator(i).Pack(&values);
       auto* comp = c->add_components();
       comp->set_kind(std::string(EstimatorKindName(spec.estimators[i])));
       comp->mutable_values()->Assign(values.begin(), values.end());
     }
-    for (std::size_t d = 0; d < ch.detectors.size(); ++d) {
+    const std::span<const DetectorSlot> detectors = ch.detectors();
+    for (std::size_t d = 0; d < detectors.size(); ++d) {
       values.clear();
-      ch.detectors[d].Pack(&values);
+      detectors[d].Pack(&values);
       auto* comp = c->add_components();
       comp->set_kind(std::string(DetectorKindName(spec.detectors[d].kind)));
       comp->mutable_values()->Assign(values.begin(), values.end());
@@ -66,7 +67,7 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
                               "snapshot format_version " + std::to_string(in.format_version()) +
                                   " is not " + std::to_string(kFormatVersion));
   }
-  std::vector<std::pair<std::string, Channel>> restored;
+  std::vector<ChannelPtr> restored;
   std::vector<std::string> reset_names;
   std::set<std::string_view> seen;
   for (const auto& c : in.channels()) {
@@ -75,7 +76,7 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
       return est::Status::Error(est::ErrorCode::kInvalidState, "snapshot holds an invalid channel name");
     }
     if (!seen.insert(name).second) return Invalid(name, "appears twice");
-    if (!Owns(name)) continue;
+    if (!Owns(ChannelHash(name))) continue;
     Model model;
     if (!ParseModel(c.model(), &model)) return Invalid(name, "unknown model \"" + c.model() + "\"");
     const int rule = rules_.Match(name);
@@ -85,8 +86,10 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
       reset_names.push_back(name);
       continue;
     }
-    Channel ch(spec);
-    const std::size_t expected = ch.estimators.size() + ch.detectors.size();
+    ChannelPtr fresh = Channel::Create(spec, name);
+    Channel& ch = *fresh;
+    const std::span<DetectorSlot> detectors = ch.detectors();
+    const std::size_t expected = ch.estimator_count() + detectors.size();
     if (static_cast<std::size_t>(c.components_size()) != expected) {
       return Invalid(name, "has " + std::to_string(c.components_size()) + " components, spec has " +
                                std::to_string(expected));
@@ -97,13 +100,13 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
       const std::span<const double> values(comp.values().data(), comp.values().size());
       std::string_view want;
       est::Status s;
-      if (i < ch.estimators.size()) {
+      if (i < ch.estimator_count()) {
         want = EstimatorKindName(spec->estimators[i]);
-        if (comp.kind() == want) s = ch.estimators[i].Unpack(values);
+        if (comp.kind() == want) s = ch.estimator(i).Unpack(values);
       } else {
-        const std::size_t d = i - ch.estimators.size();
+        const std::size_t d = i - ch.estimator_count();
         want = DetectorKindName(spec->detectors[d].kind);
-        if (comp.kind() == want) s = ch.detectors[d].Unpack(values);
+        if (comp.kind() == want) s = detectors[d].Unpack(values);
       }
       if (comp.kind() != want) {
         return Invalid(name, "component " + std::to_string(k) + " is \"" + comp.kind() +
@@ -120,16 +123,16 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
     ch.publish.since_publish = c.publish().since_publish();
     ch.publish.last_publish_ns = c.publish().last_publish_time_ns();
     ch.publish.published = c.publish().published();
-    restored.emplace_back(name, std::move(ch));
+    restored.push_back(std::move(fresh));
   }
   std::size_t total = channels_.size();
-  for (const auto& [name, ch] : restored) total += channels_.count(name) == 0 ? 1 : 0;
+  for (const ChannelPtr& ch : restored) total += channels_.Find(ch->name()) == nullptr ? 1 : 0;
   if (total > limits_.max_channels) {
     return est::Status::Error(est::ErrorCode::kInvalidState,
                               "restoring would exceed limits.max_channels (" +
                                   std::to_string(limits_.max_channels) + ")");
   }
-  for (auto& [name, ch] : restored) channels_.insert_or_assign(name, std::move(ch));
+  for (ChannelPtr& ch : restored) channels_.InsertOrReplace(std::move(ch));
   counters_.channels = channels_.size();
   if (reset != nullptr) reset->insert(reset->end(), reset_names.begin(), reset_names.end());
   return est::Status::Ok();
