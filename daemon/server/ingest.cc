@@ -182,9 +182,9 @@ void Ingest::Reject(const char* reason, std::string detail, int64_t arrival_ns) 
 }
 
 void Ingest::Flush(size_t worker) {
-  if (pending_[worker] && pending_[worker]->size() > 0) {
-    workers_[worker]->Submit(std::move(pending_[worker]));
-  }
+  auto& batch = pending_[worker];
+  if (!batch || batch->size() == 0) return;
+  if (!workers_[worker]->TryProcessHere(*batch)) workers_[worker]->Submit(std::move(batch));
 }
 
 void Ingest::FlushAll() {

@@ -66,23 +66,35 @@ void Worker::Recycle(std::unique_ptr<IngestBatch> batch) {
   free_batches_.push_back(std::move(batch));
 }
 
+bool Worker::TryProcessHere(IngestBatch& batch) {
+  if (batch.size() > kMaxInlineBatch || !queue_.TryClaimIdle()) return false;
+  ProcessBatch(batch);
+  sink_.Flush();
+  queue_.Release();
+  batch.Clear();
+  return true;
+}
+
+void Worker::ProcessBatch(const IngestBatch& batch) {
+  for (size_t i = 0; i < batch.size(); ++i) {
+    const std::string_view bytes = batch.At(i);
+    const int64_t arrival_ns = batch.entries[i].arrival_ns;
+    if (observation_.ParseFromArray(bytes.data(), int(bytes.size()))) {
+      pipeline_->Process(observation_, arrival_ns, sink_);
+    } else {  // not expected: ingest hands over only observations that decode
+      pipeline_->RejectFrame("malformed_frame",
+                             "observation of " + std::to_string(bytes.size()) +
+                                 " bytes is not a bayline.v1.Observation",
+                             arrival_ns, sink_);
+    }
+  }
+}
+
 void Worker::Run() {
   for (;;) {
-    Item item = queue_.Pop();
+    Item item = queue_.PopAndClaim();
     if (item.batch) {
-      const IngestBatch& batch = *item.batch;
-      for (size_t i = 0; i < batch.size(); ++i) {
-        const std::string_view bytes = batch.At(i);
-        const int64_t arrival_ns = batch.entries[i].arrival_ns;
-        if (observation_.ParseFromArray(bytes.data(), int(bytes.size()))) {
-          pipeline_->Process(observation_, arrival_ns, sink_);
-        } else {  // not expected: ingest hands over only observations that decode
-          pipeline_->RejectFrame("malformed_frame",
-                                 "observation of " + std::to_string(bytes.size()) +
-                                     " bytes is not a bayline.v1.Observation",
-                                 arrival_ns, sink_);
-        }
-      }
+      ProcessBatch(*item.batch);
       Recycle(std::move(item.batch));
     }
     if (item.rejection) {
@@ -90,7 +102,8 @@ void Worker::Run() {
                              item.rejection->arrival_ns, sink_);
     }
     if (item.task) item.task(*pipeline_);
-    sink_.Flush();  // before the next Pop can block
+    sink_.Flush();  // before the next wait
+    queue_.Release();
     if (item.stop) break;
   }
   sink_.FlushLog();
