@@ -172,6 +172,11 @@ double GammaQ(double a, double x) {
 }
 
 double BetaIWithComplement(double a, double b, double x, double y, bool complement) {
+  return BetaIWithComplement(a, b, x, y, complement, 1.0);
+}
+
+double BetaIWithComplement(double a, double b, double x, double y, bool complement,
+                           double x_side_scale) {
   if (!(a > 0 && b > 0) || !(x >= 0 && x <= 1) || !(y >= 0 && y <= 1)) return kNaN;
   // x and y are each accurate on their own: only an exact zero of either is a boundary.
   if (x == 0) return complement ? 1.0 : 0.0;
@@ -181,7 +186,7 @@ double BetaIWithComplement(double a, double b, double x, double y, bool compleme
   const double log_x = y < 0.5 ? std::log1p(-y) : std::log(x);
   const double log_y = x < 0.5 ? std::log1p(-x) : std::log(y);
   const double log_front = a * log_x + b * log_y - LogBeta(a, b);
-  if (x < (a + 1.0) / (a + b + 2.0)) {
+  if (x < x_side_scale * (a + 1.0) / (a + b + 2.0)) {
     const double v = std::exp(log_front) * BetaContinuedFraction(a, b, x) / a;  // I_x(a, b)
     return complement ? 1.0 - v : v;
   }

@@ -25,5 +25,11 @@ double BetaI(double a, double b, double x);
 // so that callers who know y more precisely than 1 - x keep it; the small one of the two results
 // keeps full relative precision.
 double BetaIWithComplement(double a, double b, double x, double y, bool complement);
+// As above, but the continued fraction for I_x itself (rather than for its complement) is used
+// while x < x_side_scale (a + 1) / (a + b + 2) instead of x_side_scale = 1: with x_side_scale > 1
+// fewer terms are needed just past that switch (for the t distribution's a = 1/2 at scale 2, about
+// 10 against 20-46), but a complement taken there is 1 - I_x, with its absolute error.
+double BetaIWithComplement(double a, double b, double x, double y, bool complement,
+                           double x_side_scale);
 
 }  // namespace bayline::est::special

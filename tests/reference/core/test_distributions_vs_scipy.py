@@ -150,10 +150,11 @@ def test_student_t_quantile_around_the_cornish_fisher_switch():
         switch = 250 * max(1.0, z * z)
         for dof in [switch * 0.5, switch * 0.999, switch, switch * 1.001, switch * 2]:
             cases.append(("t_ppf", [p, dof], stats.t(dof), mp_t(dof)))
-    # the Newton start at small dof, and very large dof (beyond the former normal-limit switch at 1e7,
-    # now the expansion too)
-    for dof in [0.5, 1.5, 3, 4.99, 30, 99.9, 1e7, 1.0000001e7, 1e9]:
-        for p in [1e-10, 0.025, 0.975]:
+    # the Newton start at small dof; from dof 20 the iteration's incomplete beta keeps its central
+    # side up to twice its usual switch (|t| up to ~2.5: p = 0.01 and 0.99 lie just beyond); and very
+    # large dof (beyond the former normal-limit switch at 1e7, now the expansion too)
+    for dof in [0.5, 1.5, 3, 4.99, 19.99, 20, 30, 99.9, 1e7, 1.0000001e7, 1e9]:
+        for p in [1e-10, 0.01, 0.025, 0.05, 0.975, 0.99]:
             cases.append(("t_ppf", [p, dof], stats.t(dof), mp_t(dof)))
     check_quantiles(cases, rtol_p=1e-12, rtol_x=1e-7)
 
