@@ -67,6 +67,7 @@ DaemonProcess::DaemonProcess(zmq::context_t& context, const std::string& bayline
 }
 
 DaemonProcess::~DaemonProcess() {
+  req_.reset();
   if (pid_ > 0) {
     kill(pid_, SIGKILL);
     waitpid(pid_, nullptr, 0);
@@ -76,15 +77,17 @@ DaemonProcess::~DaemonProcess() {
 }
 
 bayline::v1::Stats DaemonProcess::Stats() {
-  zmq::socket_t req(context_, zmq::socket_type::req);
-  req.set(zmq::sockopt::linger, 0);
-  req.set(zmq::sockopt::rcvtimeo, 30000);
-  req.connect(control_);
+  if (!req_) {
+    req_ = std::make_unique<zmq::socket_t>(context_, zmq::socket_type::req);
+    req_->set(zmq::sockopt::linger, 0);
+    req_->set(zmq::sockopt::rcvtimeo, 30000);
+    req_->connect(control_);
+  }
   bayline::v1::Request request;
   request.mutable_stats();
-  req.send(zmq::buffer(request.SerializeAsString()), zmq::send_flags::none);
+  req_->send(zmq::buffer(request.SerializeAsString()), zmq::send_flags::none);
   zmq::message_t reply_bytes;
-  if (!req.recv(reply_bytes)) throw std::runtime_error("no stats reply from baylined");
+  if (!req_->recv(reply_bytes)) throw std::runtime_error("no stats reply from baylined");
   bayline::v1::Reply reply;
   reply.ParseFromArray(reply_bytes.data(), int(reply_bytes.size()));
   return reply.stats();

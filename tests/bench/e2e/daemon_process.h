@@ -7,6 +7,7 @@
 #include <sys/types.h>
 #include <zmq.hpp>
 
+#include <memory>
 #include <string>
 #include <thread>
 #include <vector>
@@ -26,6 +27,8 @@ class DaemonProcess {
   const std::string& pull_endpoint() const { return pull_; }
   const std::string& publish_endpoint() const { return publish_; }
 
+  // One control request on a REQ socket kept for the daemon's lifetime (a new connection per poll
+  // would add connection set-up work to the daemon being measured).
   bayline::v1::Stats Stats();
   // Polls stats until observations_accepted >= n (bounded by timeout_s); returns the last stats.
   bayline::v1::Stats WaitAccepted(uint64_t n, double timeout_s);
@@ -41,6 +44,7 @@ class DaemonProcess {
   int stderr_fd_ = -1;
   std::thread log_drain_;
   std::string pull_, publish_, control_;
+  std::unique_ptr<zmq::socket_t> req_;
 };
 
 }  // namespace bayline::bench
