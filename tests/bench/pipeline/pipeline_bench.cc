@@ -9,11 +9,14 @@
 // observation message is reused (as the daemon reuses its parsed frames); seq is 0 (the pipeline
 // numbers it), time advances by 1 ms per call.
 // Counter bytes_per_channel: growth of the resident set (/proc/self/statm) while the channels were
-// created (each with one observation), divided by the channel count.
+// created (each with one observation), divided by the channel count. It reads low (even 0) when a
+// fleet reuses memory that the previous case's larger fleet freed; heap_bytes_per_channel, the
+// growth of the bytes malloc has handed out (mallinfo2, malloc's own headers excluded), does not.
 // Counter allocs_per_call: heap allocations (global operator new, counted by this program) per
 // Process() call in the timed loop, publications included.
 //
 // Run: build-x/tests/bench/pipeline/bayline_bench_pipeline
+#include <malloc.h>
 #include <unistd.h>
 
 #include <cstdio>
@@ -59,6 +62,12 @@ long ResidentBytes() {
   return pages_resident * sysconf(_SC_PAGESIZE);
 }
 
+// Bytes in use from malloc: small blocks (arena) plus large ones (mmapped).
+std::size_t HeapBytes() {
+  const struct mallinfo2 m = mallinfo2();
+  return m.uordblks + m.hblkhd;
+}
+
 // One populated pipeline, kept across benchmark repetitions for the same channel count.
 struct Fleet {
   Fleet(std::size_t n, int every_n) : every(every_n) {
@@ -69,6 +78,7 @@ struct Fleet {
     auto config = DefaultConfig();
     config.mutable_rules(0)->mutable_spec()->mutable_publish()->set_every_n(static_cast<uint32_t>(every_n));
     const long before = ResidentBytes();
+    const std::size_t heap_before = HeapBytes();
     pipeline = std::make_unique<Pipeline>(config);
     bayline::v1::Observation obs;
     for (std::size_t i = 0; i < n; ++i) {
@@ -77,6 +87,8 @@ struct Fleet {
       pipeline->Process(obs, Now(), sink);
     }
     bytes_per_channel = static_cast<double>(ResidentBytes() - before) / static_cast<double>(n);
+    heap_bytes_per_channel =
+        (static_cast<double>(HeapBytes()) - static_cast<double>(heap_before)) / static_cast<double>(n);
     // Spread the channels over the publish cycle (channel i has seen 1 + i % 100 observations), so
     // the timed loop publishes at the steady rate of one call in 100 whatever the channel count.
     for (std::size_t i = 0; i < n; ++i) {
@@ -94,6 +106,7 @@ struct Fleet {
   CountingSink sink;
   int64_t time_ns = 1'700'000'000'000'000'000;
   double bytes_per_channel = 0;
+  double heap_bytes_per_channel = 0;
   int every = 100;
 };
 
@@ -124,6 +137,7 @@ void BM_ProcessGaussian(benchmark::State& state) {
   state.counters["allocs_per_call"] =
       static_cast<double>(g_allocations - allocations_before) / static_cast<double>(state.iterations());
   state.counters["bytes_per_channel"] = fleet.bytes_per_channel;
+  state.counters["heap_bytes_per_channel"] = fleet.heap_bytes_per_channel;
   state.counters["channels"] = static_cast<double>(fleet.pipeline->counters().channels);
   state.counters["rejected"] = static_cast<double>(fleet.pipeline->counters().rejected_total);
 }
