@@ -26,10 +26,10 @@ double StudentTCdf(double t, double dof);
 // z = Phi^-1(p) (relative tail error < 1e-13), and above dof 1e7.
 double StudentTQuantile(double p, double dof);
 // z = Phi^{-1}(F_t(t; dof)), the normal score of a Student t value: odd in t, |z| at full relative
-// precision in both tails (computed from the tail on t's own side). For dof >= 200 and |t| <= 10,
-// and for dof >= 1e4 and |t| <= 40, it is Hill's normalizing expansion (G. W. Hill 1970, CACM
-// Algorithm 395), with |error| < 1.6e-11 there (measured against 45-digit mpmath; < 4e-14 from
-// dof 1e4); elsewhere Phi^{-1} of the exact tail F_t(-|t|). NaN when dof <= 0 or t is NaN; +-infinity when that tail
+// precision in both tails (computed from the tail on t's own side). Where |t| <= 1, 2, 3, 6, 10,
+// 40 at dof >= 20, 30, 50, 100, 200, 1e4 respectively it is Hill's normalizing expansion
+// (G. W. Hill 1970, CACM Algorithm 395), with |error| < 1.6e-11 there (measured against 45-digit
+// mpmath; < 4e-14 from dof 1e4); elsewhere Phi^{-1} of the exact tail F_t(-|t|). NaN when dof <= 0 or t is NaN; +-infinity when that tail
 // underflows (|z| > 38.4).
 double StudentTNormalScore(double t, double dof);
 

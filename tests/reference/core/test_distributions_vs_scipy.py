@@ -208,26 +208,40 @@ def mp_t_score(t, dof):
     return float(-z if t > 0 else z)
 
 
+# StudentTNormalScore's expansion region: |t| <= max_abs_t from dof >= min_dof (distributions.cc)
+HILL_REGION = [(1e4, 40.0), (200, 10.0), (100, 6.0), (50, 3.0), (30, 2.0), (20, 1.0)]
+
+
+def in_hill_region(t, dof):
+    for min_dof, max_abs_t in HILL_REGION:
+        if dof >= min_dof:
+            return abs(t) <= max_abs_t
+    return False
+
+
 def test_student_t_normal_score_matches_mpmath():
-    """StudentTNormalScore: Hill's expansion for dof >= 200 and |t| <= 10 and for dof >= 1e4 and
-    |t| <= 40, Phi^{-1} of the exact t tail elsewhere. Reference: mp_t_score at 40 digits.
-    Tolerance on the expansion's side: 1.6e-11 absolute, the largest truncation error measured over
-    that region (at dof 200, |t| = 10; 45-digit mpmath on a grid of 60 t per dof), plus 4e-15 |z|
-    for rounding (measured at most 3e-15 from dof 1000, where truncation is negligible); on this
-    grid the worst is 1.567e-11 at dof 200, t = 10. Elsewhere 1e-14 (1 + |z|): the exact tail
-    (incomplete beta, ~1e-15 relative at these parameters) mapped to z (a relative tail error e
-    moves z by at most e / |z| in the tails, e / phi(0) near 0) and the normal quantile's own 1e-15
-    relative; the worst measured here is 1.1e-15."""
+    """StudentTNormalScore: Hill's expansion inside HILL_REGION, Phi^{-1} of the exact t tail
+    elsewhere. Reference: mp_t_score at 40 digits, on a grid around every step of the region.
+    Tolerance inside: 1.6e-11 absolute, the largest truncation error measured over the region
+    (45-digit mpmath, 300 t per step: 1.567e-11 at dof 200, t = 10; 1.54e-11 at dof 20, t = 1),
+    plus 4e-15 |z| for rounding (measured at most 3e-15 from dof 1000, where truncation is
+    negligible). Elsewhere 1e-14 (1 + |z|): the exact tail (incomplete beta, ~1e-15 relative at
+    these parameters) mapped to z (a relative tail error e moves z by at most e / |z| in the tails,
+    e / phi(0) near 0) and the normal quantile's own 1e-15 relative; the worst measured on this grid
+    is 1.1e-15 (2.1e-15 on 400 random points)."""
     cases = []
-    for dof in [1, 3, 10, 49.9, 50, 100, 199.9, 200, 200.1, 1000, 9999, 1e4, 1e6, 1e7, 1.0000001e7, 1e9]:
+    dofs = [1, 3, 10, 19.9, 20, 29.9, 30, 49.9, 50, 99.9, 100, 199.9, 200, 200.1, 1000, 9999, 1e4, 1e6,
+            1e7, 1.0000001e7, 1e9]
+    ts = [1e-8, 0.3, 0.99, 1.0, 1.01, 1.99, 2.0, 2.01, 2.99, 3.0, 3.01, 5.99, 6.0, 6.01, 9.99, 10.0,
+          10.01, 15.0, 39.9, 40.0, 40.1]
+    for dof in dofs:
         # (t = 300 at dof 1e6 or more underflows: mpmath's betainc does not converge there)
-        for t in [1e-8, 0.3, 1.0, 2.5, 5.0, 9.99, 10.0, 10.01, 15.0, 39.9, 40.0, 40.1] + [300.0] * (dof < 1e6):
+        for t in ts + [300.0] * (dof < 1e6):
             for sign in [1, -1]:
                 z = mp_t_score(sign * t, dof)
                 if z is None:
                     continue  # the tail underflows: covered below
-                expansion = (dof >= 200 and t <= 10) or (dof >= 1e4 and t <= 40)
-                tol = 1.6e-11 + 4e-15 * abs(z) if expansion else 1e-14 * (1 + abs(z))
+                tol = 1.6e-11 + 4e-15 * abs(z) if in_hill_region(t, dof) else 1e-14 * (1 + abs(z))
                 cases.append(("t_score", [sign * t, dof], z, tol))
     got = run_probe([(n, a) for n, a, _, _ in cases])
     bad = [f"t_score{tuple(a)}: got {g!r}, mpmath {z!r}, tolerance {tol:.1e}"

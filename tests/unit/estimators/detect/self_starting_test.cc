@@ -98,18 +98,20 @@ TEST(ChartsSelfStartingTest, TailsKeepPrecisionAndSymmetry) {
   EXPECT_TRUE(std::isnan(dist::StudentTNormalScore(1.0, 0.0)));
 }
 
-// The standardizer's score is dist::StudentTNormalScore: Hill's expansion for dof >= 200 and
-// |t| <= 10 or dof >= 1e4 and |t| <= 40, Phi^{-1} of the exact tail elsewhere (from dof 50 with one Halley step from Hill's z).
+// The standardizer's score is dist::StudentTNormalScore: Hill's expansion for |t| <= 1, 2, 3, 6,
+// 10, 40 at dof >= 20, 30, 50, 100, 200, 1e4, Phi^{-1} of the exact tail elsewhere (from dof 50 with one Halley step from Hill's z).
 // Both must agree with the generic NormalQuantile of the same exact tail: on the expansion's side
 // within its bound of 1.6e-11 (tests/reference/core checks it against mpmath), elsewhere to rounding
 // (near z = 0 that is absolute: the tail 1/2 - O(z) holds z only to ~ulp(1/2) / phi(0) = 3e-16).
 // Not beyond dof 1e6: there the incomplete beta behind the generic value is off by up to 1e-10 in z
 // itself (at dof 1e7, t = 1.9), so it is no reference; tests/reference/core checks against mpmath.
 TEST(ChartsSelfStartingTest, ScoreAgreesWithGenericNormalQuantileOfTheExactTail) {
-  for (double dof : {3.0, 49.0, 50.0, 199.0, 200.0, 1e3, 1e4, 3.3e4, 1e5, 1e6}) {
-    for (double t : {1e-6, 0.01, 0.3, 1.0, 1.9, 4.0, 9.0, 10.0, 10.5, 20.0, 37.0}) {
+  for (double dof : {3.0, 20.0, 30.0, 49.0, 50.0, 100.0, 199.0, 200.0, 1e3, 1e4, 3.3e4, 1e5, 1e6}) {
+    for (double t : {1e-6, 0.01, 0.3, 1.0, 1.9, 2.9, 4.0, 5.9, 9.0, 10.0, 10.5, 20.0, 37.0}) {
       const double generic = -dist::NormalQuantile(dist::StudentTCdf(-t, dof));
-      const bool expansion = (dof >= 200.0 && t <= 10.0) || (dof >= 1e4 && t <= 40.0);
+      const double step = dof >= 1e4 ? 40.0 : dof >= 200.0 ? 10.0 : dof >= 100.0 ? 6.0
+                          : dof >= 50.0 ? 3.0 : dof >= 30.0 ? 2.0 : dof >= 20.0 ? 1.0 : -1.0;
+      const bool expansion = t <= step;
       const double tol = expansion ? 1.6e-11 + 4e-15 * generic : 4e-15 * generic + 4e-16;
       EXPECT_NEAR(dist::StudentTNormalScore(t, dof), generic, tol) << "t " << t << " dof " << dof;
     }
