@@ -86,8 +86,8 @@ class Ingest {
   Shard shard_;
   std::atomic<uint32_t> max_frame_bytes_;
   std::vector<zmq::socket_t> sockets_;  // PULL and SUB ingest sockets
-  zmq::socket_t stop_receiver_;
-  zmq::socket_t stop_sender_;
+  int stop_fd_;  // eventfd: Stop() wakes the ingest thread's poll
+  std::atomic<bool> stopping_{false};
   std::thread thread_;
 
   // Owned by the ingest thread.
