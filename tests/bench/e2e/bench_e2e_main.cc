@@ -133,6 +133,7 @@ Percentiles DaemonLatency(zmq::context_t& ctx, const std::string& baylined, cons
   sub.set(zmq::sockopt::subscribe, "estimate/");
   sub.connect(d.publish_endpoint());
   std::vector<int64_t> latencies;
+  latencies.reserve(size_t(50000 * seconds) + 1);  // no reallocation stalls while sampling
   std::vector<uint64_t> last_seq(kChannels, 0);
   std::atomic<bool> done{false};
   std::thread receiver([&] {
@@ -178,6 +179,7 @@ Percentiles RawLatency(zmq::context_t& ctx, double seconds) {
   const std::string endpoint = pull.get(zmq::sockopt::last_endpoint);
   std::vector<int64_t> latencies;
   const size_t total = size_t(50000 * seconds);
+  latencies.reserve(total);
   std::thread receiver([&] {
     zmq::message_t stamp, body;
     pull.set(zmq::sockopt::rcvtimeo, 5000);
