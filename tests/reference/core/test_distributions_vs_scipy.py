@@ -114,6 +114,29 @@ def test_special_functions_match_scipy_special():
            for n, a, _ in large if (n, a, _) not in both_large], rtol=1e-11, atol=1e-300)
 
 
+def test_incomplete_gamma_around_the_lower_fraction_switch_matches_mpmath():
+    """From a = 2e4 P(a, x) below x = a + 1 comes from the continued fraction of the lower
+    incomplete gamma instead of the series (and Q = 1 - P there). Both sides of that switch and
+    a = 1e6, across the bulk and far tail, against mpmath at 40 digits (Debian python3-mpmath; the
+    lower tail as 1 - upper where mpmath's lower series does not converge). Tolerance 2e-12 relative:
+    the prefactor x^a e^-x / Gamma(a) carries ~1e-16 |x - a| (measured 4e-13 at a = 1e6,
+    x = a - 8 sqrt(a), with the series as well), the fraction's rounding up to 1.3e-13."""
+    mpmath.mp.dps = 40
+    cases = []
+    for a in [19999.0, 20000.0, 20001.0, 1e6]:
+        for k in [-30, -8, -2, -0.5, 0.0]:
+            x = a + k * np.sqrt(a)
+            A, X = mpmath.mpf(a), mpmath.mpf(x)
+            q = mpmath.gammainc(A, X, mpmath.inf, regularized=True)
+            try:
+                p = mpmath.gammainc(A, 0, X, regularized=True)
+            except mpmath.libmp.libhyper.NoConvergence:
+                p = 1 - q
+            cases.append(("gammainc", [a, x], float(p)))
+            cases.append(("gammaincc", [a, x], float(q)))
+    check(cases, rtol=2e-12, atol=1e-300)
+
+
 def test_normal_matches_scipy_stats():
     check_quantiles([("norm_ppf", [p], stats.norm, mp_norm) for p in PS])
     cases = [("norm_cdf", [z], stats.norm.cdf(z)) for z in [-30, -8, -2, 0, 0.5, 3]]
