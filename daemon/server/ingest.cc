@@ -191,7 +191,7 @@ void Ingest::Route(std::string_view channel, std::string_view observation, int64
   if (!batch) batch = workers_[worker]->TakeEmptyBatch();
   batch->Add(observation, arrival_ns);
   Increment(observations_received_);
-  if (batch->size() >= kMaxBatch) Flush(worker);
+  if (batch->size() >= kMaxBatch || batch->bytes.size() >= kMaxBatchBytes) Flush(worker);
 }
 
 void Ingest::Reject(const char* reason, std::string detail, int64_t arrival_ns) {

@@ -11,8 +11,9 @@
 // Routing: h = pipeline::ChannelHash(channel); the daemon keeps h % shard.count == shard.index and
 // sends it to worker (h / shard.count) % workers (dividing first keeps the workers balanced when
 // shard.count and the worker count share factors). A batch is handed over when it reaches
-// kMaxBatch observations, or when no more frames are waiting, so latency stays low at low rates;
-// a batch of a few observations for an idle worker is processed on the ingest thread itself
+// kMaxBatch observations or kMaxBatchBytes (which bounds the memory a queue of large observations
+// holds), or when no more frames are waiting, so latency stays low at low rates; a batch of a few
+// observations for an idle worker is processed on the ingest thread itself
 // (Worker::TryProcessHere), which spares it the hand-off and the worker's wake-up.
 //
 // Lifetime: construct and Bind() in the supervisor thread -> Start() -> Stop() (hands over what it
@@ -44,6 +45,7 @@ struct IngestEndpoints {
 class Ingest {
  public:
   static constexpr size_t kMaxBatch = 512;
+  static constexpr size_t kMaxBatchBytes = size_t(1) << 20;
 
   Ingest(zmq::context_t& context, std::vector<Worker*> workers, Shard shard,
          uint32_t max_frame_bytes);
