@@ -21,6 +21,17 @@ Channel* ChannelRegistry::Find(std::string_view name, uint64_t hash) const {
   return slots_[Locate(name, hash)].channel;
 }
 
+void ChannelRegistry::PrefetchChannel(uint64_t hash) const {
+  if (size_ == 0) return;
+  std::size_t i = Home(hash);
+  for (int probes = 0; probes < 4 && slots_[i].channel != nullptr; ++probes, i = (i + 1) & mask_) {
+    if (slots_[i].hash == hash) {
+      Channel::PrefetchHead(slots_[i].channel);
+      return;
+    }
+  }
+}
+
 Channel* ChannelRegistry::InsertOrReplace(ChannelPtr channel) {
   const uint64_t hash = ChannelHash(channel->name());
   if (slots_ == nullptr || (size_ + 1) * 4 > (mask_ + 1) * 3) Grow();

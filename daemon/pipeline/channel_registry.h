@@ -39,6 +39,15 @@ class ChannelRegistry {
   Channel* Find(std::string_view name, uint64_t hash) const;
   Channel* Find(std::string_view name) const { return Find(name, ChannelHash(name)); }
 
+  // Prefetch hints for a lookup that will follow soon (no effect on behaviour). PrefetchSlot starts
+  // loading the home slot of `hash`; PrefetchChannel, best called once that slot has had time to
+  // arrive, starts loading the head of the block of a channel whose slot holds `hash` (names are
+  // not compared: that would wait for the block).
+  void PrefetchSlot(uint64_t hash) const {
+    if (slots_ != nullptr) __builtin_prefetch(&slots_[Home(hash)]);
+  }
+  void PrefetchChannel(uint64_t hash) const;
+
   // Registers `channel`, replacing (destroying) a channel of the same name if there is one, and
   // returns it. Its hash is computed from its name.
   Channel* InsertOrReplace(ChannelPtr channel);

@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <span>
+#include <stdexcept>
 #include <string>
 
 #include "daemon/pipeline/channel_name.h"
@@ -86,8 +87,40 @@ std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
   return spec;
 }
 
-void PipelineState::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
-                            PublicationSink& sink) {
+void PipelineState::ProcessBatch(
+    const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+    std::span<const int64_t> arrival_ns, PublicationSink& sink) {
+  const std::size_t n = static_cast<std::size_t>(observations.size());
+  if (arrival_ns.size() != n) {
+    throw std::invalid_argument("ProcessBatch: " + std::to_string(n) + " observations but " +
+                                std::to_string(arrival_ns.size()) + " arrival times");
+  }
+  // Software pipeline over the batch: the name of observation i + kSlotAhead is hashed and its
+  // registry slot prefetched, the block of observation i + 1 is prefetched through its (by then
+  // cached) slot, and observation i is processed. Hashes are kept for names Process would not
+  // refuse on length alone (those it refuses are never hashed).
+  constexpr std::size_t kSlotAhead = 2, kRing = 4;
+  std::array<uint64_t, kRing> hashes{};
+  std::array<bool, kRing> hashed{};
+  auto stage = [&](std::size_t j) {
+    const std::string& name = observations.Get(static_cast<int>(j)).channel();
+    hashed[j % kRing] = !name.empty() && name.size() <= limits_.max_channel_name_bytes;
+    if (hashed[j % kRing]) {
+      hashes[j % kRing] = ChannelHash(name);
+      channels_.PrefetchSlot(hashes[j % kRing]);
+    }
+  };
+  for (std::size_t j = 0; j < kSlotAhead && j < n; ++j) stage(j);
+  for (std::size_t i = 0; i < n; ++i) {
+    if (i + kSlotAhead < n) stage(i + kSlotAhead);
+    if (i + 1 < n && hashed[(i + 1) % kRing]) channels_.PrefetchChannel(hashes[(i + 1) % kRing]);
+    ProcessHashed(observations.Get(static_cast<int>(i)), arrival_ns[i],
+                  hashed[i % kRing] ? &hashes[i % kRing] : nullptr, sink);
+  }
+}
+
+void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t arrival_ns,
+                                  const uint64_t* known_hash, PublicationSink& sink) {
   const std::string& name = obs.channel();
   const int64_t time_ns = obs.time_ns() != 0 ? obs.time_ns() : arrival_ns;
 
@@ -98,7 +131,7 @@ void PipelineState::Process(const bayline::v1::Observation& obs, int64_t arrival
     RejectName(obs, CheckChannelName(name, limits_.max_channel_name_bytes), time_ns, sink);
     return;
   }
-  const uint64_t hash = ChannelHash(name);
+  const uint64_t hash = known_hash != nullptr ? *known_hash : ChannelHash(name);
   Channel* ch = channels_.Find(name, hash);
   if (ch != nullptr) {
     ch->Prefetch();
@@ -307,6 +340,11 @@ Pipeline::~Pipeline() = default;
 void Pipeline::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
                        PublicationSink& sink) {
   state_->Process(obs, arrival_ns, sink);
+}
+void Pipeline::ProcessBatch(
+    const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+    std::span<const int64_t> arrival_ns, PublicationSink& sink) {
+  state_->ProcessBatch(observations, arrival_ns, sink);
 }
 void Pipeline::RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                            PublicationSink& sink) {

@@ -44,6 +44,7 @@
 #include <map>
 #include <memory>
 #include <optional>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -111,6 +112,14 @@ class Pipeline {
 
   // Absorbs one observation (see the header comment). arrival_ns is used when obs.time_ns() == 0.
   void Process(const bayline::v1::Observation& obs, int64_t arrival_ns, PublicationSink& sink);
+
+  // Absorbs observations[i] with arrival time arrival_ns[i], in order: publishes exactly what
+  // calling Process for each would. Faster with many channels: while one observation is
+  // processed, the lookups of the next ones are started (their names hashed, their registry slots
+  // and channel blocks prefetched), hiding most of the memory latency. Throws
+  // std::invalid_argument, processing nothing, when the two sizes differ.
+  void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+                    std::span<const int64_t> arrival_ns, PublicationSink& sink);
 
   // Publishes an InputError for a frame that could not be decoded (reason "malformed_frame" or
   // "oversized_frame") and counts it.

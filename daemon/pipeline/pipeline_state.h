@@ -7,6 +7,7 @@
 #include <array>
 #include <cstdint>
 #include <memory>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -33,7 +34,11 @@ class PipelineState {
   PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
                 uint32_t partition_count);
 
-  void Process(const bayline::v1::Observation& obs, int64_t arrival_ns, PublicationSink& sink);
+  void Process(const bayline::v1::Observation& obs, int64_t arrival_ns, PublicationSink& sink) {
+    ProcessHashed(obs, arrival_ns, nullptr, sink);
+  }
+  void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+                    std::span<const int64_t> arrival_ns, PublicationSink& sink);
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                    PublicationSink& sink);
   bayline::v1::ChannelList List(std::string_view glob) const;
@@ -47,6 +52,9 @@ class PipelineState {
   const Counters& counters() const { return counters_; }
 
  private:
+  // Process with ChannelHash(obs.channel()) already computed (*hash) or not (nullptr).
+  void ProcessHashed(const bayline::v1::Observation& obs, int64_t arrival_ns, const uint64_t* hash,
+                     PublicationSink& sink);
   // Whether this partition owns a channel of this ChannelHash.
   bool Owns(uint64_t hash) const {
     return partition_count_ <= 1 || hash % partition_count_ == partition_index_;
