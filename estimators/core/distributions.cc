@@ -17,8 +17,8 @@ constexpr double kLogSqrt2Pi = 0.91893853320467274178;  // log(sqrt(2 pi))
 // then accurate to far better than the statistical error of any interval they produce.
 constexpr double kStudentTNormalDof = 1e7;   // t(dof) -> N(0, 1), error O(1/dof)
 constexpr double kGammaWilsonHilfertyShape = 1e7;  // cube-root normal approximation
-// StudentTNormalScore uses Hill's expansion for |t| <= max_abs_t at dof >= min_dof: the region where
-// its error in z, measured against 45-digit mpmath (300 t per step, evaluated in double), is below
+// StudentTNormalScore uses Hill's expansion for |t| <= max_abs_t at dof >= min_dof: the region
+// where its error in z, measured against 45-digit mpmath (300 t per step, evaluated in double), is below
 // 1.6e-11. The error grows with |t| and falls like dof^-5; the largest at each step's corner:
 // 1.5e-11 (20, 1), 1.4e-11 (30, 2), 1.6e-12 (50, 3), 1.2e-11 (100, 6), 1.6e-11 (200, 10),
 // 3.9e-14 (1e4, 40). Past a step the error grows fast: 1.7e-10 at dof 20, |t| = 2.5; 7e-7 at dof
@@ -46,8 +46,8 @@ constexpr double kStudentTCornishFisherDof = 250.0;
 // evaluation tightens; a step that leaves the bracket (or a zero density) is replaced by bisection,
 // or by expansion toward an infinite end.
 template <typename Cdf, typename Sf, typename LogPdf, typename DLogPdf>
-double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf, double x, double lo,
-                     double hi) {
+double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf, double x,
+                     double lo, double hi) {
   if (!(p > 0.0 && p < 1.0)) {
     if (p == 0.0) return lo;
     if (p == 1.0) return hi;
@@ -59,13 +59,13 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf,
   double a = lo, b = hi;
   if (!(x > a && x < b)) x = std::isfinite(a) && std::isfinite(b) ? 0.5 * (a + b) : (std::isfinite(a) ? a + 1.0 : (std::isfinite(b) ? b - 1.0 : 0.0));
   // Stopping. With r = |g(x)| / target the relative error of the tail at x, a Halley step leaves
-  // r' ~ c r^3, where c is scale-free: 1/12 for a normal-like tail (a t with large dof, a gamma with
-  // large shape, whatever their scale), (dof^2 - 1) / (12 dof^2) for the t's power tail,
+  // r' ~ c r^3, where c is scale-free: 1/12 for a normal-like tail (a t with large dof, a gamma
+  // with large shape, whatever their scale), (dof^2 - 1) / (12 dof^2) for the t's power tail,
   // (1 - a^2) / (12 a^2) for F ~ y^a near 0 (33 at shape 0.05, 8e4 at shape 0.001); Newton leaves
   // ~ r^2 / 2. So a Halley step taken from r <= kResidualDone leaves < 1e-16 in the tail for any
-  // of these, and the iteration returns
-  // it without another evaluation if the step is also below kHalleyDone relative (so that x itself,
-  // near the median where the tail says little about |x|, is exact too: its error is then ~ step^3).
+  // of these, and the iteration returns it without another evaluation if the step is also below
+  // kHalleyDone relative (so that x itself, near the median where the tail says little about |x|,
+  // is exact too: its error is then ~ step^3).
   // Otherwise a step below kNewtonDone relative ends the search. Near the root the step is ruled by
   // the rounding noise of F itself (up to ~1e-11 in p for the incomplete beta at large parameters)
   // and may point out of the bracket that same noise set; after a step below kNoiseFloor x that
@@ -195,7 +195,8 @@ double HillNormalScore(double abs_t, double dof) {
   const double b = 48.0 * a * a;
   const double w2 = w * w;
   return w + w * (w2 + 3.0) / b -
-         w * (((4.0 * w2 + 33.0) * w2 + 240.0) * w2 + 855.0) / (10.0 * b * (b + 0.8 * w2 * w2 + 100.0));
+         w * (((4.0 * w2 + 33.0) * w2 + 240.0) * w2 + 855.0) /
+             (10.0 * b * (b + 0.8 * w2 * w2 + 100.0));
 }
 
 // Cornish-Fisher expansion of the t quantile in powers of 1/dof (Abramowitz & Stegun 26.7.5, from
@@ -238,17 +239,17 @@ double StudentTQuantile(double p, double dof) {
   if (!(p > 0.0 && p < 1.0)) return p == 0.0 ? -kInf : (p == 1.0 ? kInf : kNaN);
   const double z = NormalQuantile(p);
   const double x0 = StudentTCornishFisher(z, dof);
-  // Direct where the expansion's relative tail error (measured against 40-digit mpmath on 480
+  // Direct where the expansion's relative tail error (measured against 40-digit mpmath on ~500
   // points: shrinking like dof^-5, below 5.3e-14 wherever dof >= 250 max(1, z^2)) is below 1e-13,
   // for |z| <= 10 (p >= 1e-23: beyond, the rounding of z itself, ~1e-15 relative, moves the tail by
-  // z^2 times that, so the iteration on the exact tail is kept); and above kStudentTNormalDof at any
-  // p, where the distribution function itself is the normal limit.
+  // z^2 times that, so the iteration on the exact tail is kept); and above kStudentTNormalDof at
+  // any p, where the distribution function itself is the normal limit.
   if ((dof >= kStudentTCornishFisherDof * std::max(1.0, z * z) && std::fabs(z) <= 10.0) ||
       dof > kStudentTNormalDof)
     return x0;
   const double log_norm = -special::LogBeta(0.5 * dof, 0.5) - 0.5 * std::log(dof);
-  // F(-|v|) for the iteration: as StudentTCdf, but from dof 20 the incomplete beta keeps its central
-  // side I_x(1/2, dof/2), x = v^2 / (dof + v^2), up to twice its usual switch (|v| up to ~2.5,
+  // F(-|v|) for the iteration: as StudentTCdf, but from dof 20 the incomplete beta keeps its
+  // central side I_x(1/2, dof/2), x = v^2 / (dof + v^2), up to twice its usual switch (|v| up to ~2.5,
   // covering the 0.025 and 0.975 quantiles): ~10 continued-fraction terms there against 20-46 on
   // the tail side. The two-sided tail 1 - I_x is then >= 0.014 (t = 2.45 at dof -> infinity, 2.51
   // at dof 20), so I_x's few ulps are below 3e-14 of it.
@@ -311,16 +312,17 @@ double GammaQuantile(double p, double shape, double rate) {
   if (!(p > 0.0 && p < 1.0)) return p == 0.0 ? 0.0 : (p == 1.0 ? kInf : kNaN);
   const double z = NormalQuantile(p);
   // Direct where the expansion's relative tail error (measured ~7e-3 |z|^5 / shape^2) is below
-  // 2e-14: shape^4 >= 1.2e23 max(1, z^2)^5 (shape >= 5.9e6 at p = 0.975); and above
-  // kGammaWilsonHilfertyShape, where the incomplete gamma series gets slow, at any p (its error
-  // there, < 1e-16 |z|^5, is far below that of the Wilson-Hilferty cube root used before).
+  // 2e-14: shape^4 >= 1.2e23 max(1, z^2)^5 (shape >= 5.9e5 for |z| <= 1, 3.2e6 at p = 0.975);
+  // and above kGammaWilsonHilfertyShape at any p (its error there, < 1e-16 |z|^5, is far below
+  // that of the Wilson-Hilferty cube root used before).
   const double y_cf = GammaCornishFisher(z, shape);
   const double s = std::max(1.0, z * z), s2 = s * s, shape2 = shape * shape;
   if (y_cf > 0 && (shape > kGammaWilsonHilfertyShape || shape2 * shape2 >= 1.2e23 * s2 * s2 * s))
     return y_cf / rate;
-  // Newton start: the expansion from shape 20 (its tail error is below 1e-6 from shape 300 for
-  // 1e-6 <= p <= 1 - 1e-6, so one evaluation of P then suffices); below, the Wilson-Hilferty cube
-  // root, or for the lower tail at small shape P(shape, y) ~ y^shape / Gamma(shape + 1), y -> 0.
+  // Start of the iteration: the expansion from shape 20 (its relative tail error is ~1e-6 at shape
+  // 300 and p = 0.025, below 1e-7 from shape 1e4 for 1e-6 <= p <= 1 - 1e-6, where one evaluation
+  // of P then suffices); below, the Wilson-Hilferty cube root, or for the lower tail at small shape
+  // P(shape, y) ~ y^shape / Gamma(shape + 1), y -> 0.
   double y0 = y_cf;
   if (!(shape >= 20.0 && y_cf > 0)) {
     const double v = 1.0 / (9.0 * shape);

@@ -4,8 +4,9 @@
 //   Gamma(shape, rate) with mean shape / rate; Beta(a, b); Poisson(mean); Binomial(n, p).
 // Quantiles solve F(x) = p by safeguarded Halley iteration on the distribution function (the upper
 // tail is used for p > 1/2, so both tails keep full relative precision), started from an asymptotic
-// expansion; where that expansion alone is as accurate as the iteration (relative tail error below
-// 1e-13, measured against 40-digit mpmath in tests/reference/core) it is returned directly.
+// expansion (Cornish-Fisher for t and gamma, else the normal); where that expansion alone is as
+// accurate as the iteration (relative tail error below 1e-13, measured against 40-digit mpmath in
+// tests/reference/core) it is returned directly.
 // p must be in [0, 1] (0 and 1 give the ends of the support).
 #pragma once
 
@@ -29,8 +30,8 @@ double StudentTQuantile(double p, double dof);
 // precision in both tails (computed from the tail on t's own side). Where |t| <= 1, 2, 3, 6, 10,
 // 40 at dof >= 20, 30, 50, 100, 200, 1e4 respectively it is Hill's normalizing expansion
 // (G. W. Hill 1970, CACM Algorithm 395), with |error| < 1.6e-11 there (measured against 45-digit
-// mpmath; < 4e-14 from dof 1e4); elsewhere Phi^{-1} of the exact tail F_t(-|t|). NaN when dof <= 0 or t is NaN; +-infinity when that tail
-// underflows (|z| > 38.4).
+// mpmath; < 4e-14 from dof 1e4); elsewhere Phi^{-1} of the exact tail F_t(-|t|). NaN when
+// dof <= 0 or t is NaN; +-infinity when that tail underflows (|z| > 38.4).
 double StudentTNormalScore(double t, double dof);
 
 double ChiSquaredCdf(double x, double k);

@@ -59,8 +59,8 @@ double GammaPSeries(double a, double x) {
 // P(a, x) by the continued fraction of the lower incomplete gamma,
 //   gamma(a, x) e^x x^-a = 1/(a - a x/(a + 1 + x/(a + 2 - (a + 1) x/(a + 3 + 2x/(a + 4 - ...))))),
 // partial numerators -(a + k) x and (k + 1) x in turn over denominators a + n (from memory; checked
-// against mpmath by tests/reference/core). For x < a + 1 and large a it needs about as many terms as
-// the Legendre fraction for Q above a (100-300 at a = 1e4 for |x - a| <= 2 sqrt(a), 160-1100 at
+// against mpmath by tests/reference/core). For x < a + 1 and large a it needs about as many terms
+// as the Legendre fraction for Q above a (100-300 at a = 1e4 for |x - a| <= 2 sqrt(a), 160-1100 at
 // a = 1e6) where the series needs several hundred to thousands (640 and 6100 at x = a - 2 sqrt(a)).
 // Its rounding: relative error of P up to 1.3e-13 at a = 1e6, x = a (where the series had 3e-14);
 // the prefactor's, ~1e-16 |x - a| (4e-13 at a = 1e6, x = a - 8 sqrt(a)), is the same for both.
@@ -190,7 +190,8 @@ double GammaP(double a, double x) {
   if (!(a > 0) || !(x >= 0)) return kNaN;
   if (x == 0) return 0.0;
   if (std::isinf(x)) return 1.0;
-  if (x < a + 1.0) return a >= kLowerFractionMinA ? GammaPContinuedFraction(a, x) : GammaPSeries(a, x);
+  if (x < a + 1.0)
+    return a >= kLowerFractionMinA ? GammaPContinuedFraction(a, x) : GammaPSeries(a, x);
   return 1.0 - GammaQContinuedFraction(a, x);
 }
 

@@ -99,7 +99,8 @@ TEST(ChartsSelfStartingTest, TailsKeepPrecisionAndSymmetry) {
 }
 
 // The standardizer's score is dist::StudentTNormalScore: Hill's expansion for |t| <= 1, 2, 3, 6,
-// 10, 40 at dof >= 20, 30, 50, 100, 200, 1e4, Phi^{-1} of the exact tail elsewhere (from dof 50 with one Halley step from Hill's z).
+// 10, 40 at dof >= 20, 30, 50, 100, 200, 1e4, Phi^{-1} of the exact tail elsewhere (from dof 50
+// with one Halley step from Hill's z).
 // Both must agree with the generic NormalQuantile of the same exact tail: on the expansion's side
 // within its bound of 1.6e-11 (tests/reference/core checks it against mpmath), elsewhere to rounding
 // (near z = 0 that is absolute: the tail 1/2 - O(z) holds z only to ~ulp(1/2) / phi(0) = 3e-16).
