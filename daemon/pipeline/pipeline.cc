@@ -346,6 +346,10 @@ void Pipeline::ProcessBatch(
     std::span<const int64_t> arrival_ns, PublicationSink& sink) {
   state_->ProcessBatch(observations, arrival_ns, sink);
 }
+void Pipeline::PrefetchSlot(uint64_t channel_hash) const { state_->PrefetchSlot(channel_hash); }
+void Pipeline::PrefetchChannel(uint64_t channel_hash) const {
+  state_->PrefetchChannel(channel_hash);
+}
 void Pipeline::RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                            PublicationSink& sink) {
   state_->RejectFrame(reason, detail, arrival_ns, sink);

@@ -121,6 +121,13 @@ class Pipeline {
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
                     std::span<const int64_t> arrival_ns, PublicationSink& sink);
 
+  // Lookahead hints, for a caller that processes observations one by one but knows the
+  // ChannelHash of the next ones (e.g. computed to route them): PrefetchSlot(hash) two
+  // observations ahead and PrefetchChannel(hash) one ahead start loading the registry slot and the
+  // channel's block (what ProcessBatch does itself). Any hash is safe: no effect on behaviour.
+  void PrefetchSlot(uint64_t channel_hash) const;
+  void PrefetchChannel(uint64_t channel_hash) const;
+
   // Publishes an InputError for a frame that could not be decoded (reason "malformed_frame" or
   // "oversized_frame") and counts it.
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,

@@ -39,6 +39,8 @@ class PipelineState {
   }
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
                     std::span<const int64_t> arrival_ns, PublicationSink& sink);
+  void PrefetchSlot(uint64_t channel_hash) const { channels_.PrefetchSlot(channel_hash); }
+  void PrefetchChannel(uint64_t channel_hash) const { channels_.PrefetchChannel(channel_hash); }
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                    PublicationSink& sink);
   bayline::v1::ChannelList List(std::string_view glob) const;

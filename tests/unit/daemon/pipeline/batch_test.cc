@@ -71,6 +71,27 @@ TEST(BatchTest, PartitionedBatchKeepsOnlyOwnChannels) {
   EXPECT_GT(b.counters().not_owned, 0u);
 }
 
+TEST(BatchTest, PrefetchHintsOfAnyHashChangeNothing) {
+  Pipeline p(DefaultConfig());
+  RecordingSink sink;
+  const std::vector<uint64_t> hashes = {0, ~uint64_t{0}, ChannelHash("site/a"), ChannelHash("nope")};
+  for (uint64_t h : hashes) {  // empty registry
+    p.PrefetchSlot(h);
+    p.PrefetchChannel(h);
+  }
+  for (uint64_t i = 1; i <= 40; ++i) p.Process(Obs("site/p" + std::to_string(i % 13), i, 1.0), testing::kArrival, sink);
+  const std::string before = SnapshotBytes(p);
+  const auto counters = p.counters().publications;
+  for (uint64_t h : hashes) {
+    p.PrefetchSlot(h);
+    p.PrefetchChannel(h);
+  }
+  for (int i = 0; i < 13; ++i) p.PrefetchChannel(ChannelHash("site/p" + std::to_string(i)));
+  EXPECT_EQ(SnapshotBytes(p), before);
+  EXPECT_EQ(p.counters().publications, counters);
+  EXPECT_EQ(p.counters().channels, 13u);
+}
+
 TEST(BatchTest, MismatchedArrivalTimesAreRefusedAndChangeNothing) {
   bayline::v1::ObservationBatch batch;
   *batch.add_observations() = Obs("site/a", 1, 1.0);
