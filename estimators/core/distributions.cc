@@ -234,6 +234,11 @@ double StudentTNormalScore(double t, double dof) {
   return t < 0.0 ? -z : z;
 }
 
+double StudentTNormalScoreClamped(double t, double dof) {
+  const double z = StudentTNormalScore(t, dof);
+  return z > kMaxNormalScore ? kMaxNormalScore : (z < -kMaxNormalScore ? -kMaxNormalScore : z);
+}
+
 double StudentTQuantile(double p, double dof) {
   if (!(dof > 0)) return kNaN;
   if (!(p > 0.0 && p < 1.0)) return p == 0.0 ? -kInf : (p == 1.0 ? kInf : kNaN);

@@ -33,6 +33,12 @@ double StudentTQuantile(double p, double dof);
 // mpmath; < 4e-14 from dof 1e4); elsewhere Phi^{-1} of the exact tail F_t(-|t|). NaN when
 // dof <= 0 or t is NaN; +-infinity when that tail underflows (|z| > 38.4).
 double StudentTNormalScore(double t, double dof);
+// The normal score of the smallest positive double is about -38.4: a score whose tail underflows is
+// beyond it. StudentTNormalScoreClamped reports such scores as +-kMaxNormalScore, more extreme than
+// any representable score yet finite, so that a chart fed with scores counts a gross outlier instead
+// of skipping a non-finite value. NaN as StudentTNormalScore.
+inline constexpr double kMaxNormalScore = 38.5;
+double StudentTNormalScoreClamped(double t, double dof);
 
 double ChiSquaredCdf(double x, double k);
 double ChiSquaredQuantile(double p, double k);

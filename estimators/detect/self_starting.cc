@@ -10,7 +10,7 @@ namespace bayline::est {
 
 double StandardizeRecursiveResidual(double w, double scale, double dof) {
   if (!std::isfinite(w) || !(scale > 0.0) || !std::isfinite(scale) || !(dof >= 1.0)) return kNaN;
-  return dist::StudentTNormalScore(w / scale, dof);
+  return dist::StudentTNormalScoreClamped(w / scale, dof);
 }
 
 namespace {
@@ -40,7 +40,7 @@ Status SelfStartingStandardizer::Update(double y, double* z) {
   if (n1 >= 2.0 && next.m2 > 0.0) {
     const double s = std::sqrt(next.m2 / (n1 - 1.0));
     const double t = (y - next.mean) / (s * std::sqrt(1.0 + 1.0 / n1));
-    out = dist::StudentTNormalScore(t, n1 - 1.0);
+    out = dist::StudentTNormalScoreClamped(t, n1 - 1.0);
   }
   next.count += 1.0;
   const double d = y - next.mean;

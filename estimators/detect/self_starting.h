@@ -19,9 +19,10 @@
 //
 // KnownStandardizer (Phase II): z = (y - mean) / sd with user-given in-control mean and sd.
 //
-// The t-to-normal transform is dist::StudentTNormalScore (core/distributions.h): it uses the tail
-// on the value's own side, so |z| keeps full relative precision far out in the tails (infinite
-// where that tail underflows, |z| > 38.4). Thread safety: none (one owner per object).
+// The t-to-normal transform is dist::StudentTNormalScoreClamped (core/distributions.h): it uses the
+// tail on the value's own side, so |z| keeps full relative precision far out in the tails; where that
+// tail underflows (|z| > 38.4) z is +-38.5, finite, so a gross outlier feeds the chart instead of
+// being skipped. Thread safety: none (one owner per object).
 #pragma once
 
 #include "estimators/core/report.h"
@@ -31,7 +32,7 @@
 namespace bayline::est {
 
 // z for a recursive residual w given the residual scale of the earlier observations and its dof:
-// dist::StudentTNormalScore(w / scale, dof). NaN when w is not finite, scale <= 0 or not finite,
+// dist::StudentTNormalScoreClamped(w / scale, dof). NaN when w is not finite, scale <= 0 or not finite,
 // dof < 1.
 double StandardizeRecursiveResidual(double w, double scale, double dof);
 

@@ -11,9 +11,8 @@
 namespace bayline::est::map_internal {
 
 inline constexpr double kInf = std::numeric_limits<double>::infinity();
-// The normal score of the smallest positive double is about -38.4; scores are clamped there when a
-// tail probability underflows.
-inline constexpr double kMaxScore = 38.5;
+// Scores whose tail probability underflows are clamped to +-kMaxScore (see core/distributions.h).
+inline constexpr double kMaxScore = dist::kMaxNormalScore;
 
 // Givens-rotates `row` into the upper-triangular F (F'F + row'row is preserved) so that row becomes
 // zero; columns before `first` of row must already be zero. Diagonal entries stay >= 0. Square-root
@@ -45,11 +44,10 @@ inline double NormalScoreFromTails(double lower, double upper) {
   return upper > 0 ? -dist::NormalQuantile(upper) : kMaxScore;
 }
 
-// Normal score Phi^{-1}(F_t(t)) of a standard Student-t variate (dist::StudentTNormalScore), clamped
-// to +-kMaxScore where its tail underflows.
+// Normal score Phi^{-1}(F_t(t)) of a standard Student-t variate, clamped to +-kMaxScore where its
+// tail underflows.
 inline double StudentTNormalScore(double t, double nu) {
-  const double z = dist::StudentTNormalScore(t, nu);
-  return z > kMaxScore ? kMaxScore : (z < -kMaxScore ? -kMaxScore : z);
+  return dist::StudentTNormalScoreClamped(t, nu);
 }
 
 // The time kept for the next discount: the latest time seen (untimed or out-of-order samples do not

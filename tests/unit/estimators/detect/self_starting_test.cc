@@ -119,6 +119,21 @@ TEST(ChartsSelfStartingTest, ScoreAgreesWithGenericNormalQuantileOfTheExactTail)
   }
 }
 
+// A gross outlier on an old channel: its t tail underflows the double range, and the score is the
+// finite +-kMaxNormalScore (a chart counts it) rather than an infinity the charts would skip.
+TEST(ChartsSelfStartingTest, UnderflowingTailGivesTheLargestFiniteScore) {
+  SelfStartingStandardizer s;
+  double z = 0;
+  for (int i = 0; i < 5000; ++i) ASSERT_TRUE(s.Update(std::sin(0.7 * i), &z).ok());
+  ASSERT_TRUE(s.Update(1e6, &z).ok());
+  EXPECT_EQ(z, dist::kMaxNormalScore);
+  ASSERT_TRUE(s.Update(-1e6, &z).ok());
+  EXPECT_EQ(z, -dist::kMaxNormalScore);
+  EXPECT_TRUE(std::isinf(dist::StudentTNormalScore(1e6, 5000.0)));  // the unclamped score
+  EXPECT_EQ(StandardizeRecursiveResidual(1e6, 1.0, 5000.0), dist::kMaxNormalScore);
+  EXPECT_EQ(dist::StudentTNormalScoreClamped(3.0, 30.0), dist::StudentTNormalScore(3.0, 30.0));
+}
+
 TEST(ChartsSelfStartingTest, RejectsNonFiniteAndKeepsState) {
   SelfStartingStandardizer s;
   double z = 0;
