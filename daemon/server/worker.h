@@ -125,8 +125,12 @@ class Worker {
 
   const int index_;
   std::unique_ptr<pipeline::Pipeline> pipeline_;
-  ZmqPublicationSink sink_;               // used only on the worker thread
-  bayline::v1::Observation observation_;  // decoding buffer, worker thread only
+  // Used only by the thread holding the queue's claim (the worker thread, or the ingest thread in
+  // TryProcessHere).
+  ZmqPublicationSink sink_;
+  bayline::v1::ObservationBatch decoded_;  // decoding buffers
+  std::vector<int64_t> arrival_ns_;
+  bayline::v1::Observation observation_;
   WorkQueue<Item> queue_;
   std::mutex free_mutex_;
   std::vector<std::unique_ptr<IngestBatch>> free_batches_;
