@@ -5,6 +5,7 @@
 #include <limits>
 #include <numbers>
 
+#include "estimators/core/quantile_memo.h"
 #include "estimators/core/special_functions.h"
 
 namespace bayline::est::dist {
@@ -239,9 +240,9 @@ double StudentTNormalScoreClamped(double t, double dof) {
   return z > kMaxNormalScore ? kMaxNormalScore : (z < -kMaxNormalScore ? -kMaxNormalScore : z);
 }
 
-double StudentTQuantile(double p, double dof) {
-  if (!(dof > 0)) return kNaN;
-  if (!(p > 0.0 && p < 1.0)) return p == 0.0 ? -kInf : (p == 1.0 ? kInf : kNaN);
+namespace {
+// StudentTQuantile for 0 < p < 1, dof > 0, without the memo.
+double ComputeStudentTQuantile(double p, double dof) {
   const double z = NormalQuantile(p);
   const double x0 = StudentTCornishFisher(z, dof);
   // Direct where the expansion's relative tail error (measured against 40-digit mpmath on ~500
@@ -269,6 +270,19 @@ double StudentTQuantile(double p, double dof) {
       [&lower_tail](double v) { return v < 0 ? 1.0 - lower_tail(v) : lower_tail(v); },
       [dof, log_norm](double v) { return log_norm - 0.5 * (dof + 1) * std::log1p(v * v / dof); },
       [dof](double v) { return -(dof + 1) * v / (dof + v * v); }, x0, -kInf, kInf);
+}
+}  // namespace
+
+double StudentTQuantile(double p, double dof) {
+  if (!(dof > 0)) return kNaN;
+  if (!(p > 0.0 && p < 1.0)) return p == 0.0 ? -kInf : (p == 1.0 ? kInf : kNaN);
+  thread_local internal::QuantileMemo memo;
+  double x;
+  if (!memo.Find(p, dof, &x)) {
+    x = ComputeStudentTQuantile(p, dof);
+    memo.Store(p, dof, x);
+  }
+  return x;
 }
 
 double GammaLogPdf(double x, double shape, double rate) {
@@ -312,9 +326,9 @@ double GammaCornishFisher(double z, double shape) {
 }
 }  // namespace
 
-double GammaQuantile(double p, double shape, double rate) {
-  if (!(shape > 0 && rate > 0)) return kNaN;
-  if (!(p > 0.0 && p < 1.0)) return p == 0.0 ? 0.0 : (p == 1.0 ? kInf : kNaN);
+namespace {
+// The Gamma(shape, 1) quantile for 0 < p < 1, shape > 0, without the memo.
+double ComputeGammaQuantile(double p, double shape) {
   const double z = NormalQuantile(p);
   // Direct where the expansion's relative tail error (measured ~7e-3 |z|^5 / shape^2) is below
   // 2e-14: shape^4 >= 1.2e23 max(1, z^2)^5 (shape >= 5.9e5 for |z| <= 1, 3.2e6 at p = 0.975);
@@ -323,7 +337,7 @@ double GammaQuantile(double p, double shape, double rate) {
   const double y_cf = GammaCornishFisher(z, shape);
   const double s = std::max(1.0, z * z), s2 = s * s, shape2 = shape * shape;
   if (y_cf > 0 && (shape > kGammaWilsonHilfertyShape || shape2 * shape2 >= 1.2e23 * s2 * s2 * s))
-    return y_cf / rate;
+    return y_cf;
   // Start of the iteration: the expansion from shape 20 (its relative tail error is ~1e-6 at shape
   // 300 and p = 0.025, below 1e-7 from shape 1e4 for 1e-6 <= p <= 1 - 1e-6, where one evaluation
   // of P then suffices); below, the Wilson-Hilferty cube root, or for the lower tail at small shape
@@ -344,6 +358,19 @@ double GammaQuantile(double p, double shape, double rate) {
         return y > 0 ? (shape - 1) * std::log(y) - y - log_gamma : GammaLogPdf(y, shape, 1.0);
       },
       [shape](double y) { return (shape - 1) / y - 1.0; }, y0, 0.0, kInf);
+  return y;
+}
+}  // namespace
+
+double GammaQuantile(double p, double shape, double rate) {
+  if (!(shape > 0 && rate > 0)) return kNaN;
+  if (!(p > 0.0 && p < 1.0)) return p == 0.0 ? 0.0 : (p == 1.0 ? kInf : kNaN);
+  thread_local internal::QuantileMemo memo;
+  double y;
+  if (!memo.Find(p, shape, &y)) {
+    y = ComputeGammaQuantile(p, shape);
+    memo.Store(p, shape, y);
+  }
   return y / rate;
 }
 

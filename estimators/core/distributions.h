@@ -6,7 +6,9 @@
 // tail is used for p > 1/2, so both tails keep full relative precision), started from an asymptotic
 // expansion (Cornish-Fisher for t and gamma, else the normal); where that expansion alone is as
 // accurate as the iteration (relative tail error below 1e-13, measured against 40-digit mpmath in
-// tests/reference/core) it is returned directly.
+// tests/reference/core) it is returned directly. StudentTQuantile and GammaQuantile keep what they
+// computed in a small per-thread memo (core/quantile_memo.h), since reports of many channels ask
+// for the same (p, dof): a repeated call returns the identical value without the iteration.
 // p must be in [0, 1] (0 and 1 give the ends of the support).
 #pragma once
 
