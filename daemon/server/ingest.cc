@@ -202,7 +202,7 @@ void Ingest::Reject(const char* reason, std::string detail, int64_t arrival_ns) 
 void Ingest::Flush(size_t worker) {
   auto& batch = pending_[worker];
   if (!batch || batch->size() == 0) return;
-  if (!workers_[worker]->TryProcessHere(*batch)) workers_[worker]->Submit(std::move(batch));
+  workers_[worker]->Submit(std::move(batch));
 }
 
 void Ingest::FlushAll() {

@@ -12,9 +12,8 @@
 // sends it to worker (h / shard.count) % workers (dividing first keeps the workers balanced when
 // shard.count and the worker count share factors). A batch is handed over when it reaches
 // kMaxBatch observations or kMaxBatchBytes (which bounds the memory a queue of large observations
-// holds), or when no more frames are waiting, so latency stays low at low rates; a batch of a few
-// observations for an idle worker is processed on the ingest thread itself
-// (Worker::TryProcessHere), which spares it the hand-off and the worker's wake-up.
+// holds), or when no more frames are waiting, so latency stays low at low rates. Ingest never
+// estimates: every observation is processed on the worker thread that owns its channel.
 //
 // Lifetime: construct and Bind() in the supervisor thread -> Start() -> Stop() (hands over what it
 // holds, then joins). Counters may be read from any thread.

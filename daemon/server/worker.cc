@@ -66,15 +66,6 @@ void Worker::Recycle(std::unique_ptr<IngestBatch> batch) {
   free_batches_.push_back(std::move(batch));
 }
 
-bool Worker::TryProcessHere(IngestBatch& batch) {
-  if (batch.size() > kMaxInlineBatch || !queue_.TryClaimIdle()) return false;
-  ProcessBatch(batch);
-  sink_.Flush();
-  queue_.Release();
-  batch.Clear();
-  return true;
-}
-
 void Worker::ProcessBatch(const IngestBatch& batch) {
   // Decode the whole batch into reused messages, then let the pipeline process it in one call
   // (pipeline::Pipeline::ProcessBatch looks up the next observations' channels ahead).
@@ -109,7 +100,7 @@ void Worker::ProcessBatch(const IngestBatch& batch) {
 
 void Worker::Run() {
   for (;;) {
-    Item item = queue_.PopAndClaim();
+    Item item = queue_.Pop();
     if (item.batch) {
       ProcessBatch(*item.batch);
       Recycle(std::move(item.batch));
@@ -120,7 +111,6 @@ void Worker::Run() {
     }
     if (item.task) item.task(*pipeline_);
     sink_.Flush();  // before the next wait
-    queue_.Release();
     if (item.stop) break;
   }
   sink_.FlushLog();

@@ -1,8 +1,6 @@
 // A worker thread: owns one pipeline::Pipeline (a partition of the channels) exclusively and is
 // reached only by message passing through its bounded WorkQueue:
-//   * observation batches from the ingest thread (processed in order, so per-channel order holds;
-//     a small batch for an idle worker is processed by the ingest thread itself, holding the
-//     queue's claim, see TryProcessHere);
+//   * observation batches from the ingest thread (processed in order, so per-channel order holds);
 //   * tasks from the supervisor thread (control requests, snapshots, reload), run on the worker's
 //     own thread between batches, so no two threads ever touch the pipeline at once.
 // Publications are collected while an item is processed and sent on the shared PUB socket
@@ -77,14 +75,6 @@ class Worker {
   std::unique_ptr<IngestBatch> TakeEmptyBatch();
   void Submit(std::unique_ptr<IngestBatch> batch);
 
-  // Ingest thread: processes a batch of at most kMaxInlineBatch observations right here when the
-  // worker is idle (nothing queued, nothing running), and clears it; false (batch untouched) when
-  // the worker is busy or the batch is larger: then Submit it. At low and moderate rates this
-  // spares each observation a thread hand-off and a wake-up; at high rates the batches grow and go
-  // to the worker threads.
-  static constexpr size_t kMaxInlineBatch = 4;
-  bool TryProcessHere(IngestBatch& batch);
-
   // Runs `task` on the worker thread after everything queued before it; does not wait.
   void Post(Task task);
 
@@ -119,14 +109,13 @@ class Worker {
     bool stop = false;
   };
   void Run();
-  // Runs on whichever thread holds the queue's claim.
+  // Decodes the batch and runs it through the pipeline (worker thread).
   void ProcessBatch(const IngestBatch& batch);
   void Recycle(std::unique_ptr<IngestBatch> batch);
 
   const int index_;
   std::unique_ptr<pipeline::Pipeline> pipeline_;
-  // Used only by the thread holding the queue's claim (the worker thread, or the ingest thread in
-  // TryProcessHere).
+  // Used only by the worker thread.
   ZmqPublicationSink sink_;
   bayline::v1::ObservationBatch decoded_;  // decoding buffers
   std::vector<int64_t> arrival_ns_;
