@@ -3,6 +3,9 @@
 //                                    (the per-observation score of standardizers and map models)
 //   BM_StudentTQuantile/dof:D        t quantile at p = 0.975 (every published t interval)
 //   BM_GammaQuantile/p:P/shape:A     gamma quantile at p = P / 1000 (variance and rate intervals)
+//   BM_StudentTQuantileRepeated      the same t quantile asked again: a hit in the per-thread memo
+// The quantile benchmarks cycle the parameter over 65,536 values within 1e-6 relative of D (resp.
+// A), so each call misses the 2,048-slot memo (core/quantile_memo.h) and measures the computation.
 // Run: build-num/tests/bench/core/bayline_bench_distributions --benchmark_min_time=0.5
 #include <cstdint>
 #include <random>
@@ -43,9 +46,28 @@ void BM_StudentTNormalScore(benchmark::State& state) {
 }
 BENCHMARK(BM_StudentTNormalScore)->ArgName("dof")->ArgsProduct({kSizes});
 
+// 65,536 distinct parameters within 1e-6 relative of `center` (more keys than memo slots).
+std::vector<double> NearbyParameters(double center) {
+  std::vector<double> v(1 << 16);
+  for (std::size_t i = 0; i < v.size(); ++i) v[i] = center * (1.0 + 1.5e-11 * static_cast<double>(i));
+  return v;
+}
+
 void BM_StudentTQuantile(benchmark::State& state) {
-  double dof = static_cast<double>(state.range(0));
+  const std::vector<double> dofs = NearbyParameters(static_cast<double>(state.range(0)));
   double p = 0.975;
+  std::size_t i = 0;
+  for (auto _ : state) {
+    benchmark::DoNotOptimize(p);
+    double x = dist::StudentTQuantile(p, dofs[i++ & 0xFFFF]);
+    benchmark::DoNotOptimize(x);
+  }
+  state.SetItemsProcessed(state.iterations());
+}
+BENCHMARK(BM_StudentTQuantile)->ArgName("dof")->ArgsProduct({kSizes});
+
+void BM_StudentTQuantileRepeated(benchmark::State& state) {
+  double dof = 30.0, p = 0.975;
   for (auto _ : state) {
     benchmark::DoNotOptimize(p);
     benchmark::DoNotOptimize(dof);
@@ -54,15 +76,15 @@ void BM_StudentTQuantile(benchmark::State& state) {
   }
   state.SetItemsProcessed(state.iterations());
 }
-BENCHMARK(BM_StudentTQuantile)->ArgName("dof")->ArgsProduct({kSizes});
+BENCHMARK(BM_StudentTQuantileRepeated);
 
 void BM_GammaQuantile(benchmark::State& state) {
   double p = static_cast<double>(state.range(0)) / 1000.0;
-  double shape = static_cast<double>(state.range(1));
+  const std::vector<double> shapes = NearbyParameters(static_cast<double>(state.range(1)));
+  std::size_t i = 0;
   for (auto _ : state) {
     benchmark::DoNotOptimize(p);
-    benchmark::DoNotOptimize(shape);
-    double x = dist::GammaQuantile(p, shape, 1.0);
+    double x = dist::GammaQuantile(p, shapes[i++ & 0xFFFF], 1.0);
     benchmark::DoNotOptimize(x);
   }
   state.SetItemsProcessed(state.iterations());
