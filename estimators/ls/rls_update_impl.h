@@ -11,7 +11,7 @@
 #include "estimators/core/distributions.h"
 #include "estimators/ls/double_double.h"
 #include "estimators/ls/recursive_least_squares.h"
-#include "estimators/ls/t_log_density.h"
+#include "estimators/core/t_log_density.h"
 
 namespace bayline::est {
 

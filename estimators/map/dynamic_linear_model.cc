@@ -6,6 +6,7 @@
 #include <string>
 
 #include "estimators/core/distributions.h"
+#include "estimators/core/t_log_density.h"
 #include "estimators/map/posterior_util.h"
 
 namespace bayline::est {
@@ -139,7 +140,7 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
     // The normal score costs an incomplete beta and a normal quantile; only a caller that asked
     // for the innovation reads it.
     if (out) inn.standardized = map_internal::StudentTNormalScore(t, nu);
-    inn.log_predictive = dist::StudentTLogPdf(t, nu) - std::log(scale);
+    inn.log_predictive = StudentTLogDensity(t, nu) - std::log(scale);
     v_shape += 0.5;
     v_scale += 0.5 * e * e / Q;
   } else {

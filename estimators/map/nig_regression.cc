@@ -6,6 +6,7 @@
 #include <string>
 
 #include "estimators/core/distributions.h"
+#include "estimators/core/t_log_density.h"
 #include "estimators/map/posterior_util.h"
 
 namespace bayline::est {
@@ -144,7 +145,7 @@ Status NigRegression<P>::Update(const Sample& s, Innovation* out) {
     // The normal score costs an incomplete beta and a normal quantile; only a caller that asked
     // for the innovation reads it.
     if (out) inn.standardized = map_internal::StudentTNormalScore(t, nu);
-    inn.log_predictive = dist::StudentTLogPdf(t, nu) - std::log(scale);
+    inn.log_predictive = StudentTLogDensity(t, nu) - std::log(scale);
     if (!std::isfinite(inn.log_predictive) || (out && !std::isfinite(inn.standardized))) {
       return map_internal::Numerical("predictive density not finite");
     }

@@ -1,5 +1,5 @@
 // Log density of the standard Student t distribution, fast for the large degrees of freedom a
-// streaming estimator reaches. With a = dof / 2:
+// streaming estimator reaches (the predictive densities of ls and of the map models). a = dof / 2:
 //   log f(u) = log Gamma(a + 1/2) - log Gamma(a) - 1/2 log(2 a pi) - (2a + 1)/2 log1p(u^2 / (2a)),
 // and log Gamma(a + 1/2) - log Gamma(a) - 1/2 log a = -1/(8a) + 1/(192 a^3) - 1/(640 a^5)
 // + 17/(14336 a^7) - 31/(18432 a^9) + O(a^-11) (asymptotic series; checked against
