@@ -42,6 +42,26 @@ double LogGammaPrefactor(double a, double x) {
   return a * (std::log1p(t) - t) + 0.5 * std::log(a) - kLogSqrt2Pi - StirlingError(a);
 }
 
+// b_0 + a_1 / (b_1 + a_2 / (b_2 + ...)) by the modified Lentz method; term(n) returns {a_n, b_n}
+// for n >= 1. Stops when a step changes the value by less than kEps relative.
+template <typename Term>
+double EvaluateContinuedFraction(double b0, Term term) {
+  double f = std::fabs(b0) < kTiny ? kTiny : b0;
+  double c = f, d = 0.0;
+  for (int n = 1; n < kMaxIterations; ++n) {
+    const auto [an, bn] = term(n);
+    d = bn + an * d;
+    if (std::fabs(d) < kTiny) d = kTiny;
+    c = bn + an / c;
+    if (std::fabs(c) < kTiny) c = kTiny;
+    d = 1.0 / d;
+    const double delta = c * d;
+    f *= delta;
+    if (std::fabs(delta - 1.0) < kEps) break;
+  }
+  return f;
+}
+
 // P(a, x) by its series; converges for any x but fast only for x < a + 1.
 double GammaPSeries(double a, double x) {
   double term = 1.0 / a;
@@ -65,42 +85,25 @@ double GammaPSeries(double a, double x) {
 // Its rounding: relative error of P up to 1.3e-13 at a = 1e6, x = a (where the series had 3e-14);
 // the prefactor's, ~1e-16 |x - a| (4e-13 at a = 1e6, x = a - 8 sqrt(a)), is the same for both.
 double GammaPContinuedFraction(double a, double x) {
-  double f = a, c = a, d = 0.0;
-  for (int n = 1; n < kMaxIterations; ++n) {
+  const double f = EvaluateContinuedFraction(a, [a, x](int n) {
     const int k = (n - 1) / 2;
-    const double an = (n % 2 == 1) ? -(a + k) * x : (k + 1) * x;
-    const double bn = a + n;
-    d = bn + an * d;
-    if (std::fabs(d) < kTiny) d = kTiny;
-    c = bn + an / c;
-    if (std::fabs(c) < kTiny) c = kTiny;
-    d = 1.0 / d;
-    const double delta = c * d;
-    f *= delta;
-    if (std::fabs(delta - 1.0) < kEps) break;
-  }
+    return std::pair{(n % 2 == 1) ? -(a + k) * x : (k + 1) * x, a + n};
+  });
   return std::exp(LogGammaPrefactor(a, x)) / f;
 }
 
-// Q(a, x) by its continued fraction; converges fast for x > a + 1.
+// Q(a, x) = prefactor / (b_0 + a_1 / (b_1 + ...)), b_n = x + 1 - a + 2n, a_n = -n (n - a) (the
+// Legendre fraction); converges fast for x > a + 1.
 double GammaQContinuedFraction(double a, double x) {
-  double b = x + 1.0 - a;
-  double c = 1.0 / kTiny;
-  double d = 1.0 / b;
-  double h = d;
-  for (int i = 1; i < kMaxIterations; ++i) {
-    const double an = -i * (i - a);
-    b += 2.0;
-    d = an * d + b;
-    if (std::fabs(d) < kTiny) d = kTiny;
-    c = b + an / c;
-    if (std::fabs(c) < kTiny) c = kTiny;
-    d = 1.0 / d;
-    const double delta = d * c;
-    h *= delta;
-    if (std::fabs(delta - 1.0) < kEps) break;
-  }
-  return std::exp(LogGammaPrefactor(a, x)) * h;
+  const double b0 = x + 1.0 - a;
+  const double f = EvaluateContinuedFraction(
+      b0, [a, b0](int n) { return std::pair{-n * (n - a), b0 + 2.0 * n}; });
+  return std::exp(LogGammaPrefactor(a, x)) / f;
+}
+
+// P(a, x) for x < a + 1: the series, or from kLowerFractionMinA the lower continued fraction.
+double GammaPBelowTransition(double a, double x) {
+  return a >= kLowerFractionMinA ? GammaPContinuedFraction(a, x) : GammaPSeries(a, x);
 }
 
 // Continued fraction for I_x(a, b) without its prefactor; fast for x < (a + 1) / (a + b + 2).
@@ -191,7 +194,7 @@ double GammaP(double a, double x) {
   if (x == 0) return 0.0;
   if (std::isinf(x)) return 1.0;
   if (x < a + 1.0)
-    return a >= kLowerFractionMinA ? GammaPContinuedFraction(a, x) : GammaPSeries(a, x);
+    return GammaPBelowTransition(a, x);
   return 1.0 - GammaQContinuedFraction(a, x);
 }
 
@@ -200,7 +203,7 @@ double GammaQ(double a, double x) {
   if (x == 0) return 1.0;
   if (std::isinf(x)) return 0.0;
   if (x < a + 1.0)
-    return 1.0 - (a >= kLowerFractionMinA ? GammaPContinuedFraction(a, x) : GammaPSeries(a, x));
+    return 1.0 - GammaPBelowTransition(a, x);
   return GammaQContinuedFraction(a, x);
 }
 
