@@ -89,7 +89,8 @@ std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
 
 void PipelineState::ProcessBatch(
     const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
-    std::span<const int64_t> arrival_ns, PublicationSink& sink) {
+    std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
+    PublicationSink& sink) {
   const std::size_t n = static_cast<std::size_t>(observations.size());
   if (arrival_ns.size() != n) {
     throw std::invalid_argument("ProcessBatch: " + std::to_string(n) + " observations but " +
@@ -98,7 +99,7 @@ void PipelineState::ProcessBatch(
   // Software pipeline over the batch: the name of observation i + kSlotAhead is hashed and its
   // registry slot prefetched, the block of observation i + 1 is prefetched through its (by then
   // cached) slot, and observation i is processed. Hashes are kept for names Process would not
-  // refuse on length alone (those it refuses are never hashed).
+  // refuse on length alone (those it refuses are never hashed), or taken from channel_hashes.
   constexpr std::size_t kSlotAhead = 2, kRing = 4;
   std::array<uint64_t, kRing> hashes{};
   std::array<bool, kRing> hashed{};
@@ -106,7 +107,7 @@ void PipelineState::ProcessBatch(
     const std::string& name = observations.Get(static_cast<int>(j)).channel();
     hashed[j % kRing] = !name.empty() && name.size() <= limits_.max_channel_name_bytes;
     if (hashed[j % kRing]) {
-      hashes[j % kRing] = ChannelHash(name);
+      hashes[j % kRing] = channel_hashes.empty() ? ChannelHash(name) : channel_hashes[j];
       channels_.PrefetchSlot(hashes[j % kRing]);
     }
   };
@@ -344,7 +345,18 @@ void Pipeline::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
 void Pipeline::ProcessBatch(
     const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
     std::span<const int64_t> arrival_ns, PublicationSink& sink) {
-  state_->ProcessBatch(observations, arrival_ns, sink);
+  state_->ProcessBatch(observations, arrival_ns, {}, sink);
+}
+void Pipeline::ProcessBatch(
+    const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+    std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
+    PublicationSink& sink) {
+  if (channel_hashes.size() != arrival_ns.size()) {
+    throw std::invalid_argument("ProcessBatch: " + std::to_string(arrival_ns.size()) +
+                                " arrival times but " + std::to_string(channel_hashes.size()) +
+                                " channel hashes");
+  }
+  state_->ProcessBatch(observations, arrival_ns, channel_hashes, sink);
 }
 void Pipeline::PrefetchSlot(uint64_t channel_hash) const { state_->PrefetchSlot(channel_hash); }
 void Pipeline::PrefetchChannel(uint64_t channel_hash) const {

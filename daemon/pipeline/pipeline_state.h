@@ -37,8 +37,10 @@ class PipelineState {
   void Process(const bayline::v1::Observation& obs, int64_t arrival_ns, PublicationSink& sink) {
     ProcessHashed(obs, arrival_ns, nullptr, sink);
   }
+  // channel_hashes: empty (hashed here) or ChannelHash of every observation's name.
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
-                    std::span<const int64_t> arrival_ns, PublicationSink& sink);
+                    std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
+                    PublicationSink& sink);
   void PrefetchSlot(uint64_t channel_hash) const { channels_.PrefetchSlot(channel_hash); }
   void PrefetchChannel(uint64_t channel_hash) const { channels_.PrefetchChannel(channel_hash); }
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,

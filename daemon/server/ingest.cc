@@ -189,7 +189,7 @@ void Ingest::Route(std::string_view channel, std::string_view observation, int64
   const size_t worker = WorkerOf(h, shard_, workers_.size());
   auto& batch = pending_[worker];
   if (!batch) batch = workers_[worker]->TakeEmptyBatch();
-  batch->Add(observation, arrival_ns);
+  batch->Add(observation, arrival_ns, h);
   Increment(observations_received_);
   if (batch->size() >= kMaxBatch || batch->bytes.size() >= kMaxBatchBytes) Flush(worker);
 }

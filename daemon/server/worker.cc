@@ -72,14 +72,18 @@ void Worker::ProcessBatch(const IngestBatch& batch) {
   auto* observations = decoded_.mutable_observations();
   observations->Clear();  // keeps the cleared messages, and their buffers, for reuse
   arrival_ns_.clear();
+  channel_hashes_.clear();
   bool decoded = true;
   for (size_t i = 0; i < batch.size() && decoded; ++i) {
     const std::string_view bytes = batch.At(i);
     decoded = observations->Add()->ParseFromArray(bytes.data(), int(bytes.size()));
     arrival_ns_.push_back(batch.entries[i].arrival_ns);
+    channel_hashes_.push_back(batch.entries[i].channel_hash);
   }
   if (decoded) {
-    pipeline_->ProcessBatch(*observations, arrival_ns_, sink_);
+    // The ingest thread hashed the names to route them (frame_scan.h reads the very name that
+    // protobuf decodes), so the pipeline does not hash them again.
+    pipeline_->ProcessBatch(*observations, arrival_ns_, channel_hashes_, sink_);
     return;
   }
   // Not expected (ingest hands over only observations that decode): one at a time, refusing the

@@ -37,12 +37,14 @@ struct IngestBatch {
     uint32_t offset = 0;  // into bytes
     uint32_t size = 0;
     int64_t arrival_ns = 0;
+    uint64_t channel_hash = 0;  // pipeline::ChannelHash of the observation's channel name
   };
   std::string bytes;
   std::vector<Entry> entries;
 
-  void Add(std::string_view observation, int64_t arrival_ns) {
-    entries.push_back({uint32_t(bytes.size()), uint32_t(observation.size()), arrival_ns});
+  void Add(std::string_view observation, int64_t arrival_ns, uint64_t channel_hash) {
+    entries.push_back(
+        {uint32_t(bytes.size()), uint32_t(observation.size()), arrival_ns, channel_hash});
     bytes.append(observation);
   }
   std::string_view At(size_t i) const {
@@ -119,6 +121,7 @@ class Worker {
   ZmqPublicationSink sink_;
   bayline::v1::ObservationBatch decoded_;  // decoding buffers
   std::vector<int64_t> arrival_ns_;
+  std::vector<uint64_t> channel_hashes_;
   bayline::v1::Observation observation_;
   WorkQueue<Item> queue_;
   std::mutex free_mutex_;

@@ -55,6 +55,37 @@ TEST(BatchTest, ProcessBatchPublishesWhatProcessWouldInOrder) {
   EXPECT_GT(batched.counters().rejected_total, 5u);
 }
 
+TEST(BatchTest, CallerHashedBatchPublishesWhatProcessWould) {
+  bayline::v1::ObservationBatch batch;
+  std::vector<int64_t> arrival;
+  std::vector<uint64_t> hashes;
+  for (uint64_t i = 1; i <= 40; ++i) {
+    const std::string name = i % 10 == 0 ? std::string(300, 'z')  // too long: hash unused
+                                         : "site/p" + std::to_string(i % 6);
+    *batch.add_observations() = Obs(name, i / 6 + 1, 1.0 + 0.5 * double(i % 3));
+    arrival.push_back(testing::kArrival + static_cast<int64_t>(i));
+    hashes.push_back(ChannelHash(name));
+  }
+  Pipeline one_by_one(DefaultConfig()), hashed(DefaultConfig());
+  RecordingSink s1, s2;
+  for (int i = 0; i < batch.observations_size(); ++i) {
+    one_by_one.Process(batch.observations(i), arrival[static_cast<std::size_t>(i)], s1);
+  }
+  hashed.ProcessBatch(batch.observations(), arrival, hashes, s2);
+  EXPECT_GT(s1.records.size(), 40u);
+  EXPECT_EQ(Published(s2), Published(s1));
+  EXPECT_EQ(SnapshotBytes(hashed), SnapshotBytes(one_by_one));
+
+  // One hash short: refused before anything is processed.
+  Pipeline refused(DefaultConfig());
+  RecordingSink s3;
+  hashes.pop_back();
+  EXPECT_THROW(refused.ProcessBatch(batch.observations(), arrival, hashes, s3),
+               std::invalid_argument);
+  EXPECT_TRUE(s3.records.empty());
+  EXPECT_EQ(refused.counters().channels, 0u);
+}
+
 TEST(BatchTest, PartitionedBatchKeepsOnlyOwnChannels) {
   bayline::v1::ObservationBatch batch;
   std::vector<int64_t> arrival;
