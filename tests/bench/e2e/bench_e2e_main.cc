@@ -6,7 +6,8 @@
 //            rate of the same frames (PULL, no decoding) for comparison
 //   batch    100 observations per frame: the same two rates
 //   latency  paced 50,000 obs/s, every observation published: send -> publication p50/p99/p99.9,
-//            and the raw one-hop (PUSH -> PULL) latency at the same pace
+//            and the raw one-hop (PUSH -> PULL) latency at the same pace, and the floor of a bare
+//            relay with baylined's thread structure (relay_floor.h) at the same pace
 //   memory   1,000,000 channels, one observation each: daemon RSS growth per channel
 // Everything is bounded in count and time and runs on loopback. Flags: --quick (smaller counts,
 // for a smoke run); --only=single|batch|latency|memory (one scenario, e.g. under perf);
@@ -31,6 +32,7 @@
 #include "bayline/v1/publication.pb.h"
 #include "tests/bench/e2e/daemon_process.h"
 #include "tests/bench/e2e/load.h"
+#include "tests/bench/e2e/relay_floor.h"
 
 namespace bayline::bench {
 namespace {
@@ -315,6 +317,11 @@ int main(int argc, char** argv) {
     }
     if (run("latency")) {
       const Percentiles raw_lat = RawLatency(ctx, sizes.latency_seconds);
+      const auto send_paced = [&](const std::string& endpoint) {
+        SendPaced(ctx, endpoint, 50000, sizes.latency_seconds, true);
+      };
+      const Percentiles two_hops = RelayLatency(ctx, false, send_paced);
+      const Percentiles floor_lat = RelayLatency(ctx, true, send_paced);
       const Percentiles lat =
           DaemonLatency(ctx, baylined, dir + "/latency", every1, sizes.latency_seconds);
       std::printf("\n%-34s %10s %10s %10s %10s\n", "latency at 50,000 obs/s (us)", "p50", "p99",
@@ -323,7 +330,15 @@ int main(int argc, char** argv) {
                   lat.p50_us, lat.p99_us, lat.p999_us, lat.samples);
       std::printf("%-34s %10.1f %10.1f %10.1f %10zu\n", "raw one hop (PUSH -> PULL)",
                   raw_lat.p50_us, raw_lat.p99_us, raw_lat.p999_us, raw_lat.samples);
+      std::printf("%-34s %10.1f %10.1f %10.1f %10zu\n", "relay, two hops, no hand-off",
+                  two_hops.p50_us, two_hops.p99_us, two_hops.p999_us, two_hops.samples);
+      std::printf("%-34s %10.1f %10.1f %10.1f %10zu\n", "relay floor (no estimation)",
+                  floor_lat.p50_us, floor_lat.p99_us, floor_lat.p999_us, floor_lat.samples);
       std::printf("%-34s %10s %10.1f\n", "p99 above raw", "", lat.p99_us - raw_lat.p99_us);
+      std::printf("%-34s %10s %10.1f\n", "two hops p99 above raw", "",
+                  two_hops.p99_us - raw_lat.p99_us);
+      std::printf("%-34s %10s %10.1f\n", "relay floor p99 above raw", "",
+                  floor_lat.p99_us - raw_lat.p99_us);
       std::fflush(stdout);
     }
     if (run("memory")) {
