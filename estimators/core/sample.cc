@@ -8,7 +8,7 @@ namespace {
 std::string Num(double v) { return std::to_string(v); }
 }  // namespace
 
-Status CheckCommonFields(const Sample& s, std::size_t expected_regressors) {
+Status DescribeCommonFieldsProblem(const Sample& s, std::size_t expected_regressors) {
   if (!std::isfinite(s.y)) return Status::Error(ErrorCode::kNonFinite, "y is " + Num(s.y));
   if (s.x.size() != expected_regressors) {
     return Status::Error(ErrorCode::kWrongRegressorCount,

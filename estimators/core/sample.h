@@ -29,9 +29,28 @@ struct Sample {
   double time = std::numeric_limits<double>::quiet_NaN();
 };
 
-// Checks the fields every model shares: y, each x, weight, trials, exposure finite; weight > 0;
-// x.size() == expected_regressors. Returns the first problem found. Time may be NaN (untimed), not
-// +-Inf.
-Status CheckCommonFields(const Sample& s, std::size_t expected_regressors);
+// Whether the fields every model shares are valid: y, each x, weight, trials, exposure finite;
+// weight > 0; x.size() == expected_regressors; time NaN (untimed) or finite, not +-Inf.
+inline bool CommonFieldsValid(const Sample& s, std::size_t expected_regressors) {
+  if (!std::isfinite(s.y) || s.x.size() != expected_regressors || !std::isfinite(s.weight) ||
+      !(s.weight > 0) || !std::isfinite(s.trials) || !std::isfinite(s.exposure) ||
+      std::isinf(s.time)) {
+    return false;
+  }
+  for (double v : s.x) {
+    if (!std::isfinite(v)) return false;
+  }
+  return true;
+}
+
+// The first of those problems, as an error naming the field and value (Ok when there is none).
+Status DescribeCommonFieldsProblem(const Sample& s, std::size_t expected_regressors);
+
+// CommonFieldsValid as a Status: inline, since every update of every estimator calls it and the
+// valid case must cost no more than the comparisons.
+inline Status CheckCommonFields(const Sample& s, std::size_t expected_regressors) {
+  if (CommonFieldsValid(s, expected_regressors)) [[likely]] return Status::Ok();
+  return DescribeCommonFieldsProblem(s, expected_regressors);
+}
 
 }  // namespace bayline::est

@@ -90,6 +90,35 @@ TEST(SampleCheckTest, RejectsEachBadFieldWithItsCode) {
   EXPECT_TRUE(CheckCommonFields(s, 2).ok());
 }
 
+TEST(SampleCheckTest, FastValidityAndDescribedProblemAgree) {
+  // CheckCommonFields answers from the inline CommonFieldsValid and describes a problem only when
+  // there is one: both must see the same problems.
+  const double x[] = {1.0, 2.5};
+  const double bad_x[] = {kInf, 2.5};
+  std::vector<Sample> samples;
+  for (int field = 0; field < 10; ++field) {
+    Sample s;
+    s.y = 1.0;
+    s.x = x;
+    if (field == 1) s.y = -kInf;
+    if (field == 2) s.x = bad_x;
+    if (field == 3) s.weight = -1.0;
+    if (field == 4) s.weight = kInf;
+    if (field == 5) s.trials = kNaN;
+    if (field == 6) s.exposure = -kInf;
+    if (field == 7) s.time = -kInf;
+    if (field == 8) s.time = 12.5;
+    if (field == 9) s.x = std::span<const double>(x, 1);
+    samples.push_back(s);
+  }
+  for (std::size_t i = 0; i < samples.size(); ++i) {
+    const bool valid = CommonFieldsValid(samples[i], 2);
+    EXPECT_EQ(valid, i == 0 || i == 8) << "case " << i;
+    EXPECT_EQ(DescribeCommonFieldsProblem(samples[i], 2).ok(), valid) << "case " << i;
+    EXPECT_EQ(CheckCommonFields(samples[i], 2).ok(), valid) << "case " << i;
+  }
+}
+
 TEST(ForgettingTest, PerObservationFactorIsLambda) {
   ForgettingOptions o;
   o.lambda = 0.99;
