@@ -1,5 +1,6 @@
 #include "daemon/pipeline/pipeline.h"
 
+#include <cassert>
 #include <cmath>
 #include <span>
 #include <stdexcept>
@@ -108,6 +109,7 @@ void PipelineState::ProcessBatch(
     hashed[j % kRing] = !name.empty() && name.size() <= limits_.max_channel_name_bytes;
     if (hashed[j % kRing]) {
       hashes[j % kRing] = channel_hashes.empty() ? ChannelHash(name) : channel_hashes[j];
+      assert(hashes[j % kRing] == ChannelHash(name));  // the callers' contract (debug builds)
       channels_.PrefetchSlot(hashes[j % kRing]);
     }
   };
