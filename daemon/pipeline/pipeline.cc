@@ -97,6 +97,10 @@ void PipelineState::ProcessBatch(
     throw std::invalid_argument("ProcessBatch: " + std::to_string(n) + " observations but " +
                                 std::to_string(arrival_ns.size()) + " arrival times");
   }
+  if (!channel_hashes.empty() && channel_hashes.size() != n) {
+    throw std::invalid_argument("ProcessBatch: " + std::to_string(n) + " observations but " +
+                                std::to_string(channel_hashes.size()) + " channel hashes");
+  }
   // Software pipeline over the batch: the name of observation i + kSlotAhead is hashed and its
   // registry slot prefetched, the block of observation i + 1 is prefetched through its (by then
   // cached) slot, and observation i is processed. Hashes are kept for names Process would not
@@ -353,11 +357,6 @@ void Pipeline::ProcessBatch(
     const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
     std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
     PublicationSink& sink) {
-  if (channel_hashes.size() != arrival_ns.size()) {
-    throw std::invalid_argument("ProcessBatch: " + std::to_string(arrival_ns.size()) +
-                                " arrival times but " + std::to_string(channel_hashes.size()) +
-                                " channel hashes");
-  }
   state_->ProcessBatch(observations, arrival_ns, channel_hashes, sink);
 }
 void Pipeline::PrefetchSlot(uint64_t channel_hash) const { state_->PrefetchSlot(channel_hash); }

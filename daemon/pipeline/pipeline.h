@@ -122,7 +122,8 @@ class Pipeline {
                     std::span<const int64_t> arrival_ns, PublicationSink& sink);
   // The same, for a caller that has hashed the names already (the daemon's ingest thread, to route
   // them): channel_hashes[i] must be ChannelHash(observations[i].channel()), and is then not
-  // computed again. Throws std::invalid_argument, processing nothing, when a size differs.
+  // computed again (an empty span: hashed here). Throws std::invalid_argument, processing nothing,
+  // when a size differs.
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
                     std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
                     PublicationSink& sink);

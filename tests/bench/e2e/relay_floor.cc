@@ -3,7 +3,6 @@
 #include <atomic>
 #include <chrono>
 #include <cstring>
-#include <optional>
 #include <thread>
 #include <vector>
 
@@ -52,17 +51,22 @@ Percentiles RelayLatency(zmq::context_t& ctx, bool hand_off,
         publish(frame);
       }
     }
-    Frame last;
-    last.stop = true;
-    queue.Push(std::move(last));
-  });
-  std::thread worker([&] {
-    for (;;) {
-      Frame frame = queue.Pop();
-      if (frame.stop) break;
-      publish(frame);
+    if (hand_off) {
+      Frame last;
+      last.stop = true;
+      queue.Push(std::move(last));
     }
   });
+  std::thread worker;
+  if (hand_off) {
+    worker = std::thread([&] {
+      for (;;) {
+        Frame frame = queue.Pop();
+        if (frame.stop) break;
+        publish(frame);
+      }
+    });
+  }
 
   zmq::socket_t sub(ctx, zmq::socket_type::sub);
   sub.set(zmq::sockopt::rcvhwm, 0);
@@ -99,7 +103,7 @@ Percentiles RelayLatency(zmq::context_t& ctx, bool hand_off,
   receiver.join();
   stop_ingest = true;
   ingest.join();
-  worker.join();
+  if (worker.joinable()) worker.join();
   return ComputePercentiles(std::move(latencies));
 }
 

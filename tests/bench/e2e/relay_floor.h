@@ -19,9 +19,9 @@
 namespace bayline::bench {
 
 // Starts the relay (without the worker thread when !hand_off: the ingest thread publishes, so only
-// the two ZeroMQ hops remain), subscribes to it from `ctx`, calls send(ingest endpoint) (which must send
-// two-part [8-byte wall-clock ns stamp, frame] messages and return when done), and returns the
-// latency percentiles from stamp to the first of the three publications of each frame.
+// the two ZeroMQ hops remain), subscribes to it from `ctx`, calls send(ingest endpoint) (which
+// must send two-part [8-byte wall-clock ns stamp, frame] messages and return when done), and
+// returns the latency percentiles from stamp to the first of the three publications of each frame.
 Percentiles RelayLatency(zmq::context_t& ctx, bool hand_off,
                          const std::function<void(const std::string&)>& send);
 
