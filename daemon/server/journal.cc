@@ -1,0 +1,286 @@
+#include "daemon/server/journal.h"
+
+#include <fcntl.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <cerrno>
+#include <cstdio>
+#include <cstring>
+#include <system_error>
+
+#include "daemon/server/crc32.h"
+
+namespace bayline::server {
+namespace {
+
+constexpr char kMagic[8] = {'B', 'A', 'Y', 'L', 'J', 'R', 'N', 'L'};
+constexpr std::string_view kPrefix = "journal-";
+constexpr std::string_view kSuffix = ".blj";
+// A record longer than this is damage, not a frame (the ingest socket's limits are far smaller).
+constexpr uint32_t kMaxRecordPayload = uint32_t(1) << 30;
+
+void PutU32(std::string& out, uint32_t v) {
+  for (int i = 0; i < 4; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
+}
+void PutU64(std::string& out, uint64_t v) {
+  for (int i = 0; i < 8; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
+}
+uint32_t GetU32(const unsigned char* p) {
+  uint32_t v = 0;
+  for (int i = 0; i < 4; ++i) v |= uint32_t(p[i]) << (8 * i);
+  return v;
+}
+uint64_t GetU64(const unsigned char* p) {
+  uint64_t v = 0;
+  for (int i = 0; i < 8; ++i) v |= uint64_t(p[i]) << (8 * i);
+  return v;
+}
+
+std::string ErrnoText(std::string_view step, const std::filesystem::path& path) {
+  return std::string(step) + " " + path.string() + ": " + std::strerror(errno);
+}
+
+// Segment number of a journal file name; false when the name is not one of ours.
+bool SegmentOf(const std::string& name, uint64_t* segment) {
+  if (name.size() != kPrefix.size() + 20 + kSuffix.size()) return false;
+  if (name.compare(0, kPrefix.size(), kPrefix) != 0) return false;
+  if (name.compare(name.size() - kSuffix.size(), kSuffix.size(), kSuffix) != 0) return false;
+  uint64_t s = 0;
+  for (size_t i = kPrefix.size(); i < kPrefix.size() + 20; ++i) {
+    const char c = name[i];
+    if (c < '0' || c > '9') return false;
+    const uint64_t digit = uint64_t(c - '0');
+    if (s > (UINT64_MAX - digit) / 10) return false;  // does not fit: not a name we write
+    s = s * 10 + digit;
+  }
+  *segment = s;
+  return true;
+}
+
+bool WriteAll(int fd, const char* data, size_t size) {
+  while (size > 0) {
+    const ssize_t n = ::write(fd, data, size);
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      return false;
+    }
+    data += n;
+    size -= size_t(n);
+  }
+  return true;
+}
+
+bool FsyncDirectory(const std::filesystem::path& dir, std::string* error) {
+  const int fd = ::open(dir.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+  if (fd < 0) {
+    *error = ErrnoText("open directory", dir);
+    return false;
+  }
+  const bool ok = ::fsync(fd) == 0;
+  if (!ok) *error = ErrnoText("fsync directory", dir);
+  ::close(fd);
+  return ok;
+}
+
+}  // namespace
+
+std::filesystem::path JournalSegmentPath(const std::filesystem::path& dir, uint64_t segment) {
+  char name[64];
+  std::snprintf(name, sizeof name, "journal-%020llu.blj", static_cast<unsigned long long>(segment));
+  return dir / name;
+}
+
+std::vector<uint64_t> ListJournalSegments(const std::filesystem::path& dir) {
+  std::vector<uint64_t> segments;
+  std::error_code ec;
+  for (const auto& entry : std::filesystem::directory_iterator(dir, ec)) {
+    uint64_t s = 0;
+    if (entry.is_regular_file(ec) && SegmentOf(entry.path().filename().string(), &s)) {
+      segments.push_back(s);
+    }
+  }
+  std::sort(segments.begin(), segments.end());
+  return segments;
+}
+
+bool RemoveJournalSegmentsBelow(const std::filesystem::path& dir, uint64_t first_kept,
+                                std::string* error) {
+  bool ok = true;
+  for (uint64_t s : ListJournalSegments(dir)) {
+    if (s >= first_kept) break;
+    const auto path = JournalSegmentPath(dir, s);
+    if (::unlink(path.c_str()) != 0 && errno != ENOENT && ok) {
+      *error = ErrnoText("remove", path);
+      ok = false;
+    }
+  }
+  return ok;
+}
+
+bool ReadJournalSegment(const std::filesystem::path& path, uint64_t segment,
+                        const std::function<void(int64_t, std::string_view)>& on_record,
+                        JournalReadResult* result, std::string* error) {
+  *result = JournalReadResult{};
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC | O_NOFOLLOW);
+  if (fd < 0) {
+    *error = ErrnoText("open", path);
+    return false;
+  }
+  std::string bytes;
+  char buffer[1 << 16];
+  for (;;) {
+    const ssize_t n = ::read(fd, buffer, sizeof buffer);
+    if (n < 0 && errno == EINTR) continue;
+    if (n < 0) {
+      *error = ErrnoText("read", path);
+      ::close(fd);
+      return false;
+    }
+    if (n == 0) break;
+    bytes.append(buffer, size_t(n));
+  }
+  ::close(fd);
+
+  const auto* data = reinterpret_cast<const unsigned char*>(bytes.data());
+  if (bytes.size() < kJournalHeaderBytes || std::memcmp(data, kMagic, 8) != 0) {
+    *error = path.string() + ": not a journal segment (bad magic or short header)";
+    return false;
+  }
+  if (GetU32(data + 8) != kJournalFormatVersion) {
+    *error = path.string() + ": journal format version " + std::to_string(GetU32(data + 8)) +
+             " is not " + std::to_string(kJournalFormatVersion);
+    return false;
+  }
+  if (GetU64(data + 16) != segment) {
+    *error = path.string() + ": header names segment " + std::to_string(GetU64(data + 16));
+    return false;
+  }
+  size_t at = kJournalHeaderBytes;
+  while (at < bytes.size()) {
+    if (bytes.size() - at < kJournalRecordHeaderBytes) {
+      result->torn_tail = true;
+      result->tail_reason = "incomplete record header at byte " + std::to_string(at);
+      break;
+    }
+    const uint32_t length = GetU32(data + at);
+    const uint32_t crc = GetU32(data + at + 4);
+    if (length > kMaxRecordPayload || bytes.size() - at - kJournalRecordHeaderBytes < length) {
+      result->torn_tail = true;
+      result->tail_reason = "incomplete record at byte " + std::to_string(at);
+      break;
+    }
+    const std::string_view covered(bytes.data() + at + 8, 8 + size_t(length));
+    if (Crc32(covered) != crc) {
+      result->torn_tail = true;
+      result->tail_reason = "checksum mismatch at byte " + std::to_string(at);
+      break;
+    }
+    const auto arrival_ns = static_cast<int64_t>(GetU64(data + at + 8));
+    on_record(arrival_ns, covered.substr(8));
+    ++result->records;
+    at += kJournalRecordHeaderBytes + length;
+  }
+  return true;
+}
+
+JournalWriter::JournalWriter(std::filesystem::path dir, JournalPolicy policy)
+    : dir_(std::move(dir)), policy_(policy) {}
+
+JournalWriter::~JournalWriter() {
+  std::string ignored;
+  if (fd_ >= 0) (void)Sync(&ignored);  // best effort at destruction; Sync() reports failures
+  Close();
+}
+
+void JournalWriter::Close() {
+  if (fd_ >= 0) ::close(fd_);
+  fd_ = -1;
+}
+
+bool JournalWriter::StartSegment(uint64_t segment, std::string* error) {
+  const auto path = JournalSegmentPath(dir_, segment);
+  const int fd = ::open(path.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC, 0600);
+  if (fd < 0) {
+    *error = ErrnoText("create", path);
+    return false;
+  }
+  std::string header(kMagic, 8);
+  PutU32(header, kJournalFormatVersion);
+  PutU32(header, 0);
+  PutU64(header, segment);
+  if (!WriteAll(fd, header.data(), header.size()) || ::fdatasync(fd) != 0) {
+    *error = ErrnoText("write header of", path);
+    ::close(fd);
+    ::unlink(path.c_str());
+    return false;
+  }
+  if (!FsyncDirectory(dir_, error)) {
+    ::close(fd);
+    ::unlink(path.c_str());
+    return false;
+  }
+  if (fd_ >= 0 && !Sync(error)) {
+    ::close(fd);
+    ::unlink(path.c_str());
+    return false;
+  }
+  Close();
+  fd_ = fd;
+  segment_ = segment;
+  unsynced_bytes_ = 0;
+  bytes_written_ = header.size();
+  return true;
+}
+
+bool JournalWriter::Append(int64_t arrival_ns, std::string_view frame, int64_t now_ns,
+                           std::string* error) {
+  if (fd_ < 0) {
+    *error = "journal: no open segment";
+    return false;
+  }
+  if (frame.size() > kMaxRecordPayload) {
+    *error = "journal: frame of " + std::to_string(frame.size()) + " bytes is too large";
+    return false;
+  }
+  record_.clear();
+  PutU32(record_, uint32_t(frame.size()));
+  PutU32(record_, 0);  // checksum, filled below
+  PutU64(record_, static_cast<uint64_t>(arrival_ns));
+  record_.append(frame);
+  const uint32_t crc = Crc32(std::string_view(record_).substr(8));
+  for (int i = 0; i < 4; ++i) record_[4 + i] = static_cast<char>((crc >> (8 * i)) & 0xFFu);
+  if (!WriteAll(fd_, record_.data(), record_.size())) {
+    *error = ErrnoText("append to", JournalSegmentPath(dir_, segment_));
+    return false;
+  }
+  bytes_written_ += record_.size();
+  if (unsynced_bytes_ == 0) first_unsynced_ns_ = now_ns;
+  unsynced_bytes_ += record_.size();
+  switch (policy_.sync) {
+    case JournalSync::kEveryFrame:
+      return Sync(error);
+    case JournalSync::kSize:
+      return unsynced_bytes_ >= policy_.sync_bytes ? Sync(error) : true;
+    case JournalSync::kInterval:
+      return SyncDue(now_ns) ? Sync(error) : true;
+  }
+  return true;
+}
+
+bool JournalWriter::SyncDue(int64_t now_ns) const {
+  return unsynced_bytes_ > 0 &&
+         now_ns - first_unsynced_ns_ >= int64_t(policy_.interval_ms) * 1'000'000;
+}
+
+bool JournalWriter::Sync(std::string* error) {
+  if (fd_ < 0 || unsynced_bytes_ == 0) return true;
+  if (::fdatasync(fd_) != 0) {
+    *error = ErrnoText("fdatasync", JournalSegmentPath(dir_, segment_));
+    return false;
+  }
+  unsynced_bytes_ = 0;
+  return true;
+}
+
+}  // namespace bayline::server
