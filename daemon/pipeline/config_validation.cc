@@ -257,6 +257,14 @@ Status ValidateConfig(const bayline::v1::DaemonConfig& config) {
       return Bad("shard", "must be \"i/N\" with 0 <= i < N, got \"" + config.shard() + "\"");
     }
   }
+  const std::string& sync = config.journal().sync();
+  if (!sync.empty() && sync != "off" && sync != "every_frame" && sync != "interval" &&
+      sync != "size") {
+    return Bad("journal.sync",
+               "must be \"off\", \"every_frame\", \"interval\" or \"size\", got \"" + sync +
+                   "\"");
+  }
+  if (config.journal().interval_ms() > 3'600'000) return Bad("journal.interval_ms", "must be <= 3600000");
   const auto& limits = config.limits();
   if (limits.max_channel_name_bytes() > 65536) return Bad("limits.max_channel_name_bytes", "must be <= 65536");
   if (limits.max_regressors() > 64) return Bad("limits.max_regressors", "must be <= 64");

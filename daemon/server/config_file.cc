@@ -120,6 +120,7 @@ void MergeConfigOver(const bayline::v1::DaemonConfig& overlay, bayline::v1::Daem
   if (!overlay.log_level().empty()) base->set_log_level(overlay.log_level());
   if (overlay.rules_size() > 0) *base->mutable_rules() = overlay.rules();
   if (!overlay.shard().empty()) base->set_shard(overlay.shard());
+  if (overlay.has_journal()) *base->mutable_journal() = overlay.journal();
 }
 
 uint64_t ConfigDigest(const bayline::v1::DaemonConfig& config) {

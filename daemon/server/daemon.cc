@@ -3,6 +3,7 @@
 #include <signal.h>
 #include <spdlog/spdlog.h>
 
+#include <algorithm>
 #include <thread>
 
 #include "daemon/server/config_loader.h"
@@ -13,6 +14,17 @@ namespace {
 
 constexpr size_t kWorkerQueueCapacity = 64;  // batches of up to Ingest::kMaxBatch observations
 constexpr double kDefaultSnapshotEveryS = 60;
+
+bool JournalPolicyOf(const bayline::v1::Journal& journal, JournalPolicy* policy) {
+  const std::string& sync = journal.sync();
+  if (sync.empty() || sync == "off") return false;
+  policy->sync = sync == "interval" ? JournalSync::kInterval
+                 : sync == "size"   ? JournalSync::kSize
+                                    : JournalSync::kEveryFrame;
+  if (journal.interval_ms() > 0) policy->interval_ms = journal.interval_ms();
+  if (journal.sync_bytes() > 0) policy->sync_bytes = journal.sync_bytes();
+  return true;
+}
 
 std::string Join(const std::vector<std::string>& items) {
   std::string out;
@@ -31,10 +43,10 @@ Daemon::~Daemon() {
 }
 
 void Daemon::ApplyRuntimeSettings() {
-  spdlog::set_level(spdlog::level::from_str(config_.log_level().empty() ? "info"
-                                                                        : config_.log_level()));
-  const double every = config_.snapshot_every_s() > 0 ? config_.snapshot_every_s()
-                                                      : kDefaultSnapshotEveryS;
+  spdlog::set_level(
+      spdlog::level::from_str(config_.log_level().empty() ? "info" : config_.log_level()));
+  const double every =
+      config_.snapshot_every_s() > 0 ? config_.snapshot_every_s() : kDefaultSnapshotEveryS;
   snapshot_period_ = std::chrono::duration_cast<std::chrono::steady_clock::duration>(
       std::chrono::duration<double>(every));
   next_snapshot_ = std::chrono::steady_clock::now() + snapshot_period_;
@@ -63,7 +75,8 @@ bool Daemon::Start() {
   const RestoreOutcome restored = RestoreNewestGood(*store_, config_, shard_, &pipelines);
   for (const auto& why : restored.skipped) spdlog::error("snapshot not used: {}", why);
   for (const auto& name : restored.reset_channels) {
-    spdlog::warn("channel \"{}\" restarts from its rule: its spec changed since the snapshot", name);
+    spdlog::warn("channel \"{}\" restarts from its rule: its spec changed since the snapshot",
+                 name);
   }
   if (restored.path.empty()) {
     spdlog::info("no usable snapshot in {}: starting empty", store_->dir().string());
@@ -86,8 +99,8 @@ bool Daemon::Start() {
                                                 kWorkerQueueCapacity));
     raw_workers.push_back(workers_.back().get());
   }
-  ingest_ = std::make_unique<Ingest>(context_, raw_workers, shard_,
-                                     config_.limits().max_frame_bytes());
+  ingest_ =
+      std::make_unique<Ingest>(context_, raw_workers, shard_, config_.limits().max_frame_bytes());
   IngestEndpoints endpoints;
   for (const auto& e : config_.endpoints().pull_bind()) endpoints.pull_bind.push_back(e);
   for (const auto& e : config_.endpoints().sub_connect()) endpoints.sub_connect.push_back(e);
@@ -109,6 +122,15 @@ bool Daemon::Start() {
   control_service_ = std::make_unique<ControlService>(workers_, *ingest_, shard_, *this);
 
   for (auto& w : workers_) w->Start();
+  JournalPolicy policy;
+  if (JournalPolicyOf(config_.journal(), &policy)) {
+    journal_ = std::make_unique<JournalWriter>(store_->dir(), policy);
+    ingest_->set_journal(journal_.get());
+  }
+  if (!ReplayJournal(restored.journal_segment, &error)) {
+    spdlog::error("journal: {}", error);
+    return false;
+  }
   ingest_->Start();
   std::vector<std::string> pulls(ingest_bound.begin(),
                                  ingest_bound.begin() + endpoints.pull_bind.size());
@@ -165,11 +187,63 @@ void Daemon::HandleControl() {
   control_->send(zmq::buffer(bytes), zmq::send_flags::none);
 }
 
+bool Daemon::ReplayJournal(uint64_t covered, std::string* error) {
+  const std::vector<uint64_t> segments = ListJournalSegments(store_->dir());
+  uint64_t frames = 0;
+  for (uint64_t segment : segments) {
+    if (segment < covered) continue;  // in the snapshot already; removed by the next one
+    const auto path = JournalSegmentPath(store_->dir(), segment);
+    JournalReadResult result;
+    std::string read_error;
+    const bool ok = ReadJournalSegment(
+        path, segment,
+        [this, &frames](int64_t arrival_ns, std::string_view frame) {
+          ingest_->ReplayFrame(frame, arrival_ns);
+          ++frames;
+        },
+        &result, &read_error);
+    if (!ok) {
+      spdlog::error("journal segment not replayed: {}", read_error);
+    } else if (result.torn_tail) {
+      spdlog::warn(
+          "journal {}: {} frames, then an incomplete record ({}): the frame being written "
+          "when the process ended was not applied",
+          path.string(), result.records, result.tail_reason);
+    }
+  }
+  ingest_->FlushReplayed();
+  if (!segments.empty()) {
+    spdlog::info("journal: replayed {} frames from {} segments after the snapshot", frames,
+                 std::count_if(segments.begin(), segments.end(),
+                               [covered](uint64_t s) { return s >= covered; }));
+  }
+  journal_next_segment_ = std::max(covered, segments.empty() ? 1 : segments.back() + 1);
+  if (journal_ && !journal_->StartSegment(journal_next_segment_, error)) return false;
+  return true;
+}
+
 bool Daemon::SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) {
   next_snapshot_ = std::chrono::steady_clock::now() + snapshot_period_;
-  if (!WriteSnapshot(workers_, *store_, config_, info, error)) {
+  // The cut: every frame before it is in the capture and in journal segments below `covered`.
+  SnapshotCapture capture;
+  bool rotated = true;
+  ingest_->RunAtFrameBoundary([&] {
+    if (journal_) {
+      rotated = journal_->StartSegment(journal_->segment() + 1, error);
+      if (!rotated) return;
+      journal_next_segment_ = journal_->segment();
+    }
+    capture = PostSnapshotCapture(workers_);
+  });
+  const uint64_t covered = journal_next_segment_;
+  if (!rotated ||
+      !WriteCapturedSnapshot(std::move(capture), *store_, config_, covered, info, error)) {
     spdlog::error("snapshot failed: {}", *error);
     return false;
+  }
+  std::string remove_error;
+  if (!RemoveJournalSegmentsBelow(store_->dir(), covered, &remove_error)) {
+    spdlog::error("journal: {}", remove_error);
   }
   ++snapshots_written_;
   spdlog::info("snapshot {}: {} channels, {} bytes", info->path(), info->channels(), info->bytes());
@@ -196,28 +270,30 @@ bool Daemon::Reload(std::string* message) {
   if (next.workers() != config_.workers()) later += " workers";
   if (next.state_dir() != config_.state_dir()) later += " state_dir";
   if (next.shard() != config_.shard()) later += " shard";
+  if (next.journal().SerializeAsString() != config_.journal().SerializeAsString())
+    later += " journal";
   if (!later.empty()) spdlog::warn("reload: changes to{} take effect at the next start", later);
 
   // The first worker validates and calibrates; the others see the same config and so agree.
   std::vector<std::string> reset;
   for (auto& worker : workers_) {
-    bayline::est::Status status = worker->Call([&next, &reset](pipeline::Pipeline& p) {
-      return p.Reconfigure(next, &reset);
-    });
+    bayline::est::Status status = worker->Call(
+        [&next, &reset](pipeline::Pipeline& p) { return p.Reconfigure(next, &reset); });
     if (!status.ok()) {
       *message = "reload rejected, configuration unchanged: " + status.ToString();
       spdlog::error("{}", *message);
       return false;
     }
   }
-  for (const auto& name : reset) spdlog::warn("reload: channel \"{}\" reset: its spec changed", name);
+  for (const auto& name : reset)
+    spdlog::warn("reload: channel \"{}\" reset: its spec changed", name);
   const std::string keep_dir = config_.state_dir();
   config_ = next;
   config_.set_state_dir(keep_dir);
   ingest_->set_max_frame_bytes(config_.limits().max_frame_bytes());
   ApplyRuntimeSettings();
-  *message = "reloaded " + options_.config_file + ": " + std::to_string(reset.size()) +
-             " channels reset";
+  *message =
+      "reloaded " + options_.config_file + ": " + std::to_string(reset.size()) + " channels reset";
   spdlog::info("{}", *message);
   return true;
 }
@@ -226,7 +302,7 @@ void Daemon::Shutdown() {
   ingest_->Stop();  // hands its partial batches to the workers
   bayline::v1::SnapshotInfo info;
   std::string error;
-  SnapshotNow(&info, &error);  // queued behind every batch: the workers drain first
+  SnapshotNow(&info, &error);          // queued behind every batch: the workers drain first
   for (auto& w : workers_) w->Stop();  // each sends its last publications before it ends
   spdlog::info("stopped");
 }

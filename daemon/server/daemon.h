@@ -5,22 +5,26 @@
 // publications on the shared PUB socket (Publisher). Start-up order: signals blocked ->
 // configuration -> state restored into the pipelines -> sockets bound (any failure: exit 1 before
 // a thread starts) -> threads started -> "ready" log line with every resolved endpoint.
+// With a journal (journal.h), the segments the restored snapshot does not cover are replayed
+// through the ingest path after the workers start and before ingest does; replayed frames publish
+// again. Snapshots are taken at a frame boundary of the ingest thread, which also starts the next
+// journal segment there, so a snapshot holds exactly the segments before it.
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
 // queues and send their last publications, a snapshot is written, the threads end, the PUB socket
 // lingers (up to 1 s) until connected subscribers have them, exit 0.
 #pragma once
 
-#include <zmq.hpp>
-
 #include <chrono>
 #include <memory>
 #include <string>
 #include <vector>
+#include <zmq.hpp>
 
 #include "bayline/v1/config.pb.h"
 #include "daemon/server/control_service.h"
 #include "daemon/server/daemon_options.h"
 #include "daemon/server/ingest.h"
+#include "daemon/server/journal.h"
 #include "daemon/server/publisher.h"
 #include "daemon/server/signals.h"
 #include "daemon/server/snapshot_file.h"
@@ -46,6 +50,10 @@ class Daemon : public DaemonActions {
   void Shutdown();
   void HandleControl();
   void ApplyRuntimeSettings();
+  // Start-up, workers running, ingest not yet: replays the journal segments from `covered` on
+  // (those the restored snapshot does not hold), then opens the next segment when the journal is
+  // on.
+  bool ReplayJournal(uint64_t covered, std::string* error);
 
   DaemonOptions options_;
   SignalWatcher signals_;  // first member: blocks signals before any thread exists
@@ -56,6 +64,8 @@ class Daemon : public DaemonActions {
   std::unique_ptr<Publisher> publisher_;
   std::vector<std::unique_ptr<Worker>> workers_;
   std::unique_ptr<Ingest> ingest_;
+  std::unique_ptr<JournalWriter> journal_;  // null when the journal is off
+  uint64_t journal_next_segment_ = 0;       // first segment no snapshot covers yet
   std::unique_ptr<zmq::socket_t> control_;
   std::unique_ptr<ControlService> control_service_;
   uint64_t snapshots_written_ = 0;

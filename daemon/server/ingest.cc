@@ -30,6 +30,13 @@ int64_t NowNs() {
       .count();
 }
 
+// The journal's interval timer runs on the monotonic clock.
+int64_t SteadyNs() {
+  return std::chrono::duration_cast<std::chrono::nanoseconds>(
+             std::chrono::steady_clock::now().time_since_epoch())
+      .count();
+}
+
 }  // namespace
 
 Ingest::Ingest(zmq::context_t& context, std::vector<Worker*> workers, Shard shard,
@@ -38,17 +45,17 @@ Ingest::Ingest(zmq::context_t& context, std::vector<Worker*> workers, Shard shar
       workers_(std::move(workers)),
       shard_(shard),
       max_frame_bytes_(max_frame_bytes),
-      stop_fd_(eventfd(0, EFD_CLOEXEC)),
+      wake_fd_(eventfd(0, EFD_CLOEXEC | EFD_NONBLOCK)),
       pending_(workers_.size()) {}
 
 Ingest::~Ingest() {
   Stop();
-  if (stop_fd_ >= 0) close(stop_fd_);
+  if (wake_fd_ >= 0) close(wake_fd_);
 }
 
 bool Ingest::Bind(const IngestEndpoints& endpoints, std::vector<std::string>* bound,
                   std::string* error) {
-  if (stop_fd_ < 0) {
+  if (wake_fd_ < 0) {
     *error = std::string("ingest: eventfd: ") + std::strerror(errno);
     return false;
   }
@@ -87,13 +94,47 @@ void Ingest::Start() {
   });
 }
 
+void Ingest::Wake() {
+  const uint64_t one = 1;
+  while (write(wake_fd_, &one, sizeof one) < 0 && errno == EINTR) {
+  }
+}
+
 void Ingest::Stop() {
   if (!thread_.joinable()) return;
   stopping_.store(true);
-  const uint64_t one = 1;
-  while (write(stop_fd_, &one, sizeof one) < 0 && errno == EINTR) {
-  }
+  Wake();
   thread_.join();
+  std::string error;
+  if (journal_ != nullptr && !journal_->Sync(&error)) spdlog::error("journal: {}", error);
+}
+
+void Ingest::RunAtFrameBoundary(const std::function<void()>& task) {
+  if (!thread_.joinable()) {
+    FlushAll();
+    task();
+    return;
+  }
+  std::unique_lock lock(boundary_mutex_);
+  boundary_task_ = &task;
+  boundary_requested_.store(true);
+  Wake();
+  boundary_done_.wait(lock, [this] { return boundary_task_ == nullptr; });
+}
+
+void Ingest::RunBoundaryTask() {
+  if (!boundary_requested_.load()) return;
+  std::lock_guard lock(boundary_mutex_);
+  boundary_requested_.store(false);
+  if (boundary_task_ == nullptr) return;
+  FlushAll();
+  (*boundary_task_)();
+  boundary_task_ = nullptr;
+  boundary_done_.notify_all();
+}
+
+void Ingest::ReplayFrame(std::string_view frame, int64_t arrival_ns) {
+  HandleFrame(frame, arrival_ns, /*journal=*/false);
 }
 
 void Ingest::Run() {
@@ -104,11 +145,12 @@ void Ingest::Run() {
   // frame.)
   std::vector<pollfd> fds;
   for (auto& s : sockets_) fds.push_back({s.get(zmq::sockopt::fd), POLLIN, 0});
-  fds.push_back({stop_fd_, POLLIN, 0});
+  fds.push_back({wake_fd_, POLLIN, 0});
   while (!stopping_.load(std::memory_order_relaxed)) {
     // Drain every socket, in bursts, so one busy socket cannot starve another.
     bool more = true;
     while (more && !stopping_.load(std::memory_order_relaxed)) {
+      RunBoundaryTask();
       more = false;
       for (size_t i = 0; i < sockets_.size(); ++i) {
         int n = 0;
@@ -117,12 +159,27 @@ void Ingest::Run() {
       }
     }
     FlushAll();  // nothing more is waiting: hand over partial batches now
-    if (poll(fds.data(), fds.size(), -1) < 0 && errno != EINTR) {
+    RunBoundaryTask();
+    // The interval policy's timer: wake up to sync what is written but not yet synced.
+    int timeout_ms = -1;
+    if (journal_ != nullptr && journal_->sync_deadline_ns() >= 0) {
+      const int64_t wait_ns = journal_->sync_deadline_ns() - SteadyNs();
+      timeout_ms = wait_ns <= 0 ? 0 : int(wait_ns / 1'000'000 + 1);
+    }
+    if (poll(fds.data(), fds.size(), timeout_ms) < 0 && errno != EINTR) {
       spdlog::error("ingest: poll: {}", std::strerror(errno));
       break;
     }
+    if (fds.back().revents & POLLIN) {
+      uint64_t count = 0;
+      (void)!read(wake_fd_, &count, sizeof count);  // reset the eventfd; stopping_ says why
+    }
+    if (journal_ != nullptr && journal_->SyncDue(SteadyNs()) && !journal_->Sync(&journal_error_)) {
+      if (log_.Allow("journal_failed")) spdlog::error("journal: {}", journal_error_);
+    }
   }
   FlushAll();
+  RunBoundaryTask();
   log_.Flush();
 }
 
@@ -135,11 +192,11 @@ bool Ingest::HandleMessage(zmq::socket_t& socket) {
     part = std::move(next);
   }
   Increment(frames_received_);
-  HandleFrame(part, NowNs());
+  HandleFrame(part.to_string_view(), NowNs(), /*journal=*/true);
   return true;
 }
 
-void Ingest::HandleFrame(const zmq::message_t& frame, int64_t arrival_ns) {
+void Ingest::HandleFrame(std::string_view frame, int64_t arrival_ns, bool journal) {
   const uint32_t limit = max_frame_bytes_.load(std::memory_order_relaxed);
   if (frame.size() > limit) {
     Reject("oversized_frame",
@@ -148,8 +205,13 @@ void Ingest::HandleFrame(const zmq::message_t& frame, int64_t arrival_ns) {
            arrival_ns);
     return;
   }
+  if (journal && journal_ != nullptr &&
+      !journal_->Append(arrival_ns, frame, SteadyNs(), &journal_error_)) {
+    Reject("journal_failed", "frame not applied: " + journal_error_, arrival_ns);
+    return;
+  }
   // The usual case: split the frame without decoding it; the workers decode the observations.
-  if (ScanIngestFrame(frame.to_string_view(), &scanned_)) {
+  if (ScanIngestFrame(frame, &scanned_)) {
     for (const ScannedObservation& o : scanned_) Route(o.channel, o.bytes, arrival_ns);
     return;
   }

@@ -15,22 +15,30 @@
 // holds), or when no more frames are waiting, so latency stays low at low rates. Ingest never
 // estimates: every observation is processed on the worker thread that owns its channel.
 //
-// Lifetime: construct and Bind() in the supervisor thread -> Start() -> Stop() (hands over what it
-// holds, then joins). Counters may be read from any thread.
+// Journal (journal.h): when set, every frame within the size limit is appended to the journal
+// before its observations are routed; a frame the journal cannot take is refused
+// ("journal_failed").
+//
+// Lifetime: construct and Bind() in the supervisor thread -> (ReplayFrame()... FlushReplayed())
+// -> Start() -> Stop() (hands over what it holds, then joins). Counters may be read from any
+// thread.
 #pragma once
 
-#include <zmq.hpp>
-
 #include <atomic>
+#include <condition_variable>
+#include <functional>
 #include <memory>
+#include <mutex>
 #include <string>
 #include <string_view>
 #include <thread>
 #include <vector>
+#include <zmq.hpp>
 
 #include "bayline/v1/observation.pb.h"
 #include "daemon/server/daemon_options.h"
 #include "daemon/server/frame_scan.h"
+#include "daemon/server/journal.h"
 #include "daemon/server/rate_limited_log.h"
 #include "daemon/server/worker.h"
 
@@ -56,8 +64,23 @@ class Ingest {
   // *bound holds the resolved endpoints (a "*" port replaced by the one chosen).
   bool Bind(const IngestEndpoints& endpoints, std::vector<std::string>* bound, std::string* error);
 
+  // Before Start(): the journal the ingest thread appends to (not owned; may be null).
+  void set_journal(JournalWriter* journal) { journal_ = journal; }
+
+  // Before Start(), supervisor thread: handles a frame read back from the journal exactly as a
+  // received one (same routing, same rejections), without journaling it again.
+  void ReplayFrame(std::string_view frame, int64_t arrival_ns);
+  // Hands over the batches ReplayFrame filled.
+  void FlushReplayed() { FlushAll(); }
+
   void Start();
   void Stop();
+
+  // Runs `task` on the ingest thread between two frames, after every observation received so far
+  // has been handed to its worker, and returns once it ran. Whatever `task` posts to the workers
+  // is therefore ordered after every earlier frame and before every later one (a consistent cut,
+  // used by snapshots). Before Start() or after Stop(): hands over, then runs `task` here.
+  void RunAtFrameBoundary(const std::function<void()>& task);
 
   // Reload may change the frame limit while running.
   void set_max_frame_bytes(uint32_t bytes) { max_frame_bytes_.store(bytes); }
@@ -67,15 +90,15 @@ class Ingest {
   uint64_t observations_received() const {
     return observations_received_.load(std::memory_order_relaxed);
   }
-  uint64_t observations_other_shard() const {
-    return other_shard_.load(std::memory_order_relaxed);
-  }
+  uint64_t observations_other_shard() const { return other_shard_.load(std::memory_order_relaxed); }
 
  private:
   void Run();
   // Receives and handles one message if one is waiting; false when none was.
   bool HandleMessage(zmq::socket_t& socket);
-  void HandleFrame(const zmq::message_t& frame, int64_t arrival_ns);
+  void HandleFrame(std::string_view frame, int64_t arrival_ns, bool journal);
+  void RunBoundaryTask();  // ingest thread: a pending RunAtFrameBoundary task, if any
+  void Wake();
   void Route(std::string_view channel, std::string_view observation, int64_t arrival_ns);
   void RouteDecoded(const bayline::v1::Observation& observation, int64_t arrival_ns);
   void Reject(const char* reason, std::string detail, int64_t arrival_ns);
@@ -87,11 +110,19 @@ class Ingest {
   Shard shard_;
   std::atomic<uint32_t> max_frame_bytes_;
   std::vector<zmq::socket_t> sockets_;  // PULL and SUB ingest sockets
-  int stop_fd_;  // eventfd: Stop() wakes the ingest thread's poll
+  int wake_fd_;  // eventfd: Stop() and RunAtFrameBoundary() wake the ingest thread's poll
   std::atomic<bool> stopping_{false};
   std::thread thread_;
 
+  // RunAtFrameBoundary's hand-off.
+  std::mutex boundary_mutex_;
+  std::condition_variable boundary_done_;
+  const std::function<void()>* boundary_task_ = nullptr;  // guarded by boundary_mutex_
+  std::atomic<bool> boundary_requested_{false};
+
   // Owned by the ingest thread.
+  JournalWriter* journal_ = nullptr;
+  std::string journal_error_;
   std::vector<ScannedObservation> scanned_;
   bayline::v1::IngestFrame frame_;  // frames the scanner leaves to protobuf
   std::string encoded_;

@@ -99,6 +99,12 @@ class JournalWriter {
   // Whether the interval policy has unsynced data older than its interval at `now_ns`.
   bool SyncDue(int64_t now_ns) const;
 
+  // When the interval policy must next sync (monotonic ns); -1 when nothing waits for the timer.
+  int64_t sync_deadline_ns() const {
+    if (policy_.sync != JournalSync::kInterval || unsynced_bytes_ == 0) return -1;
+    return first_unsynced_ns_ + int64_t(policy_.interval_ms) * 1'000'000;
+  }
+
   uint64_t segment() const { return segment_; }
   bool open() const { return fd_ >= 0; }
   uint64_t bytes_written() const { return bytes_written_; }

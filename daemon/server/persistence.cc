@@ -15,20 +15,31 @@ void RebuildEmpty(const bayline::v1::DaemonConfig& config,
 
 }  // namespace
 
-bool WriteSnapshot(const std::vector<std::unique_ptr<Worker>>& workers, SnapshotStore& store,
-                   const bayline::v1::DaemonConfig& config, bayline::v1::SnapshotInfo* info,
-                   std::string* error) {
-  bayline::v1::Snapshot all;
+SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers) {
+  SnapshotCapture capture;
   for (const auto& worker : workers) {
-    bayline::v1::Snapshot part = worker->Call([](pipeline::Pipeline& p) {
+    auto task = std::make_shared<std::promise<bayline::v1::Snapshot>>();
+    capture.push_back(task->get_future());
+    worker->Post([task](pipeline::Pipeline& p) {
       bayline::v1::Snapshot s;
       p.SaveChannels(&s);
-      return s;
+      task->set_value(std::move(s));
     });
+  }
+  return capture;
+}
+
+bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,
+                           const bayline::v1::DaemonConfig& config, uint64_t journal_segment,
+                           bayline::v1::SnapshotInfo* info, std::string* error) {
+  bayline::v1::Snapshot all;
+  for (auto& future : capture) {
+    bayline::v1::Snapshot part = future.get();
     all.set_format_version(part.format_version());
     all.set_config_digest(part.config_digest());
     for (auto& channel : *part.mutable_channels()) all.add_channels()->Swap(&channel);
   }
+  all.set_journal_segment(journal_segment);
   all.set_written_time_ns(std::chrono::duration_cast<std::chrono::nanoseconds>(
                               std::chrono::system_clock::now().time_since_epoch())
                               .count());
@@ -46,8 +57,8 @@ bool WriteSnapshot(const std::vector<std::unique_ptr<Worker>>& workers, Snapshot
   return true;
 }
 
-RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::DaemonConfig& config,
-                                 const Shard& shard,
+RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
+                                 const bayline::v1::DaemonConfig& config, const Shard& shard,
                                  std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines) {
   RestoreOutcome outcome;
   const size_t workers = pipelines->size();
@@ -98,6 +109,7 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::
     outcome.channels = restored - reset.size();
     outcome.other_shard = other_shard;
     outcome.reset_channels = std::move(reset);
+    outcome.journal_segment = snapshot.journal_segment();
     return outcome;
   }
   return outcome;

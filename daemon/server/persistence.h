@@ -5,6 +5,7 @@
 // (header, checksums, atomic replacement, rotation) is snapshot_file.h's.
 #pragma once
 
+#include <future>
 #include <memory>
 #include <string>
 #include <vector>
@@ -18,27 +19,32 @@
 
 namespace bayline::server {
 
-// Asks every worker for its channels (a task queued behind the work already handed to it, so the
-// snapshot reflects every observation ingested before the call) and writes one snapshot file.
-// Supervisor thread only. On failure returns false with *error; files on disk are untouched.
-bool WriteSnapshot(const std::vector<std::unique_ptr<Worker>>& workers, SnapshotStore& store,
-                   const bayline::v1::DaemonConfig& config, bayline::v1::SnapshotInfo* info,
-                   std::string* error);
+// Writing a snapshot, in two halves, at a consistent cut (Ingest::RunAtFrameBoundary):
+// PostSnapshotCapture queues, on every worker, a task that copies its channels as they are once
+// everything queued before it is processed, and returns without waiting; WriteCapturedSnapshot
+// waits for the copies and writes one file recording `journal_segment` (the first journal
+// segment the snapshot does not cover; 0 without a journal).
+using SnapshotCapture = std::vector<std::future<bayline::v1::Snapshot>>;
+SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers);
+bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,
+                           const bayline::v1::DaemonConfig& config, uint64_t journal_segment,
+                           bayline::v1::SnapshotInfo* info, std::string* error);
 
 struct RestoreOutcome {
-  std::string path;                        // file restored; empty when starting empty
-  uint64_t channels = 0;                   // channels restored
-  uint64_t other_shard = 0;                // channels in the file that belong to other shards
-  std::vector<std::string> skipped;        // newer files not used, each with the reason
-  std::vector<std::string> reset_channels; // restored as new because their spec changed
+  std::string path;                         // file restored; empty when starting empty
+  uint64_t channels = 0;                    // channels restored
+  uint64_t other_shard = 0;                 // channels in the file that belong to other shards
+  std::vector<std::string> skipped;         // newer files not used, each with the reason
+  std::vector<std::string> reset_channels;  // restored as new because their spec changed
+  uint64_t journal_segment = 0;  // first journal segment the restored file does not cover
 };
 
 // Before the workers start: tries the snapshot files newest first and restores the first that
 // decodes and that every pipeline accepts; each channel goes to the pipeline of the worker that
 // owns it (routing.h). A file that fails at any step leaves every pipeline empty (they are rebuilt
 // from `config`) and the next older file is tried.
-RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::DaemonConfig& config,
-                                 const Shard& shard,
+RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
+                                 const bayline::v1::DaemonConfig& config, const Shard& shard,
                                  std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines);
 
 }  // namespace bayline::server
