@@ -63,7 +63,8 @@ class GaussianLs {
   using Ls = est::RecursiveLeastSquares<1>;
   using State = Ls::State;
 
-  explicit GaussianLs(const est::RlsOptions& options) : ls_(options, 1) {}
+  // Default options make the empty alternative of a Backup (EstimatorSlot::SaveTo assigns over it).
+  explicit GaussianLs(const est::RlsOptions& options = {}) : ls_(options, 1) {}
 
   // sample.x is ignored (the row is the intercept); otherwise as RecursiveLeastSquares::Update.
   est::Status Update(const est::Sample& sample, est::Innovation* innovation,
