@@ -1,13 +1,12 @@
 #include "daemon/pipeline/estimator_slot.h"
 
 #include <cmath>
-#include <map>
+#include <concepts>
 #include <string>
-#include <utility>
 #include <type_traits>
+#include <utility>
 
 #include "daemon/pipeline/packing.h"
-
 #include "estimators/core/distributions.h"
 
 namespace bayline::pipeline {
@@ -20,119 +19,146 @@ constexpr double kOne[] = {1.0};
 
 bool IsWhole(double v) { return std::isfinite(v) && std::floor(v) == v; }
 
-// The one place that maps (model, kind) to the estimator type: calls make(std::type_identity<T>,
-// factory) where factory() returns the fresh estimator (called only when it is constructed).
+// An estimator held inline or boxed, as the visitors see it.
+template <typename Slot>
+using Unwrapped = std::remove_cvref_t<decltype(Unwrap(std::declval<Slot&>()))>;
+
+// Capabilities, read off the estimator's members.
+template <typename E>
+concept PassesRecursiveResidual = requires(E& e, const est::Sample& s, est::Innovation* innovation,
+                                           est::RecursiveResidual* rr) {
+  { e.Update(s, innovation, rr) } -> std::same_as<Status>;
+};
+template <typename E>
+concept PredictsWithStatus = requires(const E& e, std::span<const double> x, double level,
+                                      est::Prediction* out) {
+  { e.Predict(x, level, out) } -> std::same_as<Status>;
+};
+template <typename E>
+concept PredictsValue = requires(const E& e, std::span<const double> x, double level) {
+  { e.Predict(x, level) } -> std::same_as<est::Prediction>;
+};
+template <typename E>
+concept Predicts = PredictsWithStatus<E> || PredictsValue<E>;
+template <typename E>
+concept Inflates = requires(E& e, double factor) {
+  { e.InflateUncertainty(factor) } -> std::same_as<Status>;
+};
+
+// The one place that maps (model, kind) to the estimator type: calls
+// make(std::type_identity<T>, factory) where factory(spec) returns the fresh estimator for the
+// spec (called only when one is constructed). For a linear model's map estimator the type depends
+// on random_walk as well.
 template <typename Make>
-decltype(auto) WithEstimatorType(const ResolvedSpec& s, EstimatorKind kind, Make&& make) {
+decltype(auto) WithEstimatorType(Model model, EstimatorKind kind, bool random_walk, Make&& make) {
   using est::Rls;
-  using GaussianLs = EstimatorSlot::GaussianLs;
-  auto of = [&](auto type, auto factory) -> decltype(auto) { return make(type, factory); };
   using std::type_identity;
-  switch (s.model) {
+  using Spec = const ResolvedSpec&;
+  switch (model) {
     case Model::kGaussian:
       if (kind == EstimatorKind::kLs) {
-        return of(type_identity<GaussianLs>{}, [&] { return GaussianLs(s.rls, 1); });
+        return make(type_identity<GaussianLs>{}, [](Spec s) { return GaussianLs(s.rls); });
       }
       if (kind == EstimatorKind::kMl) {
-        return of(type_identity<est::GaussianMl>{}, [&] { return est::GaussianMl(s.ml); });
+        return make(type_identity<est::GaussianMl>{}, [](Spec s) { return est::GaussianMl(s.ml); });
       }
-      return of(type_identity<est::NormalGamma>{}, [&] { return est::NormalGamma(s.normal_gamma); });
+      return make(type_identity<est::NormalGamma>{},
+                  [](Spec s) { return est::NormalGamma(s.normal_gamma); });
     case Model::kLinear:
       if (kind == EstimatorKind::kLs) {
-        return of(type_identity<Boxed<Rls>>{}, [&] { return Boxed<Rls>(Rls(s.rls, s.p)); });
+        return make(type_identity<Boxed<Rls>>{},
+                    [](Spec s) { return Boxed<Rls>(Rls(s.rls, s.p)); });
       }
       if (kind == EstimatorKind::kMl) {
-        return of(type_identity<Boxed<est::LinearMl>>{}, [&] {
+        return make(type_identity<Boxed<est::LinearMl>>{}, [](Spec s) {
           est::RlsOptions o = s.rls;
           o.robust = false;  // ml is the gaussian likelihood, not a Huber M-estimate
           return Boxed<est::LinearMl>(est::LinearMl(o, s.p));
         });
       }
-      if (s.random_walk) {
-        return of(type_identity<Boxed<est::DynamicLinearModel<>>>{}, [&] {
+      if (random_walk) {
+        return make(type_identity<Boxed<est::DynamicLinearModel<>>>{}, [](Spec s) {
           return Boxed<est::DynamicLinearModel<>>(est::DynamicLinearModel<>(s.dlm));
         });
       }
-      return of(type_identity<Boxed<est::NigRegression<>>>{},
-                [&] { return Boxed<est::NigRegression<>>(est::NigRegression<>(s.nig)); });
+      return make(type_identity<Boxed<est::NigRegression<>>>{},
+                  [](Spec s) { return Boxed<est::NigRegression<>>(est::NigRegression<>(s.nig)); });
     case Model::kLognormal:
-      return of(type_identity<est::LognormalMl>{}, [&] { return est::LognormalMl(s.ml); });
+      return make(type_identity<est::LognormalMl>{}, [](Spec s) { return est::LognormalMl(s.ml); });
     case Model::kPoisson:
       if (kind == EstimatorKind::kMl) {
-        return of(type_identity<est::PoissonMl>{}, [&] { return est::PoissonMl(s.ml); });
+        return make(type_identity<est::PoissonMl>{}, [](Spec s) { return est::PoissonMl(s.ml); });
       }
-      return of(type_identity<est::GammaPoisson>{},
-                [&] { return est::GammaPoisson(s.gamma_poisson); });
+      return make(type_identity<est::GammaPoisson>{},
+                  [](Spec s) { return est::GammaPoisson(s.gamma_poisson); });
     case Model::kBinomial:
       if (kind == EstimatorKind::kMl) {
-        return of(type_identity<est::BinomialMl>{}, [&] { return est::BinomialMl(s.ml); });
+        return make(type_identity<est::BinomialMl>{}, [](Spec s) { return est::BinomialMl(s.ml); });
       }
-      return of(type_identity<est::BetaBinomial>{},
-                [&] { return est::BetaBinomial(s.beta_binomial); });
+      return make(type_identity<est::BetaBinomial>{},
+                  [](Spec s) { return est::BetaBinomial(s.beta_binomial); });
     case Model::kExponential:
       if (kind == EstimatorKind::kMl) {
-        return of(type_identity<est::ExponentialMl>{}, [&] { return est::ExponentialMl(s.ml); });
+        return make(type_identity<est::ExponentialMl>{},
+                    [](Spec s) { return est::ExponentialMl(s.ml); });
       }
-      return of(type_identity<est::GammaExponential>{},
-                [&] { return est::GammaExponential(s.gamma_exponential); });
+      return make(type_identity<est::GammaExponential>{},
+                  [](Spec s) { return est::GammaExponential(s.gamma_exponential); });
     case Model::kGamma:
-      return of(type_identity<est::GammaMl>{}, [&] { return est::GammaMl(s.ml); });
+      return make(type_identity<est::GammaMl>{}, [](Spec s) { return est::GammaMl(s.ml); });
     case Model::kLogistic:
-      return of(type_identity<Boxed<est::LogisticRegressionMl>>{}, [&] {
+      return make(type_identity<Boxed<est::LogisticRegressionMl>>{}, [](Spec s) {
         return Boxed<est::LogisticRegressionMl>(est::LogisticRegressionMl(s.glm));
       });
     case Model::kPoissonRegression:
-      return of(type_identity<Boxed<est::PoissonRegressionMl>>{}, [&] {
+      return make(type_identity<Boxed<est::PoissonRegressionMl>>{}, [](Spec s) {
         return Boxed<est::PoissonRegressionMl>(est::PoissonRegressionMl(s.glm));
       });
   }
-  return of(type_identity<est::GaussianMl>{}, [&] { return est::GaussianMl(s.ml); });
+  return make(type_identity<est::GaussianMl>{}, [](Spec s) { return est::GaussianMl(s.ml); });
 }
 
-// Chi-square quantiles for the residual-variance interval, cached per thread by (dof, level):
-// channels of a fleet publish at the same dof values (n - 1 at every every_n-th observation), and
-// an inverse incomplete gamma costs about 13 us. The cache returns exactly what the function would.
-std::pair<double, double> ChiSquaredInterval(double dof, double level) {
-  thread_local std::map<std::pair<double, double>, std::pair<double, double>> cache;
-  const auto key = std::make_pair(dof, level);
-  if (auto it = cache.find(key); it != cache.end()) return it->second;
-  const double q = (1.0 - level) / 2.0;
-  const std::pair<double, double> value{est::dist::ChiSquaredQuantile(1.0 - q, dof),
-                                        est::dist::ChiSquaredQuantile(q, dof)};
-  if (cache.size() >= 4096) cache.clear();  // bounded
-  cache.emplace(key, value);
-  return value;
-}
-
-// Residual-variance row of the gaussian ls report: s^2 with a chi-square interval on dof.
-void AppendResidualVariance(const EstimatorSlot::GaussianLs& ls, double level,
-                            est::ParameterReport* r) {
-  const double dof = ls.dof();
-  const double s2 = ls.residual_variance();
-  double se = est::kNaN, lo = est::kNaN, hi = est::kNaN;
-  if (r->identifiable && dof > 0 && std::isfinite(s2)) {
-    se = s2 * std::sqrt(2.0 / dof);
-    if (level > 0 && level < 1) {
-      const auto [upper_quantile, lower_quantile] = ChiSquaredInterval(dof, level);
-      lo = dof * s2 / upper_quantile;
-      hi = dof * s2 / lower_quantile;
-    }
-  }
-  r->value.push_back(r->identifiable ? s2 : est::kNaN);
-  r->std_error.push_back(se);
-  r->lower.push_back(lo);
-  r->upper.push_back(hi);
+template <typename Make>
+decltype(auto) WithEstimatorType(const ResolvedSpec& s, EstimatorKind kind, Make&& make) {
+  return WithEstimatorType(s.model, kind, s.random_walk, std::forward<Make>(make));
 }
 
 }  // namespace
+
+Status GaussianLs::Update(const est::Sample& sample, est::Innovation* innovation,
+                          est::RecursiveResidual* rr) {
+  est::Sample with_intercept = sample;
+  with_intercept.x = kOne;
+  return ls_.Update(with_intercept, innovation, rr);
+}
+
+est::ParameterReport GaussianLs::Report(double level) const {
+  est::ParameterReport r = ls_.Report(level);
+  const double dof = ls_.dof();
+  const double s2 = ls_.residual_variance();
+  double se = est::kNaN, lo = est::kNaN, hi = est::kNaN;
+  if (r.identifiable && dof > 0 && std::isfinite(s2)) {
+    se = s2 * std::sqrt(2.0 / dof);
+    if (level > 0 && level < 1) {
+      const double q = (1.0 - level) / 2.0;
+      lo = dof * s2 / est::dist::ChiSquaredQuantile(1.0 - q, dof);
+      hi = dof * s2 / est::dist::ChiSquaredQuantile(q, dof);
+    }
+  }
+  r.value.push_back(r.identifiable ? s2 : est::kNaN);
+  r.std_error.push_back(se);
+  r.lower.push_back(lo);
+  r.upper.push_back(hi);
+  return r;
+}
 
 Status CheckObservation(const ResolvedSpec& spec, const est::Sample& s) {
   const std::size_t expected = IsRegressionModel(spec.model) ? static_cast<std::size_t>(spec.p) : 0;
   if (s.x.size() != expected) {
     const std::size_t wire = s.x.size() - (spec.intercept && !s.x.empty() ? 1 : 0);
-    return Status::Error(ErrorCode::kWrongRegressorCount,
-                         "x has " + std::to_string(wire) + " entries, channel expects " +
-                             std::to_string(spec.regressor_count));
+    return Status::Error(ErrorCode::kWrongRegressorCount, "x has " + std::to_string(wire) +
+                                                              " entries, channel expects " +
+                                                              std::to_string(spec.regressor_count));
   }
   Status st = est::CheckCommonFields(s, expected);
   if (!st.ok()) return st;
@@ -141,9 +167,9 @@ Status CheckObservation(const ResolvedSpec& spec, const est::Sample& s) {
     case Model::kExponential:
     case Model::kGamma:
       if (!(s.y > 0)) {
-        return Status::Error(ErrorCode::kOutOfDomain,
-                             "y must be > 0 for model " + std::string(ModelName(spec.model)) +
-                                 ", got " + std::to_string(s.y));
+        return Status::Error(ErrorCode::kOutOfDomain, "y must be > 0 for model " +
+                                                          std::string(ModelName(spec.model)) +
+                                                          ", got " + std::to_string(s.y));
       }
       break;
     case Model::kPoisson:
@@ -164,9 +190,9 @@ Status CheckObservation(const ResolvedSpec& spec, const est::Sample& s) {
                              "trials must be a whole number >= 1, got " + std::to_string(s.trials));
       }
       if (!IsWhole(s.y) || s.y < 0 || s.y > s.trials) {
-        return Status::Error(ErrorCode::kOutOfDomain,
-                             "y must be a whole number of successes in [0, trials], got " +
-                                 std::to_string(s.y));
+        return Status::Error(
+            ErrorCode::kOutOfDomain,
+            "y must be a whole number of successes in [0, trials], got " + std::to_string(s.y));
       }
       break;
     case Model::kLinear:
@@ -182,8 +208,10 @@ Status CheckObservation(const ResolvedSpec& spec, const est::Sample& s) {
 }
 
 bool EstimatorCanInflate(Model model, EstimatorKind kind) {
-  if (kind == EstimatorKind::kLs) return model == Model::kLinear || model == Model::kGaussian;
-  return kind == EstimatorKind::kMl && model == Model::kLinear;
+  // Neither map estimator of a linear model inflates, so random_walk does not matter here.
+  return WithEstimatorType(model, kind, /*random_walk=*/false, [](auto type, auto&&) {
+    return Inflates<Unwrapped<typename decltype(type)::type>>;
+  });
 }
 
 std::size_t EstimatorSlot::StorageSize(const ResolvedSpec& spec, EstimatorKind kind) {
@@ -195,86 +223,57 @@ std::size_t EstimatorSlot::StorageSize(const ResolvedSpec& spec, EstimatorKind k
 EstimatorSlot* EstimatorSlot::Create(void* storage, const ResolvedSpec& spec, EstimatorKind kind) {
   return WithEstimatorType(spec, kind, [&](auto type, auto&& factory) {
     using T = typename decltype(type)::type;
-    return ::new (storage) EstimatorSlot(std::in_place_type<T>, factory);
+    return ::new (storage) EstimatorSlot(std::in_place_type<T>, [&] { return factory(spec); });
   });
 }
 
 Status EstimatorSlot::Update(const est::Sample& sample, est::Innovation* innovation,
                              est::RecursiveResidual* rr) {
-  return impl_.Visit(
-      [&](auto& slot) -> Status {
-        using T = std::decay_t<decltype(slot)>;
-        auto& e = Unwrap(slot);
-        if constexpr (std::is_same_v<T, GaussianLs>) {
-          est::Sample with_intercept = sample;
-          with_intercept.x = kOne;
-          return e.Update(with_intercept, innovation, rr);
-        } else if constexpr (std::is_same_v<T, Boxed<est::Rls>>) {
-          return e.Update(sample, innovation, rr);
-        } else {
-          return e.Update(sample, innovation);
-        }
-      });
+  return impl_.Visit([&](auto& slot) -> Status {
+    auto& e = Unwrap(slot);
+    if constexpr (PassesRecursiveResidual<Unwrapped<decltype(slot)>>) {
+      return e.Update(sample, innovation, rr);
+    } else {
+      return e.Update(sample, innovation);
+    }
+  });
 }
 
 est::ParameterReport EstimatorSlot::Report(double level) const {
-  return impl_.Visit(
-      [&](const auto& slot) {
-        using T = std::decay_t<decltype(slot)>;
-        est::ParameterReport r = Unwrap(slot).Report(level);
-        if constexpr (std::is_same_v<T, GaussianLs>) AppendResidualVariance(slot, level, &r);
-        return r;
-      });
+  return impl_.Visit([&](const auto& slot) { return Unwrap(slot).Report(level); });
 }
 
 bool EstimatorSlot::CanPredict() const {
-  return impl_.get_if<Boxed<est::Rls>>() != nullptr ||
-         impl_.get_if<Boxed<est::LinearMl>>() != nullptr ||
-         impl_.get_if<Boxed<est::NigRegression<>>>() != nullptr ||
-         impl_.get_if<Boxed<est::DynamicLinearModel<>>>() != nullptr;
+  return impl_.Visit([](const auto& slot) { return Predicts<Unwrapped<decltype(slot)>>; });
 }
 
 est::Prediction EstimatorSlot::Predict(std::span<const double> x, double level) const {
-  est::Prediction out;
-  out.level = level;
-  if (const auto* rls = impl_.get_if<Boxed<est::Rls>>()) {
-    if (!(*rls)->Predict(x, level, &out).ok()) out.valid = false;
-  } else if (const auto* nig = impl_.get_if<Boxed<est::NigRegression<>>>()) {
-    out = (*nig)->Predict(x, level);
-  } else if (const auto* dlm = impl_.get_if<Boxed<est::DynamicLinearModel<>>>()) {
-    out = (*dlm)->Predict(x, level);
-  } else if (const auto* ml = impl_.get_if<Boxed<est::LinearMl>>()) {
-    // Plug-in gaussian predictive (linear_ml.h): y ~ N(x'theta, sigma2_ml + x' Cov x).
-    const double sigma2 = (*ml)->sigma2_ml();
-    if (!(*ml)->rls().identifiable() || !std::isfinite(sigma2) ||
-        x.size() != static_cast<std::size_t>((*ml)->rls().p()) || !(level > 0 && level < 1)) {
-      return out;
+  return impl_.Visit([&](const auto& slot) {
+    using E = Unwrapped<decltype(slot)>;
+    est::Prediction out;
+    out.level = level;
+    if constexpr (PredictsWithStatus<E>) {
+      if (!Unwrap(slot).Predict(x, level, &out).ok()) out.valid = false;
+    } else if constexpr (PredictsValue<E>) {
+      out = Unwrap(slot).Predict(x, level);
     }
-    const Eigen::Map<const Eigen::VectorXd> xv(x.data(), static_cast<Eigen::Index>(x.size()));
-    const Eigen::VectorXd theta = (*ml)->coefficients();
-    const double mean_var = xv.dot((*ml)->covariance() * xv);
-    const double z = est::dist::NormalQuantile(0.5 + level / 2);
-    out.mean = xv.dot(theta);
-    out.mean_sd = std::sqrt(mean_var);
-    out.sd = std::sqrt(mean_var + sigma2);
-    out.lower = out.mean - z * out.sd;
-    out.upper = out.mean + z * out.sd;
-    out.valid = std::isfinite(out.mean) && std::isfinite(out.sd);
-  }
-  return out;
+    return out;
+  });
 }
 
 bool EstimatorSlot::CanInflate() const {
-  return impl_.get_if<GaussianLs>() != nullptr ||
-         impl_.get_if<Boxed<est::Rls>>() != nullptr ||
-         impl_.get_if<Boxed<est::LinearMl>>() != nullptr;
+  return impl_.Visit([](const auto& slot) { return Inflates<Unwrapped<decltype(slot)>>; });
 }
 
 Status EstimatorSlot::Inflate(double factor) {
-  if (auto* ls = impl_.get_if<GaussianLs>()) return ls->InflateUncertainty(factor);
-  if (auto* rls = impl_.get_if<Boxed<est::Rls>>()) return (*rls)->InflateUncertainty(factor);
-  if (auto* ml = impl_.get_if<Boxed<est::LinearMl>>()) return (*ml)->InflateUncertainty(factor);
-  return Status::Error(ErrorCode::kInvalidConfig, "this estimator cannot inflate its uncertainty");
+  return impl_.Visit([&](auto& slot) -> Status {
+    if constexpr (Inflates<Unwrapped<decltype(slot)>>) {
+      return Unwrap(slot).InflateUncertainty(factor);
+    } else {
+      return Status::Error(ErrorCode::kInvalidConfig,
+                           "this estimator cannot inflate its uncertainty");
+    }
+  });
 }
 
 void EstimatorSlot::SaveTo(Backup* backup) const {

@@ -53,9 +53,39 @@ namespace bayline::pipeline {
 // raw counts. Ok means no estimator will reject it except for a numerical failure.
 est::Status CheckObservation(const ResolvedSpec& spec, const est::Sample& sample);
 
+// The gaussian model's ls estimator: recursive least squares on the intercept alone (Update
+// supplies the column of ones), whose report adds the residual variance s^2 = S / dof as a second
+// parameter, with se s^2 sqrt(2 / dof) and the chi-square interval
+//   [dof s^2 / chi2_{(1+level)/2}(dof), dof s^2 / chi2_{(1-level)/2}(dof)]
+// (NaN until identified with dof > 0). It does not predict: a gaussian channel has no regressors.
+class GaussianLs {
+ public:
+  using Ls = est::RecursiveLeastSquares<1>;
+  using State = Ls::State;
+
+  // Default options make the empty alternative of a Backup (EstimatorSlot::SaveTo assigns over it).
+  explicit GaussianLs(const est::RlsOptions& options = {}) : ls_(options, 1) {}
+
+  // sample.x is ignored (the row is the intercept); otherwise as RecursiveLeastSquares::Update.
+  est::Status Update(const est::Sample& sample, est::Innovation* innovation,
+                     est::RecursiveResidual* rr);
+  est::ParameterReport Report(double level) const;
+  est::Status InflateUncertainty(double factor) { return ls_.InflateUncertainty(factor); }
+  const State& state() const { return ls_.state(); }
+  est::Status Restore(const State& state) { return ls_.Restore(state); }
+
+ private:
+  Ls ls_;
+};
+
+// What a slot can do follows from its estimator's type (estimator_slot.cc): it predicts when the
+// estimator has a Predict(x, level) member, inflates when it has InflateUncertainty(factor), and
+// passes recursive residuals when its Update takes one. Adding an estimator means adding its type
+// to Alternatives and its (model, kind) to the mapping in estimator_slot.cc.
 class EstimatorSlot {
  public:
-  using GaussianLs = est::RecursiveLeastSquares<1>;
+  using GaussianLs = pipeline::GaussianLs;
+  // Every estimator type a slot can hold.
   template <template <typename...> class Holder>
   using Alternatives =
       Holder<GaussianLs, est::GaussianMl, est::LognormalMl, est::PoissonMl, est::BinomialMl,
@@ -85,10 +115,12 @@ class EstimatorSlot {
   // Parameters in the spec's parameter_names order (gaussian ls: mean and the residual variance
   // with its chi-square interval).
   est::ParameterReport Report(double level) const;
-  // Prediction of a new y at the full regressor row x; false when this estimator cannot predict.
+  // Prediction of a new y at the full regressor row x; CanPredict is false when this estimator
+  // cannot predict (Predict then returns an invalid prediction).
   bool CanPredict() const;
   est::Prediction Predict(std::span<const double> x, double level) const;
-  // Multiplies the parameter covariance by factor > 1 (ls, and ml of linear models).
+  // Multiplies the parameter covariance by factor > 1 (ls, and ml of linear models); Inflate gives
+  // kInvalidConfig when CanInflate is false.
   bool CanInflate() const;
   est::Status Inflate(double factor);
 

@@ -251,20 +251,33 @@ Bocpd& Bocpd::operator=(const Bocpd& other) {
 
 Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent* event) {
   if (Status st = CheckDomain(options_.model, s); !st.ok()) return st;
-  const BocpdModel model = options_.model;
-  std::vector<Run>& runs = state_.runs;
-  const std::size_t old_size = runs.size();
+  double log_norm = 0;
+  Stats fresh_stats{};
+  if (Status st = ScoreRuns(s, &log_norm, &fresh_stats); !st.ok()) return st;
+  GrowRuns(s, mark, log_norm, fresh_stats);
+  PruneRuns();
+  const DetectorEvent ev = AdvanceAlarm();
+  if (event) *event = ev;
+  return Status::Ok();
+}
 
-  Stats prior{};
-  if (model == BocpdModel::kNormalGamma) {
-    prior = {options_.prior_mean, options_.prior_kappa, options_.prior_shape, options_.prior_rate};
-  } else if (model == BocpdModel::kGammaPoisson) {
-    prior = {options_.prior_shape, options_.prior_rate, 0, 0};
-  } else {
-    prior = {options_.prior_alpha, options_.prior_beta, 0, 0};
+Bocpd::Stats Bocpd::PriorStats() const {
+  switch (options_.model) {
+    case BocpdModel::kNormalGamma:
+      return {options_.prior_mean, options_.prior_kappa, options_.prior_shape, options_.prior_rate};
+    case BocpdModel::kGammaPoisson:
+      return {options_.prior_shape, options_.prior_rate, 0, 0};
+    case BocpdModel::kBetaBinomial:
+      break;
   }
+  return {options_.prior_alpha, options_.prior_beta, 0, 0};
+}
 
-  // Pass 1 (no state change): new unnormalised log masses into scratch_, and their log-sum.
+Status Bocpd::ScoreRuns(const Sample& s, double* log_norm, Stats* fresh_stats) {
+  const BocpdModel model = options_.model;
+  const std::vector<Run>& runs = state_.runs;
+  const std::size_t old_size = runs.size();
+  const Stats prior = PriorStats();
   // scratch_[i] for the growth of runs[i], scratch_[old_size] for the change.
   const double log_h = std::log(options_.hazard), log_1mh = std::log1p(-options_.hazard);
   const Shared sh = MakeShared(model, s);
@@ -297,7 +310,6 @@ Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent
     }
     total += std::exp(scratch_[i] - max_lm);
   }
-  const double log_norm = max_lm + std::log(total);
   const Stats new_prior_stats = Absorb(model, prior, s);
   if (!StatsValid(model, new_prior_stats)) {
     return Status::Error(ErrorCode::kNumericalFailure, "bocpd posterior is not finite");
@@ -307,24 +319,33 @@ Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent
       return Status::Error(ErrorCode::kNumericalFailure, "bocpd posterior is not finite");
     }
   }
+  *log_norm = max_lm + std::log(total);
+  *fresh_stats = new_prior_stats;
+  return Status::Ok();
+}
 
-  // Pass 2: commit. Growth keeps the order (longest first); the new run goes last.
+void Bocpd::GrowRuns(const Sample& s, const ObservationMark& mark, double log_norm,
+                     const Stats& fresh_stats) {
+  std::vector<Run>& runs = state_.runs;
+  const std::size_t old_size = runs.size();
   for (std::size_t i = 0; i < old_size; ++i) {
     Run& r = runs[i];
     r.length += 1;
     r.log_mass = scratch_[i] - log_norm;
-    r.stats = Absorb(model, r.stats, s);
+    r.stats = Absorb(options_.model, r.stats, s);
   }
   Run fresh;
   fresh.length = 0;
   fresh.log_mass = scratch_[old_size] - log_norm;
   fresh.start_seq = static_cast<double>(mark.seq);
   fresh.start_time = mark.time;
-  fresh.stats = new_prior_stats;
+  fresh.stats = fresh_stats;
   runs.push_back(fresh);  // within the reserved capacity
   state_.count += 1;
+}
 
-  // Pruning: below epsilon (never the MAP), then the cap by smallest mass.
+void Bocpd::PruneRuns() {
+  std::vector<Run>& runs = state_.runs;
   std::size_t map = 0;
   for (std::size_t i = 1; i < runs.size(); ++i)
     if (runs[i].log_mass > runs[map].log_mass) map = i;
@@ -367,8 +388,10 @@ Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent
     for (Run& r : runs) r.log_mass -= log_kept;
     state_.discarded_mass += dropped;
   }
+}
 
-  // Alarm statistic and life cycle.
+DetectorEvent Bocpd::AdvanceAlarm() {
+  std::vector<Run>& runs = state_.runs;
   const double m = options_.window;
   const double current = state_.count - 1;  // absolute index of this observation
   double stat = 0;
@@ -400,8 +423,8 @@ Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent
     ev.onset_seq = static_cast<std::int64_t>(chosen.start_seq);
     ev.onset_time = chosen.start_time;
     if (best_old < runs.size()) {
-      const double after = ParameterMean(model, chosen.stats);
-      const double before = ParameterMean(model, runs[best_old].stats);
+      const double after = ParameterMean(options_.model, chosen.stats);
+      const double before = ParameterMean(options_.model, runs[best_old].stats);
       ev.shift = after - before;
       ev.direction = after > before ? Direction::kUp : Direction::kDown;
     }
@@ -415,8 +438,7 @@ Status Bocpd::Update(const Sample& s, const ObservationMark& mark, DetectorEvent
     state_.holdoff_left = options_.holdoff;
     ev.statistic = 0;  // restarted statistic
   }
-  if (event) *event = ev;
-  return Status::Ok();
+  return ev;
 }
 
 std::int64_t Bocpd::map_run_length() const {

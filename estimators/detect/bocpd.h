@@ -143,6 +143,27 @@ class Bocpd {
   Status Restore(const State& s);
 
  private:
+  using Stats = std::array<double, 4>;  // a run's posterior parameters (Run::stats)
+
+  // The passes of Update, in order.
+  // The prior's posterior parameters for a new segment.
+  Stats PriorStats() const;
+  // Pass 1, no state change: the unnormalised log masses of every run's growth and of the change
+  // into scratch_ (scratch_[i] for runs[i], scratch_[runs.size()] for the change), their log-sum
+  // into *log_norm, and the new run's posterior into *fresh_stats. kNumericalFailure (nothing
+  // changed) when a predictive or a posterior is not finite.
+  Status ScoreRuns(const Sample& s, double* log_norm, Stats* fresh_stats);
+  // Pass 2, commit: every run grows by one (keeping the longest-first order) with its normalised
+  // mass and absorbed stats, the new run (length 0) goes last, count advances.
+  void GrowRuns(const Sample& s, const ObservationMark& mark, double log_norm,
+                const Stats& fresh_stats);
+  // Pruning: drops runs below prune_epsilon (never the MAP), then the least probable down to
+  // max_run_lengths; renormalises and adds the dropped mass to discarded_mass.
+  void PruneRuns();
+  // The alarm statistic and life cycle (raise with collapse onto the MAP change point, hold-off,
+  // clear) for the observation just absorbed.
+  DetectorEvent AdvanceAlarm();
+
   Options options_;
   State state_;
   std::vector<double> scratch_;     // preallocated: new log masses / selection buffer

@@ -74,6 +74,27 @@ double LinearMl::PredictiveLogDensity(std::span<const double> x, double y) const
   return dist::NormalLogPdf(y, pr.mean, pr.sd * shrink);
 }
 
+Prediction LinearMl::Predict(std::span<const double> x, double level) const {
+  Prediction out;
+  out.level = level;
+  const double sigma2 = sigma2_ml();
+  if (!rls_.identifiable() || !std::isfinite(sigma2) ||
+      x.size() != static_cast<std::size_t>(rls_.p()) || !(level > 0 && level < 1)) {
+    return out;
+  }
+  const Eigen::Map<const Eigen::VectorXd> xv(x.data(), static_cast<Eigen::Index>(x.size()));
+  const Eigen::VectorXd theta = coefficients();
+  const double mean_var = xv.dot(covariance() * xv);
+  const double z = dist::NormalQuantile(0.5 + level / 2);
+  out.mean = xv.dot(theta);
+  out.mean_sd = std::sqrt(mean_var);
+  out.sd = std::sqrt(mean_var + sigma2);
+  out.lower = out.mean - z * out.sd;
+  out.upper = out.mean + z * out.sd;
+  out.valid = std::isfinite(out.mean) && std::isfinite(out.sd);
+  return out;
+}
+
 void LinearMl::Reset() {
   rls_.Reset();
   cumulative_log_predictive_ = 0.0;

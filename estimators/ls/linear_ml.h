@@ -48,6 +48,13 @@ class LinearMl {
   // n_eff <= p, or if x has the wrong size or non-finite entries.
   double PredictiveLogDensity(std::span<const double> x, double y) const;
 
+  // Plug-in gaussian predictive of a new y at the full regressor row x:
+  //   mean = x'theta,  mean_sd^2 = x' Cov(theta) x,  sd^2 = mean_sd^2 + sigma^2_ML,
+  //   interval mean -+ z_{(1+level)/2} sd.
+  // valid = false (and the other fields NaN, level as given) when not identified, while n_eff <= p,
+  // when x.size() != p or when level is outside (0, 1).
+  Prediction Predict(std::span<const double> x, double level = 0.95) const;
+
   Eigen::VectorXd coefficients() const { return rls_.coefficients(); }
   Eigen::MatrixXd covariance() const;  // sigma^2_ML (R'R)^{-1}
   double sigma2_ml() const;            // S / n_eff (NaN while n_eff <= p or unidentified)

@@ -12,53 +12,44 @@
 #pragma once
 
 #include <array>
+#include <span>
 #include <string_view>
 
-#include "estimators/core/report.h"
-#include "estimators/core/sample.h"
-#include "estimators/core/state_codec.h"
-#include "estimators/ml/ml_common.h"
+#include "estimators/ml/scalar_ml.h"
 
 namespace bayline::est {
 
-class BinomialMl {
- public:
-  using Options = MlOptions;
-  static constexpr std::array<std::string_view, 1> kParameterNames{"probability"};
-
-  struct State {
-    double weight_sum = 0.0;  // W = sum a_i
+struct BinomialFamily {
+  struct Stats {
+    static constexpr std::string_view kName = "binomial";
     double sum_y = 0.0;       // Sy
     double sum_trials = 0.0;  // Sn
     double log_const = 0.0;   // K
-    double count = 0.0;       // accepted observations, undiscounted
-    double last_time = kNaN;
-
-    void Pack(StateWriter& w) const;
-    Status Unpack(StateReader& r);  // kInvalidState on short/long/inconsistent input
-    Status Validate() const;        // finite; 0 <= Sy <= Sn; W = 0 iff count = 0 iff Sn = 0
+    template <typename S>
+    static auto Fields(S& s) {
+      return std::array{&s.sum_y, &s.sum_trials, &s.log_const};
+    }
+    // Finite; Sy, K >= 0; Sy <= Sn (up to rounding); Sn = 0 iff count = 0.
+    static Status Check(const ScalarMlState<Stats>& s);
   };
+  using State = ScalarMlState<Stats>;
+  static constexpr std::array<std::string_view, 1> kParameterNames{"probability"};
 
-  // Precondition: options.Validate().ok().
-  explicit BinomialMl(const Options& options = {}) : options_(options) {}
+  // Whole trials >= 1 and whole 0 <= y <= trials.
+  static Status CheckSample(const Sample& s);
+  static void Predictive(const State& st, const Sample& s, Innovation* out);  // needs 0 < p < 1
+  static void Step(const State& st, double f, const Sample& s, State* next);
+  static bool Estimate(const State& st, std::span<double, 1> value, std::span<double, 1> se);
+  static double LogLikelihood(const State& st);
+  static double Probability(const State& st);  // NaN before data
+};
 
-  // Accepts whole trials >= 1 and whole 0 <= y <= trials, weight > 0, x empty. On rejection the
-  // Status names the field and nothing changes. *out: plug-in predictive before the update.
-  Status Update(const Sample& s, Innovation* out = nullptr);
-
-  // value = (probability), Wald interval; effective_n = W.
-  ParameterReport Report(double level = 0.95) const;
-
-  double probability() const;  // NaN before data
-  double log_likelihood() const;
-
-  const Options& options() const { return options_; }
-  const State& state() const { return state_; }
-  Status Restore(const State& state);
-
- private:
-  Options options_;
-  State state_;
+// Update accepts whole trials >= 1 and whole 0 <= y <= trials, weight > 0, x empty; Report gives
+// (probability), identifiable once 0 < Sy < Sn.
+class BinomialMl : public ScalarMl<BinomialFamily> {
+ public:
+  using ScalarMl::ScalarMl;
+  double probability() const { return BinomialFamily::Probability(state()); }
 };
 
 }  // namespace bayline::est

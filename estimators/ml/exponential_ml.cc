@@ -3,84 +3,47 @@
 #include <cmath>
 #include <string>
 
+#include "estimators/ml/scalar_ml_impl.h"
+
 namespace bayline::est {
 
-void ExponentialMl::State::Pack(StateWriter& w) const {
-  w.Put(weight_sum);
-  w.Put(mean);
-  w.Put(count);
-  w.Put(last_time);
-}
-
-Status ExponentialMl::State::Unpack(StateReader& r) {
-  r.Get(weight_sum);
-  r.Get(mean);
-  r.Get(count);
-  r.Get(last_time);
-  Status s = r.status();
-  if (!s.ok()) return s;
-  return Validate();
-}
-
-Status ExponentialMl::State::Validate() const {
+Status ExponentialFamily::Stats::Check(const State& s) {
   const auto bad = [](const char* why) { return Status::Error(ErrorCode::kInvalidState, why); };
-  if (!std::isfinite(weight_sum) || !std::isfinite(mean) || !std::isfinite(count)) {
-    return bad("exponential state has a non-finite value");
-  }
-  if (weight_sum < 0 || mean < 0 || count < 0) return bad("exponential state has a negative value");
-  if ((weight_sum > 0) != (count > 0) || (mean > 0) != (count > 0)) {
-    return bad("exponential state: sums and count disagree");
-  }
-  return ml_internal::CheckStoredTime(last_time);
-}
-
-double ExponentialMl::rate() const { return state_.mean > 0 ? 1.0 / state_.mean : kNaN; }
-
-double ExponentialMl::log_likelihood() const {
-  const double r = rate();
-  return std::isnan(r) ? kNaN : state_.weight_sum * (std::log(r) - 1.0);
-}
-
-Status ExponentialMl::Update(const Sample& s, Innovation* out) {
-  Status st = CheckCommonFields(s, 0);
-  if (!st.ok()) return st;
-  if (!(s.y > 0)) return Status::Error(ErrorCode::kOutOfDomain, "exponential y must be > 0, got " + std::to_string(s.y));
-
-  Innovation inn;
-  const double r = rate();
-  if (r > 0) ml_internal::FillInnovation(s.y, state_.mean, state_.mean, std::log(r) - r * s.y, &inn);
-
-  const double f = ml_internal::StepFactor(options_.forgetting, s.time, state_.last_time);
-  State next = state_;
-  next.weight_sum = f * state_.weight_sum + s.weight;
-  next.mean = state_.mean + (s.weight / next.weight_sum) * (s.y - state_.mean);
-  next.count = state_.count + 1;
-  next.last_time = ml_internal::NextLastTime(s.time, state_.last_time);
-  if (!std::isfinite(next.weight_sum) || !std::isfinite(next.mean) || !(next.mean > 0)) {
-    return Status::Error(ErrorCode::kNumericalFailure, "exponential update fails at y = " + std::to_string(s.y));
-  }
-  state_ = next;
-  if (out) *out = inn;
+  if (!std::isfinite(s.mean)) return bad("exponential state has a non-finite value");
+  if (s.mean < 0) return bad("exponential state has a negative value");
+  if ((s.mean > 0) != (s.count > 0)) return bad("exponential state: sums and count disagree");
   return Status::Ok();
 }
 
-ParameterReport ExponentialMl::Report(double level) const {
-  ParameterReport rep;
-  const double r = rate();
-  const bool ok = r > 0 && state_.weight_sum > 0;
-  const double value[1] = {r};
-  const double se[1] = {r / std::sqrt(state_.weight_sum)};
-  ml_internal::FillWaldReport(value, se, ok, level, &rep);
-  rep.effective_n = state_.weight_sum;
-  rep.log_likelihood = log_likelihood();
-  return rep;
+double ExponentialFamily::Rate(const State& st) { return st.mean > 0 ? 1.0 / st.mean : kNaN; }
+
+double ExponentialFamily::LogLikelihood(const State& st) {
+  const double r = Rate(st);
+  return std::isnan(r) ? kNaN : st.weight_sum * (std::log(r) - 1.0);
 }
 
-Status ExponentialMl::Restore(const State& state) {
-  Status s = state.Validate();
-  if (!s.ok()) return s;
-  state_ = state;
-  return Status::Ok();
+Status ExponentialFamily::CheckSample(const Sample& s) {
+  return ml_internal::CheckPositiveY("exponential", s.y);
 }
+
+void ExponentialFamily::Predictive(const State& st, const Sample& s, Innovation* out) {
+  const double r = Rate(st);
+  if (r > 0) ml_internal::FillInnovation(s.y, st.mean, st.mean, std::log(r) - r * s.y, out);
+}
+
+void ExponentialFamily::Step(const State& st, double, const Sample& s, State* next) {
+  next->mean = st.mean + (s.weight / next->weight_sum) * (s.y - st.mean);
+}
+
+bool ExponentialFamily::Estimate(const State& st, std::span<double, 1> value,
+                                 std::span<double, 1> se) {
+  const double r = Rate(st);
+  value[0] = r;
+  se[0] = r / std::sqrt(st.weight_sum);
+  return r > 0 && st.weight_sum > 0;
+}
+
+template struct ScalarMlState<ExponentialFamily::Stats>;
+template class ScalarMl<ExponentialFamily>;
 
 }  // namespace bayline::est

@@ -11,50 +11,41 @@
 #pragma once
 
 #include <array>
+#include <span>
 #include <string_view>
 
-#include "estimators/core/report.h"
-#include "estimators/core/sample.h"
-#include "estimators/core/state_codec.h"
-#include "estimators/ml/ml_common.h"
+#include "estimators/ml/scalar_ml.h"
 
 namespace bayline::est {
 
-class ExponentialMl {
- public:
-  using Options = MlOptions;
+struct ExponentialFamily {
+  struct Stats {
+    static constexpr std::string_view kName = "exponential";
+    double mean = 0.0;  // ybar
+    template <typename S>
+    static auto Fields(S& s) {
+      return std::array{&s.mean};
+    }
+    // Finite; ybar > 0 iff count > 0 (else 0).
+    static Status Check(const ScalarMlState<Stats>& s);
+  };
+  using State = ScalarMlState<Stats>;
   static constexpr std::array<std::string_view, 1> kParameterNames{"rate"};
 
-  struct State {
-    double weight_sum = 0.0;  // W
-    double mean = 0.0;        // ybar
-    double count = 0.0;       // accepted observations, undiscounted
-    double last_time = kNaN;
+  static Status CheckSample(const Sample& s);  // y > 0
+  static void Predictive(const State& st, const Sample& s, Innovation* out);
+  static void Step(const State& st, double f, const Sample& s, State* next);
+  static bool Estimate(const State& st, std::span<double, 1> value, std::span<double, 1> se);
+  static double LogLikelihood(const State& st);
+  static double Rate(const State& st);  // NaN before data
+};
 
-    void Pack(StateWriter& w) const;
-    Status Unpack(StateReader& r);  // kInvalidState on short/long/inconsistent input
-    Status Validate() const;        // finite; W >= 0; ybar > 0 iff count > 0
-  };
-
-  // Precondition: options.Validate().ok().
-  explicit ExponentialMl(const Options& options = {}) : options_(options) {}
-
-  // Accepts y > 0 (kOutOfDomain otherwise), weight > 0, x empty; rejection changes nothing.
-  Status Update(const Sample& s, Innovation* out = nullptr);
-
-  // value = (rate), Wald interval; effective_n = W.
-  ParameterReport Report(double level = 0.95) const;
-
-  double rate() const;  // NaN before data
-  double log_likelihood() const;
-
-  const Options& options() const { return options_; }
-  const State& state() const { return state_; }
-  Status Restore(const State& state);
-
- private:
-  Options options_;
-  State state_;
+// Update accepts y > 0, weight > 0, x empty; Report gives (rate), identifiable after the first
+// observation.
+class ExponentialMl : public ScalarMl<ExponentialFamily> {
+ public:
+  using ScalarMl::ScalarMl;
+  double rate() const { return ExponentialFamily::Rate(state()); }
 };
 
 }  // namespace bayline::est

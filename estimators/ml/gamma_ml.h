@@ -16,58 +16,51 @@
 #pragma once
 
 #include <array>
+#include <span>
 #include <string_view>
 
-#include "estimators/core/report.h"
-#include "estimators/core/sample.h"
-#include "estimators/core/state_codec.h"
-#include "estimators/ml/ml_common.h"
+#include "estimators/ml/scalar_ml.h"
 
 namespace bayline::est {
 
-class GammaMl {
- public:
-  using Options = MlOptions;
-  static constexpr std::array<std::string_view, 2> kParameterNames{"shape", "rate"};
-
-  struct State {
-    double weight_sum = 0.0;  // W
-    double ref = 0.0;         // c: first accepted y (0 before data)
-    double mean_d = 0.0;      // d: weighted mean of y / c - 1
-    double mean_log = 0.0;    // l: weighted mean of log(y / c)
-    double shape = kNaN;      // cached MLE of k; NaN while not identifiable
-    double count = 0.0;       // accepted observations, undiscounted
-    double last_time = kNaN;
-
-    void Pack(StateWriter& w) const;
-    Status Unpack(StateReader& r);  // kInvalidState on short/long/inconsistent input
-    // Finite sums; W >= 0; c > 0 iff count > 0; 1 + d > 0; shape NaN or > 0.
-    Status Validate() const;
+struct GammaFamily {
+  struct Stats {
+    static constexpr std::string_view kName = "gamma";
+    double ref = 0.0;       // c: first accepted y (0 before data)
+    double mean_d = 0.0;    // d: weighted mean of y / c - 1
+    double mean_log = 0.0;  // l: weighted mean of log(y / c)
+    double shape = kNaN;    // cached MLE of k; NaN while not identifiable
+    template <typename S>
+    static auto Fields(S& s) {
+      return std::array{&s.ref, &s.mean_d, &s.mean_log, &s.shape};
+    }
+    // c, d, l finite; c > 0 iff count > 0; 1 + d > 0; shape NaN or > 0 finite, and NaN exactly
+    // when s = log1p(d) - l is at most kMinStatistic.
+    static Status Check(const ScalarMlState<Stats>& s);
   };
+  using State = ScalarMlState<Stats>;
+  static constexpr std::array<std::string_view, 2> kParameterNames{"shape", "rate"};
+  // s below this is indistinguishable from rounding in the two means: all values (nearly) equal.
+  static constexpr double kMinStatistic = 1e-13;
 
-  // Precondition: options.Validate().ok().
-  explicit GammaMl(const Options& options = {}) : options_(options) {}
+  static Status CheckSample(const Sample& s);  // y > 0
+  static void Predictive(const State& st, const Sample& s, Innovation* out);
+  // Solves for the new shape (warm-started from the old one); a solver failure leaves it NaN,
+  // which Check refuses.
+  static void Step(const State& st, double f, const Sample& s, State* next);
+  static bool Estimate(const State& st, std::span<double, 2> value, std::span<double, 2> se);
+  static double LogLikelihood(const State& st);
+  static double Mean(const State& st);  // ybar; NaN before data
+};
 
-  // Accepts y > 0 (kOutOfDomain otherwise), weight > 0, x empty. Solves for the new shape; if that
-  // fails to give a finite result the update is rejected (kNumericalFailure). Rejection changes
-  // nothing. *out: plug-in predictive of the state before the update.
-  Status Update(const Sample& s, Innovation* out = nullptr);
-
-  // value = (shape, rate), Wald intervals; effective_n = W.
-  ParameterReport Report(double level = 0.95) const;
-
-  double shape() const { return state_.shape; }
-  double rate() const;        // NaN while not identifiable
-  double mean() const;        // ybar; NaN before data
-  double log_likelihood() const;
-
-  const Options& options() const { return options_; }
-  const State& state() const { return state_; }
-  Status Restore(const State& state);
-
- private:
-  Options options_;
-  State state_;
+// Update accepts y > 0, weight > 0, x empty (kNumericalFailure when the shape solver fails);
+// Report gives (shape, rate), identifiable once two distinct values were seen.
+class GammaMl : public ScalarMl<GammaFamily> {
+ public:
+  using ScalarMl::ScalarMl;
+  double shape() const { return state().shape; }
+  double rate() const { return state().shape / mean(); }  // NaN while not identifiable
+  double mean() const { return GammaFamily::Mean(state()); }
 };
 
 }  // namespace bayline::est

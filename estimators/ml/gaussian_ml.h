@@ -12,8 +12,9 @@
 // The unbiased form treats the a_i as reliability weights (Kish's effective sample size): it is
 // exactly unbiased for independent data with any fixed weights, so it covers exponential forgetting
 // and precision weights; with unit weights and no forgetting it is the usual M2 / (n - 1). (For
-// integer frequency weights the unbiased divisor would be W - 1 instead; we do not guess the intent.)
-// Updates are the weighted Welford recursion with forgetting f, on the shifted value u = y - c:
+// integer frequency weights the unbiased divisor would be W - 1 instead; we do not guess the
+// intent.) Updates are the weighted Welford recursion with forgetting f, on the shifted value u = y
+// - c:
 //   W' = f W + w,  d = u - m,  m' = m + (w / W') d,  M2' = f M2 + w d (u - m'),
 // which never forms raw sums of squares. The shift matters for data far from zero relative to their
 // spread: y - c is exact for values within a factor two of c, so the recursion then works on small
@@ -27,68 +28,54 @@
 #pragma once
 
 #include <array>
+#include <span>
 #include <string_view>
 
-#include "estimators/core/report.h"
-#include "estimators/core/sample.h"
-#include "estimators/core/state_codec.h"
-#include "estimators/ml/ml_common.h"
+#include "estimators/ml/scalar_ml.h"
 
 namespace bayline::est {
 
-class GaussianMl {
- public:
-  using Options = MlOptions;
-  static constexpr std::array<std::string_view, 2> kParameterNames{"mean", "variance"};
-
-  struct State {
-    double weight_sum = 0.0;     // W
+struct GaussianFamily {
+  struct Stats {
+    static constexpr std::string_view kName = "gaussian";
     double weight_sq_sum = 0.0;  // W2
     double shift = 0.0;          // c: first accepted y (0 before data)
     double mean_shifted = 0.0;   // m: weighted mean of y - c
     double m2 = 0.0;             // discounted weighted sum of squared deviations from mean
-    double count = 0.0;          // accepted observations, undiscounted
-    double last_time = kNaN;     // time of the latest accepted timed sample
-
-    void Pack(StateWriter& w) const;
-    // Reads the fields in Pack order; kInvalidState if the input is short, too long or the values are
-    // inconsistent (see Validate). On failure *this is unspecified; Restore() is the safe path.
-    Status Unpack(StateReader& r);
-    // Finite, W >= 0, W2 >= 0, M2 >= 0, count >= 0, W2 <= W^2 (up to rounding), W = 0 iff count = 0,
-    // no moments or shift without data.
-    Status Validate() const;
+    template <typename S>
+    static auto Fields(S& s) {
+      return std::array{&s.weight_sq_sum, &s.shift, &s.mean_shifted, &s.m2};
+    }
+    // Finite, W2 >= 0, M2 >= 0, W2 <= W^2 (up to rounding), no moments or shift without data.
+    static Status Check(const ScalarMlState<Stats>& s);
   };
+  using State = ScalarMlState<Stats>;
+  static constexpr std::array<std::string_view, 2> kParameterNames{"mean", "variance"};
 
-  // Precondition: options.Validate().ok() (checked at configuration time by the caller).
-  explicit GaussianMl(const Options& options = {});
+  static Status CheckSample(const Sample&) { return Status::Ok(); }  // any finite y
+  // N(mean, variance_ml), valid once M2 > 0.
+  static void Predictive(const State& st, const Sample& s, Innovation* out);
+  // The weighted Welford recursion on s.y (the lognormal family passes log y).
+  static void Step(const State& st, double f, const Sample& s, State* next);
+  static bool Estimate(const State& st, std::span<double, 2> value, std::span<double, 2> se);
+  static double LogLikelihood(const State& st);
 
-  // Absorbs one observation (y finite; x empty; weight > 0 finite). On success fills *out (if not
-  // null) with the plug-in predictive N(mean, variance_ml) of the state BEFORE the update (invalid
-  // until two distinct values were seen). On rejection returns the Status naming the field and
-  // nothing changes (state and *out untouched).
-  Status Update(const Sample& s, Innovation* out = nullptr);
+  static double Mean(const State& st) { return st.shift + st.mean_shifted; }
+  static double VarianceMl(const State& st);  // NaN before any data
+};
 
-  // value = (mean, variance_ml) with Fisher-information standard errors and Wald intervals at
-  // `level`. identifiable once M2 > 0 (two distinct values). effective_n = W.
-  ParameterReport Report(double level = 0.95) const;
-
-  double mean() const { return state_.shift + state_.mean_shifted; }
+// Update accepts any finite y, weight > 0, x empty; the innovation is valid once two distinct
+// values were seen. Report gives (mean, variance_ml), identifiable once M2 > 0.
+class GaussianMl : public ScalarMl<GaussianFamily> {
+ public:
+  using ScalarMl::ScalarMl;
+  double mean() const { return GaussianFamily::Mean(state()); }
   // NaN before any data.
-  double variance_ml() const;
+  double variance_ml() const { return GaussianFamily::VarianceMl(state()); }
   // NaN until n_eff > 1.
   double variance_unbiased() const;
   // Kish's n_eff = W^2 / W2 (0 before any data).
   double effective_sample_size() const;
-  double log_likelihood() const;
-
-  const Options& options() const { return options_; }
-  const State& state() const { return state_; }
-  // Validates `state` and replaces the current one; on rejection nothing changes.
-  Status Restore(const State& state);
-
- private:
-  Options options_;
-  State state_;
 };
 
 }  // namespace bayline::est

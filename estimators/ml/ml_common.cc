@@ -1,6 +1,7 @@
 #include "estimators/ml/ml_common.h"
 
 #include <array>
+#include <string>
 
 #include "estimators/core/distributions.h"
 #include "estimators/core/special_functions.h"
@@ -9,7 +10,8 @@ namespace bayline::est::ml_internal {
 
 double LogFactorial(double n) {
   constexpr int kTable = 256;
-  // Built once, on first use (thread-safe static initialisation), by summing logs: exact to rounding.
+  // Built once, on first use (thread-safe static initialisation), by summing logs: exact to
+  // rounding.
   static const std::array<double, kTable> table = [] {
     std::array<double, kTable> t{};
     for (int i = 2; i < kTable; ++i) t[i] = t[i - 1] + std::log(static_cast<double>(i));
@@ -50,13 +52,20 @@ void FillInnovation(double y, double mean, double sd, double log_predictive, Inn
   out->predictive_sd = sd;
   out->standardized = (y - mean) / sd;
   out->log_predictive = log_predictive;
-  out->valid = std::isfinite(mean) && std::isfinite(sd) && sd > 0.0 && std::isfinite(out->standardized) &&
-               !std::isnan(log_predictive);
+  out->valid = std::isfinite(mean) && std::isfinite(sd) && sd > 0.0 &&
+               std::isfinite(out->standardized) && !std::isnan(log_predictive);
   if (!out->valid) *out = Innovation{};
 }
 
+Status CheckPositiveY(std::string_view family, double y) {
+  if (y > 0) return Status::Ok();
+  return Status::Error(ErrorCode::kOutOfDomain,
+                       std::string(family) + " y must be > 0, got " + std::to_string(y));
+}
+
 Status CheckStoredTime(double last_time) {
-  if (std::isinf(last_time)) return Status::Error(ErrorCode::kInvalidState, "last time is infinite");
+  if (std::isinf(last_time))
+    return Status::Error(ErrorCode::kInvalidState, "last time is infinite");
   return Status::Ok();
 }
 

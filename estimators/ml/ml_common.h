@@ -3,8 +3,8 @@
 // Every ml estimator keeps exponentially weighted sufficient statistics. With per-step forgetting
 // factor f_t (core/forgetting.h) and sample weight w_t, observation i carries the discounted weight
 //   a_i = w_i * prod_{t > i} f_t,
-// and the estimator maximises the discounted log-likelihood  l(theta) = sum_i a_i log p(y_i | theta).
-// Without forgetting (f = 1) this is the ordinary weighted batch MLE.
+// and the estimator maximises the discounted log-likelihood  l(theta) = sum_i a_i log p(y_i |
+// theta). Without forgetting (f = 1) this is the ordinary weighted batch MLE.
 //   W  = sum_i a_i      (reported as effective_n)
 //   W2 = sum_i a_i^2    (kept where a small-sample correction needs Kish's n_eff = W^2 / W2)
 // Standard errors come from the Fisher information of l(theta) evaluated at the estimate, i.e. W
@@ -15,6 +15,7 @@
 
 #include <cmath>
 #include <span>
+#include <string_view>
 
 #include "estimators/core/forgetting.h"
 #include "estimators/core/report.h"
@@ -37,8 +38,8 @@ inline double StepFactor(const ForgettingOptions& o, double time, double last_ti
   return ForgettingFactor(o, time, last_time);
 }
 
-// The time to remember after accepting a sample at `time`: the latest time seen (untimed samples and
-// samples that go back in time leave it alone, so the clock never runs backwards).
+// The time to remember after accepting a sample at `time`: the latest time seen (untimed samples
+// and samples that go back in time leave it alone, so the clock never runs backwards).
 inline double NextLastTime(double time, double last_time) {
   if (std::isnan(time)) return last_time;
   if (std::isnan(last_time) || time > last_time) return time;
@@ -63,6 +64,9 @@ void FillWaldReport(std::span<const double> value, std::span<const double> std_e
 // Sets every field of `out` from a plug-in predictive with mean `mean` and sd `sd` for observation
 // `y` and its log density/mass `log_predictive`. valid = true only if all are finite and sd > 0.
 void FillInnovation(double y, double mean, double sd, double log_predictive, Innovation* out);
+
+// Ok when y > 0, else kOutOfDomain "<family> y must be > 0, got <y>" (the positive families).
+Status CheckPositiveY(std::string_view family, double y);
 
 // Checks the common fields and, for the state validators, that a stored time is NaN or finite.
 Status CheckStoredTime(double last_time);

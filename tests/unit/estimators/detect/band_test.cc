@@ -10,9 +10,13 @@
 #include <vector>
 
 #include "estimators/ls/rls.h"
+#include "tests/unit/estimators/detect/test_util.h"
 
 namespace bayline::est {
 namespace {
+
+using testing::BitEqual;
+using testing::Packed;
 
 ParameterReport Report1(double value, double half_width) {
   ParameterReport r;
@@ -22,16 +26,6 @@ ParameterReport Report1(double value, double half_width) {
   r.upper = {value + half_width};
   r.identifiable = true;
   return r;
-}
-
-std::vector<double> Packed(const ToleranceBand& d) {
-  std::vector<double> v;
-  StateWriter w(&v);
-  d.state().Pack(w);
-  return v;
-}
-bool BitEqual(const std::vector<double>& a, const std::vector<double>& b) {
-  return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(double)) == 0;
 }
 
 ToleranceBand::Options GainBand() {

@@ -10,8 +10,14 @@
 #include <random>
 #include <vector>
 
+#include "tests/unit/estimators/detect/test_util.h"
+
 namespace bayline::est {
 namespace {
+
+using testing::BitEqual;
+using testing::Flat;
+using testing::Packed;
 
 Sample Y(double y) {
   Sample s;
@@ -27,22 +33,6 @@ Sample Successes(double y, double trials) {
   Sample s = Y(y);
   s.trials = trials;
   return s;
-}
-
-std::vector<double> Packed(const Bocpd& d) {
-  std::vector<double> v;
-  StateWriter w(&v);
-  d.state().Pack(w);
-  return v;
-}
-
-// Bitwise equality (NaN marks compare equal to themselves).
-bool BitEqual(const std::vector<double>& a, const std::vector<double>& b) {
-  return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(double)) == 0;
-}
-std::vector<double> Flat(const DetectorEvent& e) {
-  return {double(e.raised),    double(e.cleared),   e.statistic,  e.threshold,
-          double(e.direction), double(e.onset_seq), e.onset_time, e.shift};
 }
 
 TEST(BocpdTest, OptionsValidateRejectsEachBadField) {

@@ -11,7 +11,7 @@
 #include "estimators/detect/ewma.h"
 #include "estimators/detect/glr.h"
 #include "estimators/detect/page_hinkley.h"
-#include "tests/unit/estimators/detect/chart_test_util.h"
+#include "tests/unit/estimators/detect/test_util.h"
 
 namespace bayline::est {
 namespace {

@@ -5,7 +5,7 @@
 
 #include <gtest/gtest.h>
 
-#include "tests/unit/estimators/detect/chart_test_util.h"
+#include "tests/unit/estimators/detect/test_util.h"
 
 namespace bayline::est {
 namespace {

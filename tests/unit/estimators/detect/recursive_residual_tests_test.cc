@@ -9,23 +9,14 @@
 #include <random>
 #include <vector>
 
+#include "tests/unit/estimators/detect/test_util.h"
+
 namespace bayline::est {
 namespace {
 
-bool BitEqual(const std::vector<double>& a, const std::vector<double>& b) {
-  return a.size() == b.size() && std::memcmp(a.data(), b.data(), a.size() * sizeof(double)) == 0;
-}
-std::vector<double> Flat(const DetectorEvent& e) {
-  return {double(e.raised),    double(e.cleared),   e.statistic,  e.threshold,
-          double(e.direction), double(e.onset_seq), e.onset_time, e.shift};
-}
-template <typename D>
-std::vector<double> Packed(const D& d) {
-  std::vector<double> v;
-  StateWriter w(&v);
-  d.state().Pack(w);
-  return v;
-}
+using testing::BitEqual;
+using testing::Flat;
+using testing::Packed;
 
 TEST(BdeBatchTest, CoefficientsAndBoundaryLinesAreBdes) {
   // Brown, Durbin & Evans (1975), JRSS B 37: a = 0.850, 0.948, 1.143 for 10%, 5%, 1%.

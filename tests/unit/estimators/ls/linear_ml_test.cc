@@ -89,6 +89,39 @@ TEST(LinearMlTest, PredictiveDensityAndInnovationUseTheMlVariance) {
   EXPECT_TRUE(std::isnan(ml.PredictiveLogDensity(std::vector<double>{1.0}, 0.0)));
 }
 
+// The plug-in predictive of a new y at x: N(x'theta_OLS, RSS/n (1 + x'(X'X)^{-1}x)), with the
+// parameter part RSS/n x'(X'X)^{-1}x reported as mean_sd (common practice, no source); batch
+// values from pivoted Householder QR and an LDLT solve.
+TEST(LinearMlTest, PredictIsThePlugInGaussianOfTheBatchFit) {
+  Eigen::VectorXd theta(3);
+  theta << 0.5, 2.0, -1.5;
+  const auto d = MakeData(120, theta, 0.8, 63);
+  LinearMl ml(RlsOptions{}, 3);
+  std::vector<double> buf;
+  for (int i = 0; i < 120; ++i) ASSERT_TRUE(ml.Update(SampleAt(d, i, &buf)).ok());
+  const Eigen::VectorXd ols = BatchLs(d.x, d.y);
+  const double s2 = (d.y - d.x * ols).squaredNorm() / 120;
+  const std::vector<double> x = {1.0, 0.3, -2.0};
+  const Eigen::Map<const Eigen::VectorXd> xv(x.data(), 3);
+  const double q = xv.dot((d.x.transpose() * d.x).ldlt().solve(xv));
+  const double z = dist::NormalQuantile(0.95);
+  const Prediction p = ml.Predict(x, 0.9);
+  ASSERT_TRUE(p.valid);
+  EXPECT_EQ(p.level, 0.9);
+  EXPECT_NEAR(p.mean, xv.dot(ols), 1e-10 * std::fabs(xv.dot(ols)));
+  EXPECT_NEAR(p.mean_sd, std::sqrt(s2 * q), 1e-9 * std::sqrt(s2 * q));
+  EXPECT_NEAR(p.sd, std::sqrt(s2 * (1.0 + q)), 1e-9 * std::sqrt(s2 * (1.0 + q)));
+  EXPECT_NEAR(p.upper - p.mean, z * p.sd, 1e-12 * p.sd);
+  EXPECT_NEAR(p.mean - p.lower, z * p.sd, 1e-12 * p.sd);
+
+  EXPECT_FALSE(ml.Predict(std::vector<double>{1.0, 2.0}, 0.9).valid);  // wrong size
+  EXPECT_FALSE(ml.Predict(x, 1.0).valid);                              // level outside (0, 1)
+  const Prediction none = LinearMl(RlsOptions{}, 3).Predict(x, 0.8);   // nothing seen yet
+  EXPECT_FALSE(none.valid);
+  EXPECT_EQ(none.level, 0.8);
+  EXPECT_TRUE(std::isnan(none.mean));
+}
+
 TEST(LinearMlTest, NotIdentifiedGivesNaNAndRejectsBadInput) {
   LinearMl ml(RlsOptions{}, 3);
   std::vector<double> x = {1.0, 2.0, 3.0};
