@@ -1,17 +1,23 @@
 # bayline: top-level entry points. `make demo` and `make test` work on a fresh Debian 12 machine:
-# they install whatever Debian packages are missing, configure, build and run.
+# they call `make deps`, which installs missing Debian packages (with sudo, the only step that
+# needs root, and only when something is missing), then configure, build and run.
 BUILD      ?= build
 BUILD_TYPE ?= Release
+ASAN_BUILD ?= build-asan
 JOBS       ?= $(shell nproc)
 SUDO       := $(shell [ "$$(id -u)" = 0 ] || echo sudo)
+# Debian's clang-format: the tree's .clang-format is checked with this version.
+CLANG_FORMAT ?= /usr/bin/clang-format
+# The C++ sources held to .clang-format (generated code lives in the build trees, not here).
+FORMAT_FILES  = $(shell find estimators daemon clients tests -type f \( -name '*.h' -o -name '*.cc' \) | sort)
 
 DEB_PACKAGES := cmake ninja-build g++ make pkg-config \
   libeigen3-dev libzmq3-dev cppzmq-dev protobuf-compiler libprotobuf-dev \
-  libspdlog-dev libcli11-dev libgtest-dev libgmock-dev libbenchmark-dev \
+  libspdlog-dev libcli11-dev libgtest-dev libgmock-dev libbenchmark-dev clang-format \
   python3 python3-zmq python3-protobuf python3-matplotlib python3-numpy \
   python3-scipy python3-statsmodels python3-mpmath python3-pytest r-base-core r-cran-spc
 
-.PHONY: deps configure build test bench demo clean
+.PHONY: deps configure build test check format format-check bench demo clean
 
 deps:
 	@missing=$$(for p in $(DEB_PACKAGES); do \
@@ -23,13 +29,33 @@ deps:
 	fi
 
 configure: deps
-	@cmake -S . -B $(BUILD) -G Ninja -DCMAKE_BUILD_TYPE=$(BUILD_TYPE) -DBAYLINE_STRICT=ON >/dev/null
+	@cmake -S . -B $(BUILD) -G Ninja -DCMAKE_BUILD_TYPE=$(BUILD_TYPE) >/dev/null
 
 build: configure
 	cmake --build $(BUILD) -j $(JOBS)
 
-test: build
+test: format-check build
 	cd $(BUILD) && ctest --output-on-failure -j $(JOBS) --timeout 1500
+
+# Debug build with AddressSanitizer and UndefinedBehaviorSanitizer in its own tree; runs the unit and
+# integration tests except those that replace the allocator (label no_sanitizer).
+check: deps
+	@cmake -S . -B $(ASAN_BUILD) -G Ninja -DCMAKE_BUILD_TYPE=Debug -DBAYLINE_SANITIZE=ON \
+	  -DBAYLINE_BUILD_BENCH=OFF >/dev/null
+	cmake --build $(ASAN_BUILD) -j $(JOBS)
+	cd $(ASAN_BUILD) && UBSAN_OPTIONS=print_stacktrace=1 ctest --output-on-failure -j $(JOBS) \
+	  --timeout 1500 -L 'unit|integration' -LE no_sanitizer
+
+# Rewrites the C++ sources in place to the tree's .clang-format.
+format: deps
+	@$(CLANG_FORMAT) -i --style=file $(FORMAT_FILES)
+
+# Lists every C++ source that `make format` would change and fails if there is one.
+format-check: deps
+	@bad=$$(for f in $(FORMAT_FILES); do \
+	  $(CLANG_FORMAT) --style=file "$$f" | cmp -s - "$$f" || echo "$$f"; done); \
+	if [ -n "$$bad" ]; then \
+	  echo "not formatted (run make format):"; echo "$$bad" | sed 's/^/  /'; exit 1; fi
 
 bench: build
 	@for b in $(BUILD)/tests/bench/*/bayline_bench_*; do [ -x "$$b" ] && "$$b" --benchmark_min_time=0.2; done; true
@@ -38,4 +64,4 @@ demo: build
 	clients/demo/run_demo.sh $(BUILD)
 
 clean:
-	rm -rf $(BUILD)
+	rm -rf $(BUILD) $(ASAN_BUILD)

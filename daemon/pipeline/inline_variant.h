@@ -37,7 +37,7 @@ class InlineVariant {
   static constexpr std::size_t kIndexOf = [] {
     static_assert((std::is_same_v<T, Ts> + ...) == 1, "T must be exactly one of the alternatives");
     std::size_t i = 0;
-    ((std::is_same_v<T, Ts> ? false : (++i, true)) && ...);
+    (void)((std::is_same_v<T, Ts> ? false : (++i, true)) && ...);  // counts until T is found
     return i;
   }();
 

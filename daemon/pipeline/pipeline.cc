@@ -26,7 +26,7 @@ PipelineState::PipelineState(const bayline::v1::DaemonConfig& config, uint32_t p
       limits_(LimitsOf(config)),
       partition_index_(partition_index),
       partition_count_(partition_count == 0 ? 1 : partition_count) {
-  rules_.Build(config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
+  (void)rules_.Build(config_);  // a rule failing calibration rejects its channels (pipeline.h)
   x_full_.reserve(limits_.max_regressors + 1);
 }
 
@@ -262,7 +262,7 @@ void PipelineState::RunDetectors(Channel& ch, const est::Sample& sample, uint64_
       detectors[d].RecordAlarm(
           publisher_.Alarm(sink, name, setup, spec, event, true, seq, time_ns, sample.y));
       if (setup.inflate_on_alarm > 1 && ch.estimator(w).CanInflate()) {
-        ch.estimator(w).Inflate(setup.inflate_on_alarm);  // factor validated: cannot fail
+        (void)ch.estimator(w).Inflate(setup.inflate_on_alarm);  // factor validated: cannot fail
       }
     }
   }

@@ -7,7 +7,8 @@
 //     the result (see report.h);
 //   * programmer errors (violated preconditions documented as such) are asserts.
 //
-// An ok Status carries no message and does not allocate.
+// An ok Status carries no message and does not allocate. Status is [[nodiscard]]: a caller handles
+// it, or discards it with (void) and a comment saying why that is right.
 #pragma once
 
 #include <string>
@@ -31,7 +32,7 @@ enum class ErrorCode {
 // Stable snake_case name of a code, e.g. "non_finite".
 std::string_view ErrorCodeName(ErrorCode code);
 
-class Status {
+class [[nodiscard]] Status {
  public:
   Status() = default;  // ok
   static Status Ok() { return Status(); }

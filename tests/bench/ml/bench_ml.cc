@@ -24,7 +24,7 @@ void RunScalar(benchmark::State& state, Est est, Gen gen) {
   std::mt19937_64 rng(99);
   std::vector<Sample> samples(kSamples);
   for (auto& s : samples) s = gen(rng);
-  for (const auto& s : samples) est.Update(s);  // warm: past any start-up
+  for (const auto& s : samples) (void)est.Update(s);  // warm-up; generated samples are valid
   Innovation inn;
   std::size_t i = 0;
   for (auto _ : state) {
@@ -113,7 +113,7 @@ void RunGlm(benchmark::State& state, bool poisson) {
       s.y = std::bernoulli_distribution(1 / (1 + std::exp(-eta)))(rng) ? 1 : 0;
     }
   }
-  for (const auto& s : samples) est.Update(s);  // past the start-up fit
+  for (const auto& s : samples) (void)est.Update(s);  // past the start-up fit; samples are valid
   Innovation inn;
   std::size_t i = 0;
   for (auto _ : state) {

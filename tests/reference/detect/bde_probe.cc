@@ -61,7 +61,7 @@ int main() {
   RecursiveCusumSquares online(o);
   DetectorEvent ev;
   for (std::size_t i = 0; i < w.size(); ++i)
-    online.Update(w[i], {static_cast<std::int64_t>(i), 0.0}, &ev);
+    if (!online.Update(w[i], {static_cast<std::int64_t>(i), 0.0}, &ev).ok()) return 1;
   Print("online_sq", {ev.statistic});
   return 0;
 }

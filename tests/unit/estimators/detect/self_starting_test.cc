@@ -29,8 +29,8 @@ TEST(ChartsSelfStartingTest, ThirdValueMatchesTheCauchyClosedForm) {
   for (double y3 : {-40.0, -3.0, 0.7, 1.5, 2.2, 9.0, 300.0}) {
     SelfStartingStandardizer s;
     double z = 0;
-    s.Update(y1, &z);
-    s.Update(y2, &z);
+    ASSERT_TRUE(s.Update(y1, &z).ok());
+    ASSERT_TRUE(s.Update(y2, &z).ok());
     ASSERT_TRUE(s.Update(y3, &z).ok());
     const double sd = std::sqrt(0.5);  // sample sd of {1, 2}
     const double t = (y3 - 1.5) / (sd * std::sqrt(1.5));
@@ -47,8 +47,8 @@ TEST(ChartsSelfStartingTest, InvariantToLocationAndScale) {
   for (int i = 0; i < 200; ++i) {
     const double y = normal(rng);
     double za = 0, zb = 0;
-    a.Update(y, &za);
-    b.Update(1e4 + 37.5 * y, &zb);
+    ASSERT_TRUE(a.Update(y, &za).ok());
+    ASSERT_TRUE(b.Update(1e4 + 37.5 * y, &zb).ok());
     if (i >= 2) {
       ASSERT_NEAR(za, zb, 1e-8 * (1 + std::fabs(za))) << i;
     }
@@ -68,7 +68,7 @@ TEST(ChartsSelfStartingTest, ValuesAreStandardNormalAndUncorrelatedAtEveryIndex)
     double prev = 0;
     for (int n = 1; n <= len; ++n) {
       double z = 0;
-      s.Update(normal(rng), &z);
+      ASSERT_TRUE(s.Update(normal(rng), &z).ok());
       if (n >= 3) {
         sum[n] += z;
         sum2[n] += z * z;
@@ -137,8 +137,8 @@ TEST(ChartsSelfStartingTest, UnderflowingTailGivesTheLargestFiniteScore) {
 TEST(ChartsSelfStartingTest, RejectsNonFiniteAndKeepsState) {
   SelfStartingStandardizer s;
   double z = 0;
-  s.Update(1.0, &z);
-  s.Update(3.0, &z);
+  ASSERT_TRUE(s.Update(1.0, &z).ok());
+  ASSERT_TRUE(s.Update(3.0, &z).ok());
   const auto before = s.state();
   EXPECT_EQ(s.Update(std::nan(""), &z).code(), ErrorCode::kNonFinite);
   EXPECT_EQ(s.state().count, before.count);
@@ -165,7 +165,7 @@ TEST(ChartsSelfStartingTest, RecursiveResidualStandardizerUsesTheRunningResidual
 TEST(ChartsSelfStartingTest, StateRoundTripsAndRestoreValidates) {
   SelfStartingStandardizer a, b;
   double za = 0, zb = 0;
-  for (double y : {3.0, 1.0, 4.0, 1.0, 5.0}) a.Update(y, &za);
+  for (double y : {3.0, 1.0, 4.0, 1.0, 5.0}) ASSERT_TRUE(a.Update(y, &za).ok());
   std::vector<double> buf;
   StateWriter w(&buf);
   a.state().Pack(w);
@@ -174,8 +174,8 @@ TEST(ChartsSelfStartingTest, StateRoundTripsAndRestoreValidates) {
   ASSERT_TRUE(s.Unpack(r).ok());
   ASSERT_TRUE(r.status().ok());
   ASSERT_TRUE(b.Restore(s).ok());
-  a.Update(9.0, &za);
-  b.Update(9.0, &zb);
+  ASSERT_TRUE(a.Update(9.0, &za).ok());
+  ASSERT_TRUE(b.Update(9.0, &zb).ok());
   EXPECT_EQ(za, zb);
   s.m2 = -1;
   EXPECT_EQ(b.Restore(s).code(), ErrorCode::kInvalidState);
