@@ -46,8 +46,8 @@ bool WriteSnapshot(const std::vector<std::unique_ptr<Worker>>& workers, Snapshot
   return true;
 }
 
-RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::DaemonConfig& config,
-                                 const Shard& shard,
+RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
+                                 const bayline::v1::DaemonConfig& config, const Shard& shard,
                                  std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines) {
   RestoreOutcome outcome;
   const size_t workers = pipelines->size();
@@ -80,10 +80,12 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::
       parts[WorkerOf(h, shard, workers)].add_channels()->Swap(&channel);
     }
     std::vector<std::string> reset;
+    std::vector<std::string> not_restored;
     bool ok = true;
     uint64_t restored = 0;
     for (size_t w = 0; w < workers && ok; ++w) {
-      const bayline::est::Status status = (*pipelines)[w]->RestoreChannels(parts[w], &reset);
+      const bayline::est::Status status =
+          (*pipelines)[w]->RestoreChannels(parts[w], &reset, &not_restored);
       if (!status.ok()) {
         outcome.skipped.push_back(path.string() + ": " + status.ToString());
         ok = false;
@@ -95,9 +97,10 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::
       continue;
     }
     outcome.path = path.string();
-    outcome.channels = restored - reset.size();
+    outcome.channels = restored - reset.size() - not_restored.size();
     outcome.other_shard = other_shard;
     outcome.reset_channels = std::move(reset);
+    outcome.not_restored = std::move(not_restored);
     return outcome;
   }
   return outcome;

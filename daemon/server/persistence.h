@@ -26,19 +26,24 @@ bool WriteSnapshot(const std::vector<std::unique_ptr<Worker>>& workers, Snapshot
                    std::string* error);
 
 struct RestoreOutcome {
-  std::string path;                        // file restored; empty when starting empty
-  uint64_t channels = 0;                   // channels restored
-  uint64_t other_shard = 0;                // channels in the file that belong to other shards
-  std::vector<std::string> skipped;        // newer files not used, each with the reason
-  std::vector<std::string> reset_channels; // restored as new because their spec changed
+  std::string path;                         // file restored; empty when starting empty
+  uint64_t channels = 0;                    // channels restored
+  uint64_t other_shard = 0;                 // channels in the file that belong to other shards
+  std::vector<std::string> skipped;         // newer files not used, each with the reason
+  std::vector<std::string> reset_channels;  // restored as new because their spec changed
+  std::vector<std::string> not_restored;    // channels set aside, each "channel \"name\": reason"
 };
 
 // Before the workers start: tries the snapshot files newest first and restores the first that
-// decodes and that every pipeline accepts; each channel goes to the pipeline of the worker that
-// owns it (routing.h). A file that fails at any step leaves every pipeline empty (they are rebuilt
-// from `config`) and the next older file is tried.
-RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::DaemonConfig& config,
-                                 const Shard& shard,
+// decodes and that every pipeline accepts as a whole; each channel goes to the pipeline of the
+// worker that owns it (routing.h). A file that cannot be used (unreadable, bad header or
+// checksum, a payload that does not parse, or one Pipeline::RestoreChannels refuses as a whole)
+// leaves every pipeline empty (they are rebuilt from `config`) and the next older file is tried.
+// A channel of a usable file whose own record cannot be restored does not make the file unusable:
+// it alone is set aside (listed in not_restored, counted by the pipelines' channels_not_restored)
+// and every other channel is restored.
+RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
+                                 const bayline::v1::DaemonConfig& config, const Shard& shard,
                                  std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines);
 
 }  // namespace bayline::server
