@@ -375,11 +375,12 @@ bool Pipeline::Reset(std::string_view channel) { return state_->Reset(channel); 
 const Counters& Pipeline::counters() const { return state_->counters(); }
 void Pipeline::SaveChannels(bayline::v1::Snapshot* out) const { state_->SaveChannels(out); }
 est::Status Pipeline::RestoreChannels(const bayline::v1::Snapshot& in,
-                                      std::vector<std::string>* reset_channels) {
-  return state_->RestoreChannels(in, reset_channels);
+                                      std::vector<std::string>* reset_channels,
+                                      std::vector<std::string>* not_restored) {
+  return state_->RestoreChannels(in, reset_channels, not_restored);
 }
 est::Status Pipeline::RestoreChannels(const bayline::v1::Snapshot& in) {
-  return state_->RestoreChannels(in, nullptr);
+  return state_->RestoreChannels(in, nullptr, nullptr);
 }
 est::Status Pipeline::Reconfigure(const bayline::v1::DaemonConfig& config,
                                   std::vector<std::string>* reset_channels) {

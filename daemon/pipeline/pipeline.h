@@ -94,6 +94,7 @@ struct Counters {
   uint64_t predictions = 0;     // prediction requests answered
   uint64_t not_owned = 0;       // observations of another partition's channels (ignored)
   uint64_t detector_skips = 0;  // detector updates skipped after a numerical failure
+  uint64_t channels_not_restored = 0;  // snapshot channels set aside by RestoreChannels
 };
 
 class PipelineState;  // the implementation (pipeline_state.h)
@@ -151,13 +152,20 @@ class Pipeline {
   // Appends one ChannelSnapshot per channel (sorted by name) and sets format_version and
   // config_digest. Restoring and continuing is bit-identical to never stopping.
   void SaveChannels(bayline::v1::Snapshot* out) const;
-  // Validates every channel of `in` first; on any state that does not unpack returns kInvalidState
-  // naming the channel and changes nothing. Channels of other partitions are skipped. A channel
-  // whose spec digest no longer matches its rule (or that no rule matches any more) is not
-  // restored: it restarts from its rule, and its name is appended to *reset_channels (if given).
-  // A restored channel replaces a channel of the same name already held.
+  // Restores the channels of `in`, each on its own. A channel whose record cannot be restored
+  // (invalid or repeated name, unknown model, components that do not match its spec, a state that
+  // fails its estimator's or detector's invariants, an inconsistent seq window) is set aside: it is
+  // not restored (it restarts from its rule with its next observation), a line naming it and the
+  // reason is appended to *not_restored (if given) and counters().channels_not_restored counts it;
+  // every other channel is restored. Channels of other partitions are skipped. A channel whose
+  // spec digest no longer matches its rule (or that no rule matches any more) is not restored: it
+  // restarts from its rule, and its name is appended to *reset_channels (if given). A restored
+  // channel replaces a channel of the same name already held. Only a snapshot that cannot be read
+  // as a whole (another format_version, or more channels than limits.max_channels) returns
+  // kInvalidState, changing nothing.
   bayline::est::Status RestoreChannels(const bayline::v1::Snapshot& in,
-                                       std::vector<std::string>* reset_channels);
+                                       std::vector<std::string>* reset_channels,
+                                       std::vector<std::string>* not_restored = nullptr);
   bayline::est::Status RestoreChannels(const bayline::v1::Snapshot& in);
 
   // Reload: validates and calibrates the new config first (error: nothing changed). New rules apply

@@ -49,7 +49,8 @@ class PipelineState {
   std::optional<bayline::v1::ChannelReport> Ask(std::string_view channel) const;
   bool Reset(std::string_view channel);
   void SaveChannels(bayline::v1::Snapshot* out) const;
-  est::Status RestoreChannels(const bayline::v1::Snapshot& in, std::vector<std::string>* reset);
+  est::Status RestoreChannels(const bayline::v1::Snapshot& in, std::vector<std::string>* reset,
+                              std::vector<std::string>* not_restored);
   est::Status Reconfigure(const bayline::v1::DaemonConfig& config, std::vector<std::string>* reset);
 
   Counters& counters() { return counters_; }

@@ -1,6 +1,7 @@
 // SaveChannels / RestoreChannels: channel state <-> bayline.v1.Snapshot (snapshot.proto).
 // Component order: the estimators in spec order, then the detectors in spec order; each is a kind
 // name and the packed doubles of its state (EstimatorSlot::Pack, DetectorSlot::Pack).
+// Restoring is per channel: a record that fails is set aside on its own (pipeline.h).
 #include <algorithm>
 #include <set>
 
@@ -16,6 +17,57 @@ est::Status Invalid(const std::string& channel, const std::string& why) {
   return est::Status::Error(est::ErrorCode::kInvalidState, "channel \"" + channel + "\": " + why);
 }
 
+// Fills `ch` (fresh from Channel::Create with `spec`) from its snapshot record: every component's
+// kind and state, then the seq window, counters and publish state. An error names what is wrong;
+// `ch` is then to be dropped.
+est::Status RestoreChannel(const bayline::v1::ChannelSnapshot& c, const ResolvedSpec& spec,
+                           Channel& ch) {
+  const std::span<DetectorSlot> detectors = ch.detectors();
+  const std::size_t expected = ch.estimator_count() + detectors.size();
+  if (static_cast<std::size_t>(c.components_size()) != expected) {
+    return est::Status::Error(est::ErrorCode::kInvalidState,
+                              "has " + std::to_string(c.components_size()) +
+                                  " components, spec has " + std::to_string(expected));
+  }
+  for (int k = 0; k < c.components_size(); ++k) {
+    const auto& comp = c.components(k);
+    const auto i = static_cast<std::size_t>(k);
+    const std::span<const double> values(comp.values().data(), comp.values().size());
+    std::string_view want;
+    est::Status s;
+    if (i < ch.estimator_count()) {
+      want = EstimatorKindName(spec.estimators[i]);
+      if (comp.kind() == want) s = ch.estimator(i).Unpack(values);
+    } else {
+      const std::size_t d = i - ch.estimator_count();
+      want = DetectorKindName(spec.detectors[d].kind);
+      if (comp.kind() == want) s = detectors[d].Unpack(values);
+    }
+    if (comp.kind() != want) {
+      return est::Status::Error(est::ErrorCode::kInvalidState,
+                                "component " + std::to_string(k) + " is \"" + comp.kind() +
+                                    "\", expected \"" + std::string(want) + "\"");
+    }
+    if (!s.ok()) {
+      return est::Status::Error(
+          est::ErrorCode::kInvalidState,
+          "component " + std::to_string(k) + " (" + comp.kind() + "): " + s.message());
+    }
+  }
+  const uint64_t seen_window = c.seq().seen_window();
+  if (seen_window != 0 && (seen_window & 1u) == 0) {
+    return est::Status::Error(est::ErrorCode::kInvalidState, "seq window is inconsistent");
+  }
+  ch.seq.last = c.seq().last_seq();
+  ch.seq.seen = seen_window;
+  ch.accepted = c.counters().accepted();
+  ch.last_time_ns = c.counters().last_time_ns();
+  ch.publish.since_publish = c.publish().since_publish();
+  ch.publish.last_publish_ns = c.publish().last_publish_time_ns();
+  ch.publish.published = c.publish().published();
+  return est::Status::Ok();
+}
+
 }  // namespace
 
 void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
@@ -24,7 +76,8 @@ void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
   std::vector<const Channel*> sorted;
   sorted.reserve(channels_.size());
   channels_.ForEach([&](const Channel& ch) { sorted.push_back(&ch); });
-  std::sort(sorted.begin(), sorted.end(), [](const Channel* a, const Channel* b) { return a->name() < b->name(); });
+  std::sort(sorted.begin(), sorted.end(),
+            [](const Channel* a, const Channel* b) { return a->name() < b->name(); });
   std::vector<double> values;
   for (const Channel* entry : sorted) {
     const Channel& ch = *entry;
@@ -61,7 +114,8 @@ void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
 }
 
 est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
-                                           std::vector<std::string>* reset) {
+                                           std::vector<std::string>* reset,
+                                           std::vector<std::string>* not_restored) {
   if (in.channels_size() > 0 && in.format_version() != kFormatVersion) {
     return est::Status::Error(est::ErrorCode::kInvalidState,
                               "snapshot format_version " + std::to_string(in.format_version()) +
@@ -69,16 +123,25 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
   }
   std::vector<ChannelPtr> restored;
   std::vector<std::string> reset_names;
+  std::vector<std::string> set_aside;
   std::set<std::string_view> seen;
   for (const auto& c : in.channels()) {
     const std::string& name = c.name();
     if (CheckChannelName(name, limits_.max_channel_name_bytes) != ChannelNameProblem::kOk) {
-      return est::Status::Error(est::ErrorCode::kInvalidState, "snapshot holds an invalid channel name");
+      set_aside.push_back("a channel with an invalid name (" + std::to_string(name.size()) +
+                          " bytes)");
+      continue;
     }
-    if (!seen.insert(name).second) return Invalid(name, "appears twice");
+    if (!seen.insert(name).second) {
+      set_aside.push_back(Invalid(name, "appears twice (the first is restored)").message());
+      continue;
+    }
     if (!Owns(ChannelHash(name))) continue;
     Model model;
-    if (!ParseModel(c.model(), &model)) return Invalid(name, "unknown model \"" + c.model() + "\"");
+    if (!ParseModel(c.model(), &model)) {
+      set_aside.push_back(Invalid(name, "unknown model \"" + c.model() + "\"").message());
+      continue;
+    }
     const int rule = rules_.Match(name);
     std::shared_ptr<const ResolvedSpec> spec;
     if (rule < 0 || !rules_.Resolve(rule, model, c.regressor_count(), &spec).ok() ||
@@ -87,42 +150,11 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
       continue;
     }
     ChannelPtr fresh = Channel::Create(spec, name);
-    Channel& ch = *fresh;
-    const std::span<DetectorSlot> detectors = ch.detectors();
-    const std::size_t expected = ch.estimator_count() + detectors.size();
-    if (static_cast<std::size_t>(c.components_size()) != expected) {
-      return Invalid(name, "has " + std::to_string(c.components_size()) + " components, spec has " +
-                               std::to_string(expected));
+    const est::Status s = RestoreChannel(c, *spec, *fresh);
+    if (!s.ok()) {
+      set_aside.push_back(Invalid(name, s.message()).message());
+      continue;
     }
-    for (int k = 0; k < c.components_size(); ++k) {
-      const auto& comp = c.components(k);
-      const auto i = static_cast<std::size_t>(k);
-      const std::span<const double> values(comp.values().data(), comp.values().size());
-      std::string_view want;
-      est::Status s;
-      if (i < ch.estimator_count()) {
-        want = EstimatorKindName(spec->estimators[i]);
-        if (comp.kind() == want) s = ch.estimator(i).Unpack(values);
-      } else {
-        const std::size_t d = i - ch.estimator_count();
-        want = DetectorKindName(spec->detectors[d].kind);
-        if (comp.kind() == want) s = detectors[d].Unpack(values);
-      }
-      if (comp.kind() != want) {
-        return Invalid(name, "component " + std::to_string(k) + " is \"" + comp.kind() +
-                                 "\", expected \"" + std::string(want) + "\"");
-      }
-      if (!s.ok()) return Invalid(name, "component " + std::to_string(k) + " (" + comp.kind() + "): " + s.message());
-    }
-    const uint64_t seen_window = c.seq().seen_window();
-    if (seen_window != 0 && (seen_window & 1u) == 0) return Invalid(name, "seq window is inconsistent");
-    ch.seq.last = c.seq().last_seq();
-    ch.seq.seen = seen_window;
-    ch.accepted = c.counters().accepted();
-    ch.last_time_ns = c.counters().last_time_ns();
-    ch.publish.since_publish = c.publish().since_publish();
-    ch.publish.last_publish_ns = c.publish().last_publish_time_ns();
-    ch.publish.published = c.publish().published();
     restored.push_back(std::move(fresh));
   }
   std::size_t total = channels_.size();
@@ -134,7 +166,10 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
   }
   for (ChannelPtr& ch : restored) channels_.InsertOrReplace(std::move(ch));
   counters_.channels = channels_.size();
+  counters_.channels_not_restored += set_aside.size();
   if (reset != nullptr) reset->insert(reset->end(), reset_names.begin(), reset_names.end());
+  if (not_restored != nullptr)
+    not_restored->insert(not_restored->end(), set_aside.begin(), set_aside.end());
   return est::Status::Ok();
 }
 

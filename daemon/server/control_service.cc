@@ -123,6 +123,7 @@ bayline::v1::Reply ControlService::Stats() {
     stats->set_seq_gaps(stats->seq_gaps() + c.seq_gaps);
     stats->set_seq_duplicates(stats->seq_duplicates() + c.seq_duplicates);
     stats->set_seq_reordered(stats->seq_reordered() + c.seq_reordered);
+    stats->set_channels_not_restored(stats->channels_not_restored() + c.channels_not_restored);
     auto& by_reason = *stats->mutable_rejected_by_reason();
     for (const auto& [reason, count] : c.rejected_by_reason) by_reason[reason] += count;
   }

@@ -78,6 +78,9 @@ bool Daemon::Start() {
     spdlog::warn("channel \"{}\" restarts from its rule: its spec changed since the snapshot",
                  name);
   }
+  for (const auto& why : restored.not_restored) {
+    spdlog::error("snapshot channel not restored, it restarts from its rule: {}", why);
+  }
   if (restored.path.empty()) {
     spdlog::info("no usable snapshot in {}: starting empty", store_->dir().string());
   } else {

@@ -91,10 +91,12 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
       parts[WorkerOf(h, shard, workers)].add_channels()->Swap(&channel);
     }
     std::vector<std::string> reset;
+    std::vector<std::string> not_restored;
     bool ok = true;
     uint64_t restored = 0;
     for (size_t w = 0; w < workers && ok; ++w) {
-      const bayline::est::Status status = (*pipelines)[w]->RestoreChannels(parts[w], &reset);
+      const bayline::est::Status status =
+          (*pipelines)[w]->RestoreChannels(parts[w], &reset, &not_restored);
       if (!status.ok()) {
         outcome.skipped.push_back(path.string() + ": " + status.ToString());
         ok = false;
@@ -106,10 +108,11 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
       continue;
     }
     outcome.path = path.string();
-    outcome.channels = restored - reset.size();
+    outcome.channels = restored - reset.size() - not_restored.size();
     outcome.other_shard = other_shard;
     outcome.reset_channels = std::move(reset);
     outcome.journal_segment = snapshot.journal_segment();
+    outcome.not_restored = std::move(not_restored);
     return outcome;
   }
   return outcome;

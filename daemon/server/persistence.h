@@ -37,12 +37,17 @@ struct RestoreOutcome {
   std::vector<std::string> skipped;         // newer files not used, each with the reason
   std::vector<std::string> reset_channels;  // restored as new because their spec changed
   uint64_t journal_segment = 0;  // first journal segment the restored file does not cover
+  std::vector<std::string> not_restored;    // channels set aside, each "channel \"name\": reason"
 };
 
 // Before the workers start: tries the snapshot files newest first and restores the first that
-// decodes and that every pipeline accepts; each channel goes to the pipeline of the worker that
-// owns it (routing.h). A file that fails at any step leaves every pipeline empty (they are rebuilt
-// from `config`) and the next older file is tried.
+// decodes and that every pipeline accepts as a whole; each channel goes to the pipeline of the
+// worker that owns it (routing.h). A file that cannot be used (unreadable, bad header or
+// checksum, a payload that does not parse, or one Pipeline::RestoreChannels refuses as a whole)
+// leaves every pipeline empty (they are rebuilt from `config`) and the next older file is tried.
+// A channel of a usable file whose own record cannot be restored does not make the file unusable:
+// it alone is set aside (listed in not_restored, counted by the pipelines' channels_not_restored)
+// and every other channel is restored.
 RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
                                  const bayline::v1::DaemonConfig& config, const Shard& shard,
                                  std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines);

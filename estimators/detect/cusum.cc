@@ -15,12 +15,13 @@ bool ValidSide(double c, double count) {
 
 }  // namespace
 
-
 Status CusumOptions::Validate() const {
   if (!(std::isfinite(k) && k >= 0.0))
-    return Status::Error(ErrorCode::kInvalidConfig, "cusum k must be finite and >= 0, got " + std::to_string(k));
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "cusum k must be finite and >= 0, got " + std::to_string(k));
   if (!(std::isfinite(h) && h > 0.0))
-    return Status::Error(ErrorCode::kInvalidConfig, "cusum h must be finite and > 0, got " + std::to_string(h));
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "cusum h must be finite and > 0, got " + std::to_string(h));
   if (!(head_start >= 0.0 && head_start < h))
     return Status::Error(ErrorCode::kInvalidConfig,
                          "cusum head_start must be in [0, h), got " + std::to_string(head_start));
@@ -70,13 +71,24 @@ void Cusum::Restart() {
 
 double Cusum::Statistic() const {
   switch (options_.direction) {
-    case Direction::kUp: return state_.upper;
-    case Direction::kDown: return state_.lower;
-    default: return std::max(state_.upper, state_.lower);
+    case Direction::kUp:
+      return state_.upper;
+    case Direction::kDown:
+      return state_.lower;
+    default:
+      return std::max(state_.upper, state_.lower);
   }
 }
 
 DetectorEvent Cusum::Update(double z, const ObservationMark& mark) {
+  const State before = state_;
+  const DetectorEvent ev = Step(z, mark);
+  if (Validate(state_).ok()) return ev;
+  state_ = before;
+  return Step(kNaN, mark);  // ignored, as a non-finite z
+}
+
+DetectorEvent Cusum::Step(double z, const ObservationMark& mark) {
   DetectorEvent ev;
   ev.threshold = options_.h;
   ev.direction = options_.direction;
@@ -111,9 +123,14 @@ DetectorEvent Cusum::Update(double z, const ObservationMark& mark) {
   return ev;
 }
 
-Status Cusum::Restore(const State& s) {
+Status Cusum::Validate(const State& s) {
   if (!ValidSide(s.upper, s.upper_count) || !ValidSide(s.lower, s.lower_count) || !s.cycle.Valid())
     return Status::Error(ErrorCode::kInvalidState, "cusum state holds invalid values");
+  return Status::Ok();
+}
+
+Status Cusum::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

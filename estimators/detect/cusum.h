@@ -29,12 +29,12 @@
 namespace bayline::est {
 
 struct CusumOptions {
-  double k = 0.5;                     // reference value, sd units, finite and >= 0
-  double h = 5.0;                     // decision interval, finite and > 0
-  double head_start = 0.0;            // s in [0, h); h / 2 is the usual FIR choice
-  bool restart_at_head_start = true;  // restart at s after an alarm (false: restart at 0)
+  double k = 0.5;                          // reference value, sd units, finite and >= 0
+  double h = 5.0;                          // decision interval, finite and > 0
+  double head_start = 0.0;                 // s in [0, h); h / 2 is the usual FIR choice
+  bool restart_at_head_start = true;       // restart at s after an alarm (false: restart at 0)
   Direction direction = Direction::kBoth;  // kUp, kDown or kBoth
-  std::int64_t holdoff = 0;           // observations ignored after an alarm, >= 0
+  std::int64_t holdoff = 0;                // observations ignored after an alarm, >= 0
 
   // Ok, or kInvalidConfig naming the field and value.
   Status Validate() const;
@@ -59,7 +59,8 @@ class Cusum {
   // Precondition: options.Validate().ok() (asserted). Starts at C+ = C- = head_start.
   explicit Cusum(const CusumOptions& options);
 
-  // Absorbs one standardized value. A non-finite z is ignored: nothing changes and the event
+  // Absorbs one standardized value. A non-finite z, or one whose new state would fail Validate
+  // (an overflowing sum: the check Restore applies), is ignored: nothing changes and the event
   // carries the current statistic with raised = cleared = false. Never fails.
   DetectorEvent Update(double z, const ObservationMark& mark);
 
@@ -71,8 +72,12 @@ class Cusum {
   // Validates `s` (finite, non-negative sides, integer counts, valid cycle) and replaces the state;
   // on error nothing changes.
   Status Restore(const State& s);
+  // The state invariants, shared by Restore and Update. Ok or kInvalidState.
+  static Status Validate(const State& s);
 
  private:
+  // Update without the invariant check (the chart's recursion).
+  DetectorEvent Step(double z, const ObservationMark& mark);
   void Restart();
   double Statistic() const;
 

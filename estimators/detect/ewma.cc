@@ -8,9 +8,11 @@ namespace bayline::est {
 
 Status EwmaOptions::Validate() const {
   if (!(lambda > 0.0 && lambda <= 1.0))
-    return Status::Error(ErrorCode::kInvalidConfig, "ewma lambda must be in (0, 1], got " + std::to_string(lambda));
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "ewma lambda must be in (0, 1], got " + std::to_string(lambda));
   if (!(std::isfinite(L) && L > 0.0))
-    return Status::Error(ErrorCode::kInvalidConfig, "ewma L must be finite and > 0, got " + std::to_string(L));
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "ewma L must be finite and > 0, got " + std::to_string(L));
   if (limits != EwmaLimits::kExact && limits != EwmaLimits::kAsymptotic)
     return Status::Error(ErrorCode::kInvalidConfig, "ewma limits must be exact or asymptotic");
   if (Status s = ValidateChartDirection(direction); !s.ok()) return s;
@@ -43,7 +45,8 @@ Status Ewma::State::Unpack(StateReader& r) {
       r.Get(run_count) && cycle.Unpack(r);
   onset_seq = static_cast<std::int64_t>(seq);
   if (Status s = r.status(false); !s.ok()) return s;
-  if (!ValidEwmaState(*this)) return Status::Error(ErrorCode::kInvalidState, "ewma state holds invalid values");
+  if (!ValidEwmaState(*this))
+    return Status::Error(ErrorCode::kInvalidState, "ewma state holds invalid values");
   return Status::Ok();
 }
 
@@ -63,6 +66,14 @@ double Ewma::LimitSd(double count, double decay) const {
 }
 
 DetectorEvent Ewma::Update(double z, const ObservationMark& mark) {
+  const State before = state_;
+  const DetectorEvent ev = Step(z, mark);
+  if (Validate(state_).ok()) return ev;
+  state_ = before;
+  return Step(kNaN, mark);  // ignored, as a non-finite z
+}
+
+DetectorEvent Ewma::Step(double z, const ObservationMark& mark) {
   DetectorEvent ev;
   ev.direction = options_.direction;
   State& st = state_;
@@ -113,8 +124,14 @@ DetectorEvent Ewma::Update(double z, const ObservationMark& mark) {
   return ev;
 }
 
+Status Ewma::Validate(const State& s) {
+  if (!ValidEwmaState(s))
+    return Status::Error(ErrorCode::kInvalidState, "ewma state holds invalid values");
+  return Status::Ok();
+}
+
 Status Ewma::Restore(const State& s) {
-  if (!ValidEwmaState(s)) return Status::Error(ErrorCode::kInvalidState, "ewma state holds invalid values");
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

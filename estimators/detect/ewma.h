@@ -42,9 +42,9 @@ struct EwmaOptions {
 class Ewma {
  public:
   struct State {
-    double z = 0;      // Z_i
-    double count = 0;  // i, observations since the (re)start
-    double decay = 1;  // (1 - lambda)^i, kept as a running product
+    double z = 0;                 // Z_i
+    double count = 0;             // i, observations since the (re)start
+    double decay = 1;             // (1 - lambda)^i, kept as a running product
     std::int64_t onset_seq = -1;  // observation after Z last crossed zero
     double onset_time = kNaN;
     double run_sum = 0, run_count = 0;  // sum and number of z since the onset
@@ -60,7 +60,9 @@ class Ewma {
   // Precondition: options.Validate().ok() (asserted).
   explicit Ewma(const EwmaOptions& options);
 
-  // Absorbs one standardized value. A non-finite z is ignored (nothing changes, no raise/clear).
+  // Absorbs one standardized value. A non-finite z, or one whose new state would fail Validate
+  // (an overflowing sum: the check Restore applies), is ignored: nothing changes and the event
+  // carries the current statistic with raised = cleared = false. Never fails.
   DetectorEvent Update(double z, const ObservationMark& mark);
 
   void Reset();
@@ -68,11 +70,16 @@ class Ewma {
   const State& state() const { return state_; }
   // Validates (finite, count an integer >= 0, decay in [0, 1]) and replaces; on error no change.
   Status Restore(const State& s);
+  // The state invariants, shared by Restore and Update. Ok or kInvalidState.
+  static Status Validate(const State& s);
 
   // sigma_i for this chart's limits after `count` observations (count >= 1).
   double LimitSd(double count, double decay) const;
 
  private:
+  // Update without the invariant check (the chart's recursion).
+  DetectorEvent Step(double z, const ObservationMark& mark);
+
   EwmaOptions options_;
   double asymptotic_var_;  // lambda / (2 - lambda)
   double decay_step_;      // 1 - lambda

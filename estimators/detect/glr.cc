@@ -9,7 +9,8 @@ namespace bayline::est {
 
 Status GlrOptions::Validate() const {
   if (!(window >= 1 && window <= 100000))
-    return Status::Error(ErrorCode::kInvalidConfig, "glr window must be in [1, 100000], got " + std::to_string(window));
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "glr window must be in [1, 100000], got " + std::to_string(window));
   if (!(std::isfinite(threshold) && threshold > 0.0))
     return Status::Error(ErrorCode::kInvalidConfig,
                          "glr threshold must be finite and > 0, got " + std::to_string(threshold));
@@ -114,9 +115,14 @@ double Glr::Scan(std::int64_t* best_j) const {
   const std::int64_t cap = options_.window + 1;
   if (best_j == nullptr) {
     switch (options_.direction) {
-      case Direction::kUp: return MaxOverWindow<Direction::kUp>(prefix_.data(), inv_two_j_.data(), head_, count_, cap);
-      case Direction::kDown: return MaxOverWindow<Direction::kDown>(prefix_.data(), inv_two_j_.data(), head_, count_, cap);
-      default: return MaxOverWindow<Direction::kBoth>(prefix_.data(), inv_two_j_.data(), head_, count_, cap);
+      case Direction::kUp:
+        return MaxOverWindow<Direction::kUp>(prefix_.data(), inv_two_j_.data(), head_, count_, cap);
+      case Direction::kDown:
+        return MaxOverWindow<Direction::kDown>(prefix_.data(), inv_two_j_.data(), head_, count_,
+                                               cap);
+      default:
+        return MaxOverWindow<Direction::kBoth>(prefix_.data(), inv_two_j_.data(), head_, count_,
+                                               cap);
     }
   }
   // Slow path, only at an alarm: the maximising j (the smallest on ties).
@@ -148,12 +154,26 @@ DetectorEvent Glr::Update(double z, const ObservationMark& mark) {
   }
   const std::int64_t cap = options_.window + 1;
   const double next = prefix_[head_] + z;
-  head_ = head_ == 0 ? cap - 1 : head_ - 1;  // newer prefix sums at lower ring indices
+  const std::int64_t new_head = head_ == 0 ? cap - 1 : head_ - 1;
+  const bool rebase = since_rebase_ + 1 >= options_.window;
+  // The state invariant at risk is the finiteness of the prefix sums (what Restore checks): a z
+  // that would break it is ignored, as a non-finite z, before anything changes.
+  bool finite = std::isfinite(next);
+  if (finite && rebase) {
+    for (std::int64_t i = 0; i < cap; ++i)
+      finite = finite && (i == new_head || std::isfinite(prefix_[i] - next));
+  }
+  if (!finite) {
+    ev.statistic = Scan(nullptr);
+    return ev;
+  }
+  head_ = new_head;  // newer prefix sums at lower ring indices
   prefix_[head_] = next;
   seq_[head_] = static_cast<double>(mark.seq);
   time_[head_] = mark.time;
   count_ = std::min(count_ + 1, options_.window);
-  if (++since_rebase_ >= options_.window) {
+  ++since_rebase_;
+  if (rebase) {
     for (double& v : prefix_) v -= next;
     since_rebase_ = 0;
   }
@@ -200,10 +220,12 @@ Status Glr::Restore(const State& s) {
   bool finite = lengths;
   if (finite)
     for (double v : s.prefix) finite = finite && std::isfinite(v);
-  if (!finite || !(s.since_rebase >= 0 && s.since_rebase < static_cast<double>(options_.window) &&
-                   s.since_rebase == std::floor(s.since_rebase)) ||
+  if (!finite ||
+      !(s.since_rebase >= 0 && s.since_rebase < static_cast<double>(options_.window) &&
+        s.since_rebase == std::floor(s.since_rebase)) ||
       !s.cycle.Valid())
-    return Status::Error(ErrorCode::kInvalidState, "glr state does not fit this window or holds invalid values");
+    return Status::Error(ErrorCode::kInvalidState,
+                         "glr state does not fit this window or holds invalid values");
   // Lay the window out with head_ = 0: P_{n-j} at index j.
   for (std::size_t i = 0; i <= n; ++i) prefix_[n - i] = s.prefix[i];
   for (std::size_t i = 0; i < n; ++i) {

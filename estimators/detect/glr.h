@@ -31,8 +31,8 @@
 namespace bayline::est {
 
 struct GlrOptions {
-  std::int64_t window = 50;  // W, change points considered, in [1, 100000]
-  double threshold = 8.0;    // on the log-likelihood ratio, finite and > 0
+  std::int64_t window = 50;                // W, change points considered, in [1, 100000]
+  double threshold = 8.0;                  // on the log-likelihood ratio, finite and > 0
   Direction direction = Direction::kBoth;  // kUp, kDown or kBoth
   std::int64_t holdoff = 0;                // observations ignored after an alarm, >= 0
 
@@ -44,10 +44,10 @@ class Glr {
  public:
   // The window's content in time order (oldest first), as plain values. With n = seq.size():
   struct State {
-    std::vector<double> prefix;     // n + 1 prefix sums P_{t-n} .. P_t (differences are the S_j)
-    std::vector<double> seq;        // sequence numbers of the last n <= W observations
-    std::vector<double> time;       // their times
-    double since_rebase = 0;        // observations since the prefix sums were re-based
+    std::vector<double> prefix;  // n + 1 prefix sums P_{t-n} .. P_t (differences are the S_j)
+    std::vector<double> seq;     // sequence numbers of the last n <= W observations
+    std::vector<double> time;    // their times
+    double since_rebase = 0;     // observations since the prefix sums were re-based
     AlarmCycle cycle;
 
     void Pack(StateWriter& w) const;  // n first, then the vectors
@@ -60,15 +60,16 @@ class Glr {
   // Precondition: options.Validate().ok() (asserted). Allocates the window once.
   explicit Glr(const GlrOptions& options);
 
-  // Absorbs one standardized value. A non-finite z is ignored (nothing changes, no raise/clear).
+  // Absorbs one standardized value. A non-finite z, or one that would make a prefix sum overflow
+  // (a state Restore refuses), is ignored (nothing changes, no raise/clear).
   DetectorEvent Update(double z, const ObservationMark& mark);
 
   void Reset();
   const GlrOptions& options() const { return options_; }
   // Builds the time-ordered view of the window (allocates; not for the per-observation path).
   State state() const;
-  // Validates (n <= W, consistent lengths, finite values, valid cycle) and replaces; on error nothing
-  // changes. Continuing after Restore(state()) is bit-identical to never having stopped.
+  // Validates (n <= W, consistent lengths, finite values, valid cycle) and replaces; on error
+  // nothing changes. Continuing after Restore(state()) is bit-identical to never having stopped.
   Status Restore(const State& s);
 
  private:

@@ -20,11 +20,13 @@ bool ValidPhState(const PageHinkley::State& s) {
 
 Status PageHinkleyOptions::Validate() const {
   if (!(std::isfinite(delta) && delta >= 0.0))
-    return Status::Error(ErrorCode::kInvalidConfig,
-                         "page_hinkley delta must be finite and >= 0, got " + std::to_string(delta));
+    return Status::Error(
+        ErrorCode::kInvalidConfig,
+        "page_hinkley delta must be finite and >= 0, got " + std::to_string(delta));
   if (!(std::isfinite(threshold) && threshold > 0.0))
-    return Status::Error(ErrorCode::kInvalidConfig,
-                         "page_hinkley threshold must be finite and > 0, got " + std::to_string(threshold));
+    return Status::Error(
+        ErrorCode::kInvalidConfig,
+        "page_hinkley threshold must be finite and > 0, got " + std::to_string(threshold));
   if (Status s = ValidateChartDirection(direction); !s.ok()) return s;
   return ValidateHoldoff(holdoff);
 }
@@ -69,15 +71,26 @@ void PageHinkley::Restart() {
 }
 
 DetectorEvent PageHinkley::Update(double z, const ObservationMark& mark) {
+  const State before = state_;
+  const DetectorEvent ev = Step(z, mark);
+  if (Validate(state_).ok()) return ev;
+  state_ = before;
+  return Step(kNaN, mark);  // ignored, as a non-finite z
+}
+
+DetectorEvent PageHinkley::Step(double z, const ObservationMark& mark) {
   DetectorEvent ev;
   ev.threshold = options_.threshold;
   ev.direction = options_.direction;
   State& st = state_;
   auto statistic = [&] {
     switch (options_.direction) {
-      case Direction::kUp: return st.upper;
-      case Direction::kDown: return st.lower;
-      default: return std::max(st.upper, st.lower);
+      case Direction::kUp:
+        return st.upper;
+      case Direction::kDown:
+        return st.lower;
+      default:
+        return std::max(st.upper, st.lower);
     }
   };
   if (!std::isfinite(z) || st.cycle.holdoff_left > 0.0) {
@@ -88,11 +101,14 @@ DetectorEvent PageHinkley::Update(double z, const ObservationMark& mark) {
   st.count += 1.0;
   st.mean += (z - st.mean) / st.count;
   const double d = z - st.mean;
-  StepExcursion(d - options_.delta, mark, st.upper, st.upper_count, st.upper_onset_seq, st.upper_onset_time);
-  StepExcursion(-d - options_.delta, mark, st.lower, st.lower_count, st.lower_onset_seq, st.lower_onset_time);
+  StepExcursion(d - options_.delta, mark, st.upper, st.upper_count, st.upper_onset_seq,
+                st.upper_onset_time);
+  StepExcursion(-d - options_.delta, mark, st.lower, st.lower_count, st.lower_onset_seq,
+                st.lower_onset_time);
   ev.statistic = statistic();
   const bool up = WatchesSide(options_.direction, Direction::kUp) && st.upper > options_.threshold;
-  const bool down = WatchesSide(options_.direction, Direction::kDown) && st.lower > options_.threshold;
+  const bool down =
+      WatchesSide(options_.direction, Direction::kDown) && st.lower > options_.threshold;
   if (up || down) {
     const bool use_up = up && (!down || st.upper >= st.lower);
     ev.direction = use_up ? Direction::kUp : Direction::kDown;
@@ -111,8 +127,14 @@ DetectorEvent PageHinkley::Update(double z, const ObservationMark& mark) {
   return ev;
 }
 
+Status PageHinkley::Validate(const State& s) {
+  if (!ValidPhState(s))
+    return Status::Error(ErrorCode::kInvalidState, "page_hinkley state holds invalid values");
+  return Status::Ok();
+}
+
 Status PageHinkley::Restore(const State& s) {
-  if (!ValidPhState(s)) return Status::Error(ErrorCode::kInvalidState, "page_hinkley state holds invalid values");
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

@@ -28,8 +28,8 @@
 namespace bayline::est {
 
 struct PageHinkleyOptions {
-  double delta = 0.5;       // tolerance per observation, finite and >= 0
-  double threshold = 10.0;  // decision threshold, finite and > 0
+  double delta = 0.5;                      // tolerance per observation, finite and >= 0
+  double threshold = 10.0;                 // decision threshold, finite and > 0
   Direction direction = Direction::kBoth;  // kUp, kDown or kBoth
   std::int64_t holdoff = 0;                // observations ignored after an alarm, >= 0
 
@@ -40,8 +40,8 @@ struct PageHinkleyOptions {
 class PageHinkley {
  public:
   struct State {
-    double count = 0;  // n, observations since the restart
-    double mean = 0;   // zbar_n
+    double count = 0;                         // n, observations since the restart
+    double mean = 0;                          // zbar_n
     double upper = 0, lower = 0;              // PH+ and PH-
     double upper_count = 0, lower_count = 0;  // excursion lengths
     std::int64_t upper_onset_seq = -1, lower_onset_seq = -1;
@@ -58,7 +58,9 @@ class PageHinkley {
   // Precondition: options.Validate().ok() (asserted).
   explicit PageHinkley(const PageHinkleyOptions& options);
 
-  // Absorbs one standardized value. A non-finite z is ignored (nothing changes, no raise/clear).
+  // Absorbs one standardized value. A non-finite z, or one whose new state would fail Validate
+  // (an overflowing sum: the check Restore applies), is ignored: nothing changes and the event
+  // carries the current statistic with raised = cleared = false. Never fails.
   DetectorEvent Update(double z, const ObservationMark& mark);
 
   void Reset();
@@ -66,8 +68,12 @@ class PageHinkley {
   const State& state() const { return state_; }
   // Validates and replaces; on error nothing changes.
   Status Restore(const State& s);
+  // The state invariants, shared by Restore and Update. Ok or kInvalidState.
+  static Status Validate(const State& s);
 
  private:
+  // Update without the invariant check (the chart's recursion).
+  DetectorEvent Step(double z, const ObservationMark& mark);
   void Restart();
   PageHinkleyOptions options_;
   State state_;

@@ -127,6 +127,21 @@ RecursiveCusum::RecursiveCusum(const Options& options)
 }
 
 Status RecursiveCusum::Update(double w, const ObservationMark& mark, DetectorEvent* event) {
+  const State before = state_;
+  DetectorEvent ev;
+  Status st = Step(w, mark, &ev);
+  if (st.ok()) {
+    if (Status v = Validate(state_); !v.ok()) {
+      state_ = before;
+      return Status::Error(ErrorCode::kNumericalFailure,
+                           "update would leave an invalid state: " + v.message());
+    }
+    if (event) *event = ev;
+  }
+  return st;
+}
+
+Status RecursiveCusum::Step(double w, const ObservationMark& mark, DetectorEvent* event) {
   if (!std::isfinite(w)) {
     return Status::Error(ErrorCode::kNonFinite, "recursive residual is " + std::to_string(w));
   }
@@ -194,7 +209,7 @@ Status RecursiveCusum::Update(double w, const ObservationMark& mark, DetectorEve
   return Status::Ok();
 }
 
-Status RecursiveCusum::Restore(const State& s) {
+Status RecursiveCusum::Validate(const State& s) const {
   if (!IsCount(s.j) || s.j >= options_.horizon) return BadState("recursive_cusum j out of range");
   if (!IsCount(s.min_j) || !IsCount(s.max_j) || s.min_j > s.j || s.max_j > s.j)
     return BadState("recursive_cusum extremum index out of range");
@@ -204,6 +219,11 @@ Status RecursiveCusum::Restore(const State& s) {
     return BadState("recursive_cusum sums inconsistent");
   if (!IsCount(s.holdoff_left) || s.holdoff_left > options_.holdoff)
     return BadState("recursive_cusum holdoff_left out of range");
+  return Status::Ok();
+}
+
+Status RecursiveCusum::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }
@@ -292,6 +312,13 @@ Status RecursiveCusumSquares::Update(double w, const ObservationMark& mark, Dete
     return Status::Ok();
   }
   const double prev = s.cum_sq.empty() ? 0.0 : s.cum_sq.back();
+  // The invariant at risk (Validate: sums finite and non-decreasing) is checked on the new sum
+  // before anything changes.
+  if (!std::isfinite(prev + w * w)) {
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "update would leave an invalid state: "
+                         "recursive_cusum_sq sums must be finite");
+  }
   s.cum_sq.push_back(prev + w * w);  // within the reserved capacity
   s.seq.push_back(static_cast<double>(mark.seq));
   s.time.push_back(mark.time);

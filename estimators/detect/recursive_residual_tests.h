@@ -94,13 +94,20 @@ class RecursiveCusum {
   };
 
   explicit RecursiveCusum(const Options& options);  // precondition: Validate().ok() (asserted)
-  // w: one recursive residual (finite; kNonFinite otherwise, nothing changes).
+  // w: one recursive residual (finite; kNonFinite otherwise, nothing changes). kNumericalFailure,
+  // nothing changed, when the new state would fail Validate (e.g. an overflowing sum of squares).
   Status Update(double w, const ObservationMark& mark, DetectorEvent* event);
   const Options& options() const { return options_; }
   const State& state() const { return state_; }
-  Status Restore(const State& s);  // validates (0 <= j < horizon, finite sums...), then replaces
+  // The state invariants, shared by Restore and Update: 0 <= j < horizon, extremum indices <= j,
+  // finite and consistent sums, holdoff_left in [0, holdoff]. Ok or kInvalidState.
+  Status Validate(const State& s) const;
+  Status Restore(const State& s);  // Validate, then replaces
 
  private:
+  // Update without the invariant check.
+  Status Step(double w, const ObservationMark& mark, DetectorEvent* event);
+
   Options options_;
   double a_;
   State state_;
@@ -131,6 +138,8 @@ class RecursiveCusumSquares {
   RecursiveCusumSquares& operator=(const RecursiveCusumSquares& other);
   RecursiveCusumSquares(RecursiveCusumSquares&&) noexcept = default;
   RecursiveCusumSquares& operator=(RecursiveCusumSquares&&) noexcept = default;
+  // As RecursiveCusum::Update; kNumericalFailure, nothing changed, when a cumulative sum of
+  // squares would overflow (a state Restore refuses).
   Status Update(double w, const ObservationMark& mark, DetectorEvent* event);
   double critical_value() const { return c0_; }
   const Options& options() const { return options_; }

@@ -47,15 +47,24 @@ Status SelfStartingStandardizer::Update(double y, double* z) {
   next.mean += d / next.count;
   next.m2 += d * (y - next.mean);
   if (!std::isfinite(next.mean) || !std::isfinite(next.m2))
-    return Status::Error(ErrorCode::kNumericalFailure, "self-starting moments overflow at y = " + std::to_string(y));
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "self-starting moments overflow at y = " + std::to_string(y));
+  if (Status v = Validate(next); !v.ok())
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "update would leave an invalid state: " + v.message());
   state_ = next;
   if (z != nullptr) *z = out;
   return Status::Ok();
 }
 
-Status SelfStartingStandardizer::Restore(const State& s) {
+Status SelfStartingStandardizer::Validate(const State& s) {
   if (!IsCount(s.count) || !std::isfinite(s.mean) || !(s.m2 >= 0.0) || !std::isfinite(s.m2))
     return Status::Error(ErrorCode::kInvalidState, "self-starting state holds invalid values");
+  return Status::Ok();
+}
+
+Status SelfStartingStandardizer::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }
@@ -74,8 +83,7 @@ Status RecursiveResidualStandardizer::State::Unpack(StateReader& r) {
 }
 
 Status RecursiveResidualStandardizer::Update(double w, double* z) {
-  if (std::isinf(w))
-    return Status::Error(ErrorCode::kNonFinite, "recursive residual is infinite");
+  if (std::isinf(w)) return Status::Error(ErrorCode::kNonFinite, "recursive residual is infinite");
   double out = kNaN;
   if (std::isnan(w)) {
     if (z != nullptr) *z = out;
@@ -83,18 +91,28 @@ Status RecursiveResidualStandardizer::Update(double w, double* z) {
   }
   if (state_.count >= 1.0 && state_.sum_sq > 0.0)
     out = StandardizeRecursiveResidual(w, std::sqrt(state_.sum_sq / state_.count), state_.count);
-  const double sum_sq = state_.sum_sq + w * w;
-  if (!std::isfinite(sum_sq))
-    return Status::Error(ErrorCode::kNumericalFailure, "recursive residual sum of squares overflows");
-  state_.sum_sq = sum_sq;
-  state_.count += 1.0;
+  State next = state_;
+  next.sum_sq = state_.sum_sq + w * w;
+  next.count += 1.0;
+  if (!std::isfinite(next.sum_sq))
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "recursive residual sum of squares overflows");
+  if (Status v = Validate(next); !v.ok())
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "update would leave an invalid state: " + v.message());
+  state_ = next;
   if (z != nullptr) *z = out;
   return Status::Ok();
 }
 
-Status RecursiveResidualStandardizer::Restore(const State& s) {
+Status RecursiveResidualStandardizer::Validate(const State& s) {
   if (!IsCount(s.count) || !(s.sum_sq >= 0.0) || !std::isfinite(s.sum_sq))
     return Status::Error(ErrorCode::kInvalidState, "recursive-residual state holds invalid values");
+  return Status::Ok();
+}
+
+Status RecursiveResidualStandardizer::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }
@@ -103,7 +121,8 @@ Status KnownStandardizerOptions::Validate() const {
   if (!std::isfinite(mean))
     return Status::Error(ErrorCode::kInvalidConfig, "in-control mean must be finite");
   if (!(std::isfinite(sd) && sd > 0.0))
-    return Status::Error(ErrorCode::kInvalidConfig, "in-control sd must be finite and > 0, got " + std::to_string(sd));
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "in-control sd must be finite and > 0, got " + std::to_string(sd));
   return Status::Ok();
 }
 

@@ -9,25 +9,50 @@ namespace bayline::est {
 
 LinearMl::LinearMl(const RlsOptions& options, int p) : rls_(options, p) {}
 
-Status LinearMl::Update(const Sample& s, Innovation* out) {
-  const double n_prev = rls_.effective_n();
-  const int p = rls_.p();
-  Innovation inn;
-  Status st = rls_.Update(s, &inn);
-  if (!st.ok()) return st;
+namespace {
+
+// What Update derives from the Rls innovation, computed inside the Rls update before it commits.
+struct MlStep {
+  double n_prev = 0.0;
+  int p = 0;
+  double y = 0.0;
+  double cumulative = 0.0;  // in: before the observation; out: after it
   Innovation ml;
-  if (inn.valid) {
+};
+
+}  // namespace
+
+Status LinearMl::Update(const Sample& s, Innovation* out) {
+  MlStep step;
+  step.n_prev = rls_.effective_n();
+  step.p = rls_.p();
+  step.y = s.y;
+  step.cumulative = cumulative_log_predictive_;
+  InnovationCheck check;
+  check.context = &step;
+  check.check = [](void* context, const Innovation& inn) -> Status {
+    MlStep& st = *static_cast<MlStep*>(context);
+    if (!inn.valid) return Status::Ok();
     // Rls scales by s^2 = S / (n_eff - p); the ML plug-in uses S / n_eff (previous n_eff).
-    const double shrink = std::sqrt((n_prev - p) / n_prev);
+    const double shrink = std::sqrt((st.n_prev - st.p) / st.n_prev);
+    Innovation& ml = st.ml;
     ml.valid = true;
     ml.prediction = inn.prediction;
     ml.residual = inn.residual;
     ml.predictive_sd = inn.predictive_sd * shrink;
     ml.standardized = ml.residual / ml.predictive_sd;
-    ml.log_predictive = dist::NormalLogPdf(s.y, ml.prediction, ml.predictive_sd);
-    cumulative_log_predictive_ += ml.log_predictive;
-  }
-  if (out) *out = ml;
+    ml.log_predictive = dist::NormalLogPdf(st.y, ml.prediction, ml.predictive_sd);
+    st.cumulative += ml.log_predictive;
+    if (Status v = ValidateCumulative(st.cumulative); !v.ok()) {
+      return Status::Error(ErrorCode::kNumericalFailure,
+                           "update would leave an invalid state: " + v.message());
+    }
+    return Status::Ok();
+  };
+  Status st = rls_.Update(s, nullptr, nullptr, check);
+  if (!st.ok()) return st;
+  cumulative_log_predictive_ = step.cumulative;
+  if (out) *out = step.ml;
   return Status::Ok();
 }
 
@@ -107,10 +132,20 @@ LinearMl::State LinearMl::state() const {
   return s;
 }
 
-Status LinearMl::Restore(const State& s) {
-  if (!std::isfinite(s.cumulative_log_predictive)) {
+Status LinearMl::ValidateCumulative(double cumulative_log_predictive) {
+  if (!std::isfinite(cumulative_log_predictive)) {
     return Status::Error(ErrorCode::kInvalidState, "cumulative log predictive is not finite");
   }
+  return Status::Ok();
+}
+
+Status LinearMl::Validate(const State& s) const {
+  if (Status v = ValidateCumulative(s.cumulative_log_predictive); !v.ok()) return v;
+  return rls_.Validate(s.rls);
+}
+
+Status LinearMl::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   Status st = rls_.Restore(s.rls);
   if (!st.ok()) return st;
   cumulative_log_predictive_ = s.cumulative_log_predictive;

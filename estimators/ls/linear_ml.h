@@ -36,7 +36,8 @@ class LinearMl {
 
   // Absorbs one observation. *out (if given): innovation from the state before it, with a gaussian
   // predictive N(x'theta, sigma^2_ML (1/w + x'(R'R)^{-1}x)) (valid once identified with n_eff > p).
-  // Rejections exactly as Rls::Update (state and *out unchanged).
+  // Rejections as Rls::Update, and kNumericalFailure when the new state would fail Validate (the
+  // cumulative log predictive would not be finite); state and *out unchanged.
   Status Update(const Sample& s, Innovation* out = nullptr);
 
   // value = theta_ML, std_error from sigma^2_ML (R'R)^{-1}, Wald intervals (normal quantile),
@@ -67,9 +68,15 @@ class LinearMl {
   void Reset();
 
   State state() const;
-  Status Restore(const State& s);  // validates (as Rls::Restore, plus a finite sum), then replaces
+  // The state invariants, shared by Restore and Update: Rls::Validate of the recursion's state and
+  // a finite cumulative log predictive. Ok or kInvalidState.
+  Status Validate(const State& s) const;
+  Status Restore(const State& s);  // Validate, then replaces; nothing changes on failure
 
  private:
+  // The invariant of the part of the state this class adds to Rls's.
+  static Status ValidateCumulative(double cumulative_log_predictive);
+
   Rls rls_;
   double cumulative_log_predictive_ = 0.0;
 };

@@ -76,6 +76,12 @@
 
 namespace bayline::est {
 
+// A caller's check of a candidate innovation, run by Update before it commits (see Update).
+struct InnovationCheck {
+  Status (*check)(void* context, const Innovation& innovation) = nullptr;
+  void* context = nullptr;
+};
+
 // P: parameter count known at compile time (fixed-size Eigen storage), or Eigen::Dynamic with p
 // given at construction (storage allocated once, at construction).
 template <int P>
@@ -123,8 +129,15 @@ class RecursiveLeastSquares {
   // state before this observation (valid once identified with dof > 0; its log_predictive is the
   // Student t density with the previous dof), *rr (if given) the recursive residual.
   // On rejection: kNonFinite / kWrongRegressorCount / kInvalidWeight for bad input,
-  // kNumericalFailure if the result would overflow; the state, *out and *rr are unchanged.
+  // kNumericalFailure if the result would overflow or the new state would fail Validate (the one
+  // check Restore applies, so every state an update leaves can be restored); the state, *out and
+  // *rr are unchanged.
   Status Update(const Sample& s, Innovation* out = nullptr, RecursiveResidual* rr = nullptr);
+  // As Update, and `check` sees the innovation before anything is committed: an error it returns
+  // rejects the observation (returned as is; nothing changes). How an estimator built on this one
+  // applies its own invariants to what it derives from the innovation.
+  Status Update(const Sample& s, Innovation* out, RecursiveResidual* rr,
+                const InnovationCheck& check);
 
   // As Update, for regressors/response known to more digits than a double holds: the row absorbed
   // is x + x_lo, y + y_lo (e.g. x^k of a polynomial basis computed in double-double). Requires the
@@ -169,10 +182,14 @@ class RecursiveLeastSquares {
 
   const RlsOptions& options() const { return options_; }
   const State& state() const { return state_; }
-  // Validates s (p, extended flag matching the options, R upper triangular with a finite
-  // non-negative diagonal, everything finite, S, n_eff, n_obs >= 0, anchor in [0, p), identified
-  // consistent with the rank test) and replaces the state. On failure kInvalidState, nothing
-  // changes.
+  // The state invariants, shared by Restore and Update: p and the extended flag match this
+  // estimator, R is upper triangular with a non-negative diagonal, R, z, S (and their low parts)
+  // finite, S >= 0, n_eff finite >= 0, n_obs a whole number >= 0, previous_time not infinite, the
+  // traces T and T_id finite >= 0 (the windup floor is computed from them), anchor an index in [0,
+  // p), identified consistent with the rank test (and then R's diagonal > 0, so theta = R^{-1} z
+  // exists). Ok or kInvalidState naming the first violation.
+  Status Validate(const State& s) const;
+  // Validate, then replaces the state. On failure kInvalidState, nothing changes.
   Status Restore(const State& s);
 
  private:
@@ -186,10 +203,10 @@ class RecursiveLeastSquares {
   static constexpr bool kDynamic = (P == Eigen::Dynamic);
 
   Status UpdateChecked(const Sample& s, const double* x_lo, double y_lo, Innovation* out,
-                       RecursiveResidual* rr);
+                       RecursiveResidual* rr, const InnovationCheck* check);
   template <typename Real>
   Status UpdateImpl(Work& w, const Sample& s, const double* x_lo, double y_lo, Innovation* out,
-                    RecursiveResidual* rr);
+                    RecursiveResidual* rr, const InnovationCheck* check);
   void SizeWork(Work& w) const;
   bool RankTest(const Matrix& r) const;
   // theta and R^{-1} in the working precision, rounded to double. Require identified.

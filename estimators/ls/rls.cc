@@ -35,6 +35,10 @@ Rls::Rls(const RlsOptions& options, int p) : options_(options), p_(p), impl_(Mak
 Status Rls::Update(const Sample& s, Innovation* out, RecursiveResidual* rr) {
   return Visit([&](auto& e) { return e.Update(s, out, rr); });
 }
+Status Rls::Update(const Sample& s, Innovation* out, RecursiveResidual* rr,
+                   const InnovationCheck& check) {
+  return Visit([&](auto& e) { return e.Update(s, out, rr, check); });
+}
 Status Rls::UpdateExtended(const Sample& s, std::span<const double> x_lo, double y_lo,
                            Innovation* out, RecursiveResidual* rr) {
   return Visit([&](auto& e) { return e.UpdateExtended(s, x_lo, y_lo, out, rr); });
@@ -86,6 +90,18 @@ Rls::State Rls::state() const {
   State s;
   Visit([&](const auto& e) { s.inner = e.state(); });
   return s;
+}
+
+Status Rls::Validate(const State& s) const {
+  return Visit([&](const auto& e) -> Status {
+    using S = typename std::decay_t<decltype(e)>::State;
+    const S* inner = std::get_if<S>(&s.inner);
+    if (!inner) {
+      return Status::Error(ErrorCode::kInvalidState,
+                           "state storage does not match p = " + std::to_string(p_));
+    }
+    return e.Validate(*inner);
+  });
 }
 
 Status Rls::Restore(const State& s) {

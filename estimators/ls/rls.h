@@ -36,6 +36,8 @@ class Rls {
   // See RecursiveLeastSquares<P>: same results, same rejection rules (state unchanged on
   // rejection).
   Status Update(const Sample& s, Innovation* out = nullptr, RecursiveResidual* rr = nullptr);
+  Status Update(const Sample& s, Innovation* out, RecursiveResidual* rr,
+                const InnovationCheck& check);
   Status UpdateExtended(const Sample& s, std::span<const double> x_lo, double y_lo,
                         Innovation* out = nullptr, RecursiveResidual* rr = nullptr);
   ParameterReport Report(double level = 0.95) const;
@@ -58,8 +60,10 @@ class Rls {
 
   // A copy of the current state (by value: the storage type varies with p).
   State state() const;
-  // Validates and replaces; kInvalidState (nothing changed) if the state's p differs from p() or it
-  // fails the underlying estimator's checks.
+  // The state invariants (RecursiveLeastSquares<P>::Validate, shared with Update); kInvalidState
+  // also when the state's p differs from p().
+  Status Validate(const State& s) const;
+  // Validate, then replaces; kInvalidState (nothing changed) on failure.
   Status Restore(const State& s);
 
  private:

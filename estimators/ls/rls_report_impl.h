@@ -264,7 +264,7 @@ Status RecursiveLeastSquares<P>::State::Unpack(StateReader& rd) {
 }
 
 template <int P>
-Status RecursiveLeastSquares<P>::Restore(const State& s) {
+Status RecursiveLeastSquares<P>::Validate(const State& s) const {
   auto bad = [](const std::string& why) { return Status::Error(ErrorCode::kInvalidState, why); };
   const int p = state_.p;
   if (s.p != p)
@@ -305,6 +305,12 @@ Status RecursiveLeastSquares<P>::Restore(const State& s) {
     return bad("identified but R is singular");
   if (!s.identified && RankTest(s.r))
     return bad("R has full rank but the state says not identified");
+  return Status::Ok();
+}
+
+template <int P>
+Status RecursiveLeastSquares<P>::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

@@ -9,9 +9,9 @@
 #include <string>
 
 #include "estimators/core/distributions.h"
+#include "estimators/core/t_log_density.h"
 #include "estimators/ls/double_double.h"
 #include "estimators/ls/recursive_least_squares.h"
-#include "estimators/core/t_log_density.h"
 
 namespace bayline::est {
 
@@ -132,7 +132,13 @@ void RecursiveLeastSquares<P>::Reset() {
 
 template <int P>
 Status RecursiveLeastSquares<P>::Update(const Sample& s, Innovation* out, RecursiveResidual* rr) {
-  return UpdateChecked(s, nullptr, 0.0, out, rr);
+  return UpdateChecked(s, nullptr, 0.0, out, rr, nullptr);
+}
+
+template <int P>
+Status RecursiveLeastSquares<P>::Update(const Sample& s, Innovation* out, RecursiveResidual* rr,
+                                        const InnovationCheck& check) {
+  return UpdateChecked(s, nullptr, 0.0, out, rr, &check);
 }
 
 template <int P>
@@ -157,28 +163,31 @@ Status RecursiveLeastSquares<P>::UpdateExtended(const Sample& s, std::span<const
   if (!std::isfinite(y_lo)) {
     return Status::Error(ErrorCode::kNonFinite, "low-order part of y is not finite");
   }
-  return UpdateChecked(s, x_lo.data(), y_lo, out, rr);
+  return UpdateChecked(s, x_lo.data(), y_lo, out, rr, nullptr);
 }
 
 template <int P>
 Status RecursiveLeastSquares<P>::UpdateChecked(const Sample& s, const double* x_lo, double y_lo,
-                                               Innovation* out, RecursiveResidual* rr) {
+                                               Innovation* out, RecursiveResidual* rr,
+                                               const InnovationCheck* check) {
   Status st = CheckCommonFields(s, static_cast<std::size_t>(state_.p));
   if (!st.ok()) return st;
   if constexpr (kDynamic) {
-    return options_.extended_precision ? UpdateImpl<DoubleDouble>(dyn_work_, s, x_lo, y_lo, out, rr)
-                                       : UpdateImpl<double>(dyn_work_, s, x_lo, y_lo, out, rr);
+    return options_.extended_precision
+               ? UpdateImpl<DoubleDouble>(dyn_work_, s, x_lo, y_lo, out, rr, check)
+               : UpdateImpl<double>(dyn_work_, s, x_lo, y_lo, out, rr, check);
   } else {
     Work w;  // fixed size: on the stack, uninitialised (every entry used is loaded first)
-    return options_.extended_precision ? UpdateImpl<DoubleDouble>(w, s, x_lo, y_lo, out, rr)
-                                       : UpdateImpl<double>(w, s, x_lo, y_lo, out, rr);
+    return options_.extended_precision ? UpdateImpl<DoubleDouble>(w, s, x_lo, y_lo, out, rr, check)
+                                       : UpdateImpl<double>(w, s, x_lo, y_lo, out, rr, check);
   }
 }
 
 template <int P>
 template <typename Real>
 Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const double* x_lo,
-                                            double y_lo, Innovation* out, RecursiveResidual* rr) {
+                                            double y_lo, Innovation* out, RecursiveResidual* rr,
+                                            const InnovationCheck* check) {
   using namespace rls_detail;
   constexpr bool kExt = !std::is_same_v<Real, double>;
   const int p = kDynamic ? state_.p : P;  // compile-time bound for fixed P (unrolled loops)
@@ -264,12 +273,12 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
   rss_new += eta_used * eta_used;
 
   // Check before committing: every new entry finite.
-  double check = ToDouble(rss_new) + eta_d + cprod;
+  double sum = ToDouble(rss_new) + eta_d + cprod;
   for (int k = 0; k < p; ++k) {
-    check += w.z(k);
-    for (int i = 0; i <= k; ++i) check += w.r(i, k);
+    sum += w.z(k);
+    for (int i = 0; i <= k; ++i) sum += w.r(i, k);
   }
-  if (!std::isfinite(check)) {
+  if (!std::isfinite(sum)) {
     return Status::Error(ErrorCode::kNumericalFailure,
                          "update would overflow (regressor or response too large for the state)");
   }
@@ -277,38 +286,44 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
   // Outputs from the state before this observation.
   const double sw = std::sqrt(s.weight);
   const bool pred_ok = have_pred && cprod > 0.0;
-  if (out) {
-    Innovation inn;
-    if (pred_ok) {
-      const double inv_scale = 1.0 / (sw * cprod);
-      const double sd = std::sqrt(s2_prev);
-      inn.valid = true;
-      inn.residual = eta_d * inv_scale;
-      inn.prediction = (s.y + y_lo) - inn.residual;
-      inn.predictive_sd = sd * inv_scale;
-      inn.standardized = eta_d / sd;
-      inn.log_predictive =
-          StudentTLogDensity(inn.standardized, dof_prev) - std::log(inn.predictive_sd);
-    }
-    *out = inn;
+  Innovation inn;
+  if (pred_ok && (out || check)) {
+    const double inv_scale = 1.0 / (sw * cprod);
+    const double sd = std::sqrt(s2_prev);
+    inn.valid = true;
+    inn.residual = eta_d * inv_scale;
+    inn.prediction = (s.y + y_lo) - inn.residual;
+    inn.predictive_sd = sd * inv_scale;
+    inn.standardized = eta_d / sd;
+    inn.log_predictive =
+        StudentTLogDensity(inn.standardized, dof_prev) - std::log(inn.predictive_sd);
   }
-  if (rr) {
-    RecursiveResidual res;
-    res.valid = cur.identified && cprod > 0.0;
-    res.value = res.valid ? eta_d : kNaN;
-    res.robust_weight = h;
-    res.lambda = lambda;
-    *rr = res;
+  if (check) {
+    if (Status c = check->check(check->context, inn); !c.ok()) return c;
   }
 
-  // Commit.
+  // Commit in place, keeping what it replaces: R and z trade places with the work copy (upper
+  // triangles only), the scalars are saved. The new state must pass Validate (what Restore checks),
+  // else everything goes back.
+  const double old_rss = cur.rss, old_rss_lo = cur.rss_lo;
+  const double old_n_eff = cur.n_eff, old_n_obs = cur.n_obs;
+  const double old_trace = cur.trace, old_trace_identified = cur.trace_identified;
+  const double old_previous_time = cur.previous_time, old_anchor = cur.anchor;
+  const bool old_identified = cur.identified;
+  auto swap_factor = [&] {
+    for (int k = 0; k < p; ++k) {
+      for (int i = 0; i <= k; ++i) std::swap(state_.r(i, k), w.r(i, k));
+      std::swap(state_.z(k), w.z(k));
+      if constexpr (kExt) {
+        for (int i = 0; i <= k; ++i) std::swap(state_.r_lo(i, k), w.r_lo(i, k));
+        std::swap(state_.z_lo(k), w.z_lo(k));
+      }
+    }
+  };
   double x2 = 0.0;
   for (int k = 0; k < p; ++k) x2 += s.x[k] * s.x[k];
-  state_.r.template triangularView<Eigen::Upper>() = w.r;
-  state_.z = w.z;
+  swap_factor();
   if constexpr (kExt) {
-    state_.r_lo.template triangularView<Eigen::Upper>() = w.r_lo;
-    state_.z_lo = w.z_lo;
     state_.rss = rss_new.hi;
     state_.rss_lo = rss_new.lo;
   } else {
@@ -325,6 +340,30 @@ Status RecursiveLeastSquares<P>::UpdateImpl(Work& w, const Sample& s, const doub
   if (!state_.identified && RankTest(state_.r)) {
     state_.identified = true;
     state_.trace_identified = state_.trace;
+  }
+  if (Status v = Validate(state_); !v.ok()) {
+    swap_factor();
+    state_.rss = old_rss;
+    state_.rss_lo = old_rss_lo;
+    state_.n_eff = old_n_eff;
+    state_.n_obs = old_n_obs;
+    state_.trace = old_trace;
+    state_.trace_identified = old_trace_identified;
+    state_.previous_time = old_previous_time;
+    state_.anchor = old_anchor;
+    state_.identified = old_identified;
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "update would leave an invalid state: " + v.message());
+  }
+
+  if (out) *out = inn;
+  if (rr) {
+    RecursiveResidual res;
+    res.valid = old_identified && cprod > 0.0;
+    res.value = res.valid ? eta_d : kNaN;
+    res.robust_weight = h;
+    res.lambda = lambda;
+    *rr = res;
   }
   return Status::Ok();
 }

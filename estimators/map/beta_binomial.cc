@@ -63,11 +63,14 @@ Status BetaBinomial::Update(const Sample& s, Innovation* out) {
   if (!std::isfinite(inn.log_predictive) || !std::isfinite(al_new) || !std::isfinite(be_new)) {
     return map_internal::Numerical("beta-binomial update not finite");
   }
-  state_.alpha = al_new, state_.beta = be_new;
-  state_.effective_n = delta * state_.effective_n + s.weight;
-  state_.log_marginal += inn.log_predictive;
-  state_.count += 1;
-  state_.last_time = map_internal::LatestTime(state_.last_time, s.time);
+  State next = state_;
+  next.alpha = al_new, next.beta = be_new;
+  next.effective_n = delta * state_.effective_n + s.weight;
+  next.log_marginal += inn.log_predictive;
+  next.count += 1;
+  next.last_time = map_internal::LatestTime(state_.last_time, s.time);
+  if (Status v = Validate(next); !v.ok()) return map_internal::InvalidNext(v);
+  state_ = next;
   if (out) *out = inn;
   return Status::Ok();
 }
@@ -107,15 +110,15 @@ Status BetaBinomial::State::Unpack(StateReader& r) {
   return r.status();
 }
 
-Status BetaBinomial::Restore(const State& s) {
+Status BetaBinomial::Validate(const State& s) {
   if (!(s.alpha > 0) || !std::isfinite(s.alpha) || !(s.beta > 0) || !std::isfinite(s.beta)) {
     return map_internal::BadState("beta parameters must be > 0 and finite");
   }
-  if (Status st =
-          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
-      !st.ok()) {
-    return st;
-  }
+  return map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
+}
+
+Status BetaBinomial::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

@@ -66,7 +66,11 @@ class BetaBinomial {
 
   const Options& options() const { return options_; }
   const State& state() const { return state_; }
-  // Validates (alpha, beta > 0 and finite, counts >= 0), then replaces; kInvalidState else.
+  // The state invariants, shared by Restore and Update (an update whose new state fails them is
+  // rejected with kNumericalFailure): alpha, beta > 0 and finite, effective_n finite >= 0, the log
+  // marginal likelihood finite, count a whole number >= 0, last_time not infinite.
+  static Status Validate(const State& s);
+  // Validate, then replaces; kInvalidState (nothing changed) else.
   Status Restore(const State& s);
 
  private:

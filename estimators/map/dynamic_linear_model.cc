@@ -154,14 +154,30 @@ Status DynamicLinearModel<P>::Update(const Sample& s, Innovation* out) {
     return map_internal::Numerical("log-likelihood not finite");
   }
 
+  // Commit in place, keeping the old values (in the scratch, free again) until the new state passes
+  // Validate, the check Restore applies.
+  ux_ = state_.m;
+  const double old_log_likelihood = state_.log_likelihood, old_v_shape = state_.v_shape;
+  const double old_v_scale = state_.v_scale, old_effective_n = state_.effective_n;
   // m += K e with K = k / sqrt(Q), k' = array_(0, 1:).
   for (int i = 0; i < p_; ++i) state_.m(i) += array_(0, i + 1) / sq * e;
-  state_.U = array_.bottomRightCorner(p_, p_);
+  u_work_ = array_.bottomRightCorner(p_, p_);
+  state_.U.swap(u_work_);
   state_.log_likelihood = ll;
   state_.v_shape = v_shape;
   state_.v_scale = v_scale;
   state_.effective_n += s.weight;
   state_.count += 1;
+  if (Status v = Validate(state_); !v.ok()) {
+    state_.m = ux_;
+    state_.U.swap(u_work_);
+    state_.log_likelihood = old_log_likelihood;
+    state_.v_shape = old_v_shape;
+    state_.v_scale = old_v_scale;
+    state_.effective_n = old_effective_n;
+    state_.count -= 1;
+    return map_internal::InvalidNext(v);
+  }
   if (out) *out = inn;
   return Status::Ok();
 }
@@ -272,7 +288,7 @@ Status DynamicLinearModel<P>::State::Unpack(StateReader& r) {
 }
 
 template <int P>
-Status DynamicLinearModel<P>::Restore(const State& s) {
+Status DynamicLinearModel<P>::Validate(const State& s) const {
   if (s.m.size() != p_ || s.U.rows() != p_ || s.U.cols() != p_) {
     return map_internal::BadState("dynamic linear model state has the wrong size");
   }
@@ -290,10 +306,12 @@ Status DynamicLinearModel<P>::Restore(const State& s) {
   if (!std::isfinite(s.v_shape) || !std::isfinite(s.v_scale)) {
     return map_internal::BadState("observation variance posterior not finite");
   }
-  if (Status st = map_internal::CheckBookkeeping(s.effective_n, s.log_likelihood, s.count, kNaN);
-      !st.ok()) {
-    return st;
-  }
+  return map_internal::CheckBookkeeping(s.effective_n, s.log_likelihood, s.count, kNaN);
+}
+
+template <int P>
+Status DynamicLinearModel<P>::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

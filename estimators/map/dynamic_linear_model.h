@@ -100,7 +100,8 @@ class DynamicLinearModel {
   explicit DynamicLinearModel(const Options& options);
 
   // Rejections (nothing changes): CheckCommonFields; kNumericalFailure when the result would not be
-  // finite or Q <= 0. On success fills *out with the one-step innovation.
+  // finite, Q <= 0, or the new state would fail Validate. On success fills *out with the one-step
+  // innovation.
   Status Update(const Sample& s, Innovation* out = nullptr);
   // Coefficients in regressor order. level in (0, 1), else NaN bounds.
   ParameterReport Report(double level = 0.95) const;
@@ -112,8 +113,12 @@ class DynamicLinearModel {
   int p() const { return p_; }
   const Options& options() const { return options_; }
   const State& state() const { return state_; }
-  // Validates (size p, finite, U upper triangular with diagonal >= 0, aV and bV > 0 when V is
-  // learned, both 0 when it is given), then replaces; kInvalidState else.
+  // The state invariants, shared by Restore and Update (an update whose new state fails them is
+  // rejected with kNumericalFailure): size p, m and U finite, U upper triangular with diagonal >=
+  // 0, aV and bV finite and > 0 when V is learned, both 0 when it is given, effective_n finite >=
+  // 0, the log-likelihood finite, count a whole number >= 0. Ok or kInvalidState.
+  Status Validate(const State& s) const;
+  // Validate, then replaces; kInvalidState (nothing changed) else.
   Status Restore(const State& s);
 
  private:

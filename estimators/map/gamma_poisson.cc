@@ -54,11 +54,14 @@ Status GammaPoisson::Update(const Sample& s, Innovation* out) {
       !std::isfinite(a_new) || !std::isfinite(b_new)) {
     return map_internal::Numerical("gamma-poisson update not finite");
   }
-  state_.a = a_new, state_.b = b_new;
-  state_.effective_n = delta * state_.effective_n + s.weight;
-  state_.log_marginal += inn.log_predictive;
-  state_.count += 1;
-  state_.last_time = map_internal::LatestTime(state_.last_time, s.time);
+  State next = state_;
+  next.a = a_new, next.b = b_new;
+  next.effective_n = delta * state_.effective_n + s.weight;
+  next.log_marginal += inn.log_predictive;
+  next.count += 1;
+  next.last_time = map_internal::LatestTime(state_.last_time, s.time);
+  if (Status v = ValidateGammaRateState(next); !v.ok()) return map_internal::InvalidNext(v);
+  state_ = next;
   if (out) *out = inn;
   return Status::Ok();
 }

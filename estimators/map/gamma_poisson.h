@@ -56,7 +56,8 @@ class GammaPoisson {
 
   const Options& options() const { return options_; }
   const State& state() const { return state_; }
-  // Validates (a, b > 0 and finite, counts >= 0), then replaces; kInvalidState else.
+  // ValidateGammaRateState (the invariants Update also applies to its new state, rejecting with
+  // kNumericalFailure), then replaces; kInvalidState (nothing changed) else.
   Status Restore(const State& s);
 
  private:

@@ -158,12 +158,26 @@ Status NigRegression<P>::Update(const Sample& s, Innovation* out) {
   a += 0.5;
   if (!work_.allFinite()) return map_internal::Numerical("posterior factor not finite");
 
-  state_.factor = work_;
+  // Commit in place (the factor trades places with the work copy), keeping the old values until
+  // the new state passes Validate, the check Restore applies.
+  const double old_a = state_.a, old_effective_n = state_.effective_n;
+  const double old_log_marginal = state_.log_marginal, old_count = state_.count;
+  const double old_last_time = state_.last_time;
+  state_.factor.swap(work_);
   state_.a = a;
   state_.effective_n = delta * state_.effective_n + s.weight;
   if (inn.valid) state_.log_marginal += inn.log_predictive;
   state_.count += 1;
   state_.last_time = map_internal::LatestTime(state_.last_time, s.time);
+  if (Status v = Validate(state_); !v.ok()) {
+    state_.factor.swap(work_);
+    state_.a = old_a;
+    state_.effective_n = old_effective_n;
+    state_.log_marginal = old_log_marginal;
+    state_.count = old_count;
+    state_.last_time = old_last_time;
+    return map_internal::InvalidNext(v);
+  }
   if (out) *out = inn;
   return Status::Ok();
 }
@@ -261,7 +275,7 @@ Status NigRegression<P>::State::Unpack(StateReader& r) {
 }
 
 template <int P>
-Status NigRegression<P>::Restore(const State& s) {
+Status NigRegression<P>::Validate(const State& s) const {
   if (s.factor.rows() != p_ + 1 || s.factor.cols() != p_ + 1) {
     return map_internal::BadState("regression state has the wrong size");
   }
@@ -274,11 +288,12 @@ Status NigRegression<P>::Restore(const State& s) {
       if (s.factor(i, j) != 0) return map_internal::BadState("factor is not upper triangular");
     }
   }
-  if (Status st =
-          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
-      !st.ok()) {
-    return st;
-  }
+  return map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
+}
+
+template <int P>
+Status NigRegression<P>::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

@@ -114,7 +114,8 @@ class NigRegression {
   explicit NigRegression(const Options& options);
 
   // Absorbs one observation. Rejections (nothing changes): kNonFinite / kWrongRegressorCount /
-  // kInvalidWeight from CheckCommonFields; kNumericalFailure if the new factor would not be finite.
+  // kInvalidWeight from CheckCommonFields; kNumericalFailure if the new factor would not be finite
+  // or the new state would fail Validate.
   // On success fills *out (if given) with the predictive innovation computed before the update.
   Status Update(const Sample& s, Innovation* out = nullptr);
 
@@ -137,8 +138,12 @@ class NigRegression {
 
   const Options& options() const { return options_; }
   const State& state() const { return state_; }
-  // Validates (size p, finite, upper triangular with diagonal >= 0, counts >= 0), then replaces
-  // the state. On failure: kInvalidState and nothing changes.
+  // The state invariants, shared by Restore and Update (an update whose new state fails them is
+  // rejected with kNumericalFailure): factor of size p + 1, finite, upper triangular with diagonal
+  // >= 0; a finite; effective_n finite >= 0; the log marginal likelihood finite; count a whole
+  // number >= 0; last_time not infinite. Ok or kInvalidState.
+  Status Validate(const State& s) const;
+  // Validate, then replaces the state. On failure: kInvalidState and nothing changes.
   Status Restore(const State& s);
 
  private:

@@ -75,11 +75,14 @@ Status NormalGamma::Update(const Sample& s, Innovation* out) {
   if (!std::isfinite(m_new) || !std::isfinite(b_new) || !std::isfinite(kn)) {
     return map_internal::Numerical("normal-gamma posterior not finite");
   }
-  state_.m = m_new, state_.kappa = kn, state_.a = a + 0.5, state_.b = b_new;
-  state_.effective_n = delta * state_.effective_n + w;
-  if (inn.valid) state_.log_marginal += inn.log_predictive;
-  state_.count += 1;
-  state_.last_time = map_internal::LatestTime(state_.last_time, s.time);
+  State next = state_;
+  next.m = m_new, next.kappa = kn, next.a = a + 0.5, next.b = b_new;
+  next.effective_n = delta * state_.effective_n + w;
+  if (inn.valid) next.log_marginal += inn.log_predictive;
+  next.count += 1;
+  next.last_time = map_internal::LatestTime(state_.last_time, s.time);
+  if (Status v = Validate(next); !v.ok()) return map_internal::InvalidNext(v);
+  state_ = next;
   if (out) *out = inn;
   return Status::Ok();
 }
@@ -130,16 +133,16 @@ Status NormalGamma::State::Unpack(StateReader& r) {
   return r.status();
 }
 
-Status NormalGamma::Restore(const State& s) {
+Status NormalGamma::Validate(const State& s) {
   if (!std::isfinite(s.m) || !std::isfinite(s.a) || !(s.kappa >= 0) || !std::isfinite(s.kappa) ||
       !(s.b >= 0) || !std::isfinite(s.b)) {
     return map_internal::BadState("normal-gamma parameters invalid");
   }
-  if (Status st =
-          map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
-      !st.ok()) {
-    return st;
-  }
+  return map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
+}
+
+Status NormalGamma::Restore(const State& s) {
+  if (Status v = Validate(s); !v.ok()) return v;
   state_ = s;
   return Status::Ok();
 }

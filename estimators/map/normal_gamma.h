@@ -78,7 +78,11 @@ class NormalGamma {
   bool proper() const;  // kappa > 0, a > 0, b > 0
   const Options& options() const { return options_; }
   const State& state() const { return state_; }
-  // Validates (finite, kappa >= 0, b >= 0, count >= 0 ...), then replaces; kInvalidState else.
+  // The state invariants, shared by Restore and Update (an update whose new state fails them is
+  // rejected with kNumericalFailure): m, a finite, kappa and b finite >= 0, effective_n finite >=
+  // 0, the log marginal likelihood finite, count a whole number >= 0, last_time not infinite.
+  static Status Validate(const State& s);
+  // Validate, then replaces; kInvalidState (nothing changed) else.
   Status Restore(const State& s);
 
  private:

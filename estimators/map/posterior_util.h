@@ -77,6 +77,12 @@ inline Status Numerical(const std::string& what) {
   return Status::Error(ErrorCode::kNumericalFailure, what);
 }
 
+// The rejection of an update whose candidate state fails the estimator's state invariants (the
+// check its Restore applies): kNumericalFailure carrying the violation.
+inline Status InvalidNext(const Status& violation) {
+  return Numerical("update would leave an invalid state: " + violation.message());
+}
+
 // Checks the bookkeeping fields every map state carries.
 inline Status CheckBookkeeping(double effective_n, double log_marginal, double count,
                                double last_time) {

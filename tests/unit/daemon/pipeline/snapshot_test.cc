@@ -1,8 +1,8 @@
+#include <gtest/gtest.h>
+
 #include <random>
 #include <string>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/daemon/pipeline/test_util.h"
 
@@ -62,7 +62,8 @@ std::vector<bayline::v1::Observation> Stream(int n) {
 
 std::vector<std::string> Bytes(const RecordingSink& sink) {
   std::vector<std::string> out;
-  for (const auto& r : sink.records) out.push_back(r.topic + "|" + r.publication.SerializeAsString());
+  for (const auto& r : sink.records)
+    out.push_back(r.topic + "|" + r.publication.SerializeAsString());
   return out;
 }
 
@@ -97,13 +98,16 @@ TEST(SnapshotTest, RestoreAndContinueIsByteIdenticalToUninterruptedRun) {
   EXPECT_TRUE(reset.empty());
   EXPECT_EQ(SnapshotBytes(second), SnapshotBytes(first));
   RecordingSink second_sink;
-  for (std::size_t i = cut; i < stream.size(); ++i) second.Process(stream[i], kArrival, second_sink);
+  for (std::size_t i = cut; i < stream.size(); ++i)
+    second.Process(stream[i], kArrival, second_sink);
 
   EXPECT_EQ(Bytes(second_sink), Bytes(whole_sink));
   EXPECT_EQ(SnapshotBytes(second), SnapshotBytes(whole));
 }
 
-TEST(SnapshotTest, StateThatDoesNotUnpackIsRefusedAndChangesNothing) {
+// A channel whose record does not restore is set aside alone (named, with the reason, and
+// counted); the other channels of the snapshot are restored.
+TEST(SnapshotTest, ChannelThatDoesNotUnpackIsSetAsideAlone) {
   const auto config = RichConfig();
   Pipeline source(config);
   RecordingSink sink;
@@ -111,33 +115,58 @@ TEST(SnapshotTest, StateThatDoesNotUnpackIsRefusedAndChangesNothing) {
   for (const auto& o : stream) source.Process(o, kArrival, sink);
   bayline::v1::Snapshot good;
   source.SaveChannels(&good);
+  const auto n = static_cast<uint64_t>(good.channels_size());
 
+  // Truncate one component of the last channel, drop a component, then name a wrong kind.
+  bayline::v1::Snapshot truncated = good;
+  auto* values = truncated.mutable_channels(truncated.channels_size() - 1)
+                     ->mutable_components(0)
+                     ->mutable_values();
+  values->Truncate(values->size() - 2);
+  bayline::v1::Snapshot missing = good;
+  missing.mutable_channels(0)->mutable_components()->RemoveLast();
+  bayline::v1::Snapshot wrong_kind = good;
+  wrong_kind.mutable_channels(1)->mutable_components(0)->set_kind("map");
+  const std::vector<std::pair<const bayline::v1::Snapshot*, int>> cases = {
+      {&truncated, truncated.channels_size() - 1}, {&missing, 0}, {&wrong_kind, 1}};
+  for (const auto& [snapshot, bad] : cases) {
+    Pipeline target(config);
+    target.Process(Obs("temp/other", 1, 3.0), kArrival, sink);
+    std::vector<std::string> not_restored;
+    const est::Status s = target.RestoreChannels(*snapshot, nullptr, &not_restored);
+    ASSERT_TRUE(s.ok()) << s.ToString();
+    const std::string& name = good.channels(bad).name();
+    ASSERT_EQ(not_restored.size(), 1u) << name;
+    EXPECT_NE(not_restored[0].find("\"" + name + "\""), std::string::npos) << not_restored[0];
+    EXPECT_EQ(target.counters().channels_not_restored, 1u);
+    EXPECT_EQ(target.counters().channels, n);  // temp/other and every channel but one
+    EXPECT_FALSE(target.Ask(name).has_value());
+    for (const auto& c : good.channels()) {
+      if (c.name() == name) continue;
+      EXPECT_TRUE(target.Ask(c.name()).has_value()) << c.name();
+    }
+  }
+
+  Pipeline target(config);
+  ASSERT_TRUE(target.RestoreChannels(good).ok());
+  EXPECT_EQ(target.counters().channels, n);
+  EXPECT_EQ(target.counters().channels_not_restored, 0u);
+}
+
+// A snapshot of another format is refused as a whole and changes nothing.
+TEST(SnapshotTest, OtherFormatIsRefusedAndChangesNothing) {
+  const auto config = RichConfig();
+  Pipeline source(config);
+  RecordingSink sink;
+  for (const auto& o : Stream(10)) source.Process(o, kArrival, sink);
+  bayline::v1::Snapshot other;
+  source.SaveChannels(&other);
+  other.set_format_version(2);
   Pipeline target(config);
   target.Process(Obs("temp/other", 1, 3.0), kArrival, sink);
   const std::string before = SnapshotBytes(target);
-
-  // Truncate one component of the last channel, drop a component, then corrupt a value's range.
-  bayline::v1::Snapshot truncated = good;
-  auto* values = truncated.mutable_channels(truncated.channels_size() - 1)->mutable_components(0)->mutable_values();
-  values->Truncate(values->size() - 2);
-  est::Status s = target.RestoreChannels(truncated);
-  EXPECT_EQ(s.code(), est::ErrorCode::kInvalidState) << s.ToString();
+  EXPECT_EQ(target.RestoreChannels(other).code(), est::ErrorCode::kInvalidState);
   EXPECT_EQ(SnapshotBytes(target), before);
-
-  bayline::v1::Snapshot missing = good;
-  missing.mutable_channels(0)->mutable_components()->RemoveLast();
-  s = target.RestoreChannels(missing);
-  EXPECT_EQ(s.code(), est::ErrorCode::kInvalidState);
-  EXPECT_NE(s.message().find(good.channels(0).name()), std::string::npos) << s.message();
-  EXPECT_EQ(SnapshotBytes(target), before);
-
-  bayline::v1::Snapshot wrong_kind = good;
-  wrong_kind.mutable_channels(1)->mutable_components(0)->set_kind("map");
-  EXPECT_EQ(target.RestoreChannels(wrong_kind).code(), est::ErrorCode::kInvalidState);
-  EXPECT_EQ(SnapshotBytes(target), before);
-
-  ASSERT_TRUE(target.RestoreChannels(good).ok());
-  EXPECT_EQ(target.counters().channels, 1u + good.channels_size());
 }
 
 TEST(SnapshotTest, ChannelWhoseSpecChangedIsResetAndReported) {
@@ -156,7 +185,8 @@ TEST(SnapshotTest, ChannelWhoseSpecChangedIsResetAndReported) {
   EXPECT_EQ(reset, std::vector<std::string>{"temp/freezer"});
   EXPECT_FALSE(target.Ask("temp/freezer").has_value());
   ASSERT_TRUE(target.Ask("cal/probe1").has_value());
-  EXPECT_EQ(target.Ask("cal/probe1")->info().accepted(), source.Ask("cal/probe1")->info().accepted());
+  EXPECT_EQ(target.Ask("cal/probe1")->info().accepted(),
+            source.Ask("cal/probe1")->info().accepted());
 }
 
 }  // namespace
