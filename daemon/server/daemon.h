@@ -10,18 +10,18 @@
 // lingers (up to 1 s) until connected subscribers have them, exit 0.
 #pragma once
 
-#include <zmq.hpp>
-
 #include <chrono>
 #include <memory>
 #include <string>
 #include <vector>
+#include <zmq.hpp>
 
 #include "bayline/v1/config.pb.h"
 #include "daemon/server/control_service.h"
 #include "daemon/server/daemon_options.h"
 #include "daemon/server/ingest.h"
 #include "daemon/server/publisher.h"
+#include "daemon/server/rate_limited_log.h"
 #include "daemon/server/signals.h"
 #include "daemon/server/snapshot_file.h"
 #include "daemon/server/worker.h"
@@ -45,6 +45,8 @@ class Daemon : public DaemonActions {
   void Serve();  // the supervisor loop
   void Shutdown();
   void HandleControl();
+  // (Re)creates the control socket bound to `endpoint`; sets control_endpoint_ to the resolved one.
+  bool BindControl(const std::string& endpoint, std::string* error);
   void ApplyRuntimeSettings();
 
   DaemonOptions options_;
@@ -57,6 +59,8 @@ class Daemon : public DaemonActions {
   std::vector<std::unique_ptr<Worker>> workers_;
   std::unique_ptr<Ingest> ingest_;
   std::unique_ptr<zmq::socket_t> control_;
+  std::string control_endpoint_;  // resolved (a port of 0 or `*` made concrete)
+  RateLimitedLog control_log_;
   std::unique_ptr<ControlService> control_service_;
   uint64_t snapshots_written_ = 0;
   std::chrono::steady_clock::duration snapshot_period_{};
