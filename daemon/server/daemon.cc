@@ -3,6 +3,7 @@
 #include <signal.h>
 #include <spdlog/spdlog.h>
 
+#include <cstdlib>
 #include <thread>
 
 #include "daemon/server/config_loader.h"
@@ -13,6 +14,8 @@ namespace {
 
 constexpr size_t kWorkerQueueCapacity = 64;  // batches of up to Ingest::kMaxBatch observations
 constexpr double kDefaultSnapshotEveryS = 60;
+
+const char* SignalName(int signal) { return signal == SIGTERM ? "SIGTERM" : "SIGINT"; }
 
 std::string Join(const std::vector<std::string>& items) {
   std::string out;
@@ -115,8 +118,15 @@ bool Daemon::Start() {
 int Daemon::Run() {
   if (!Start()) return 1;
   Serve();
+  signals_.ForceExitOnStopSignal(ForcedExit);
   Shutdown();
   return 0;
+}
+
+void Daemon::ForcedExit(int signal) {
+  spdlog::warn("signal {} during shutdown: exiting now with code {}, without the final snapshot",
+               SignalName(signal), SignalWatcher::ForcedExitCode(signal));
+  std::_Exit(SignalWatcher::ForcedExitCode(signal));
 }
 
 void Daemon::Serve() {
@@ -140,8 +150,10 @@ void Daemon::Serve() {
         if (signal == SIGHUP) {
           std::string message;
           Reload(&message);
+        } else if (stop_requested_) {  // a second one read in the same batch
+          ForcedExit(signal);
         } else {
-          spdlog::info("signal {}: stopping", signal == SIGTERM ? "SIGTERM" : "SIGINT");
+          spdlog::info("signal {}: stopping (send it again to exit at once)", SignalName(signal));
           stop_requested_ = true;
         }
       }

@@ -7,7 +7,8 @@
 // a thread starts) -> threads started -> "ready" log line with every resolved endpoint.
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
 // queues and send their last publications, a snapshot is written, the threads end, the PUB socket
-// lingers (up to 1 s) until connected subscribers have them, exit 0.
+// lingers (up to 1 s) until connected subscribers have them, exit 0. A second SIGTERM / SIGINT
+// before that ends the process at once with 128 + the signal's number (signals.h).
 #pragma once
 
 #include <chrono>
@@ -44,6 +45,8 @@ class Daemon : public DaemonActions {
   bool Start();  // everything up to the threads running; false: logged, exit 1
   void Serve();  // the supervisor loop
   void Shutdown();
+  // Logs and ends the process at once (SignalWatcher::ForcedExitCode): a second SIGTERM/SIGINT.
+  [[noreturn]] static void ForcedExit(int signal);
   void HandleControl();
   // (Re)creates the control socket bound to `endpoint`; sets control_endpoint_ to the resolved one.
   bool BindControl(const std::string& endpoint, std::string* error);
