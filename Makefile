@@ -54,7 +54,7 @@ FUZZ_TARGETS := fuzz_ingest_frame fuzz_control_request fuzz_config_text fuzz_sna
 fuzz-build: deps
 	@command -v clang++ >/dev/null || { $(SUDO) apt-get update -qq && \
 	  DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq --no-install-recommends clang >/dev/null; }
-	@cmake -S . -B $(FUZZ_BUILD) -G Ninja -DCMAKE_BUILD_TYPE=RelWithDebInfo \
+	@cmake -S . -B $(FUZZ_BUILD) -G Ninja -DCMAKE_BUILD_TYPE=FuzzO1 -DCMAKE_CXX_FLAGS_FUZZO1=-O1 \
 	  -DCMAKE_CXX_COMPILER=clang++ -DBAYLINE_FUZZ=ON -DBAYLINE_BUILD_TESTS=OFF \
 	  -DBAYLINE_BUILD_BENCH=OFF -DBAYLINE_STRICT=ON >/dev/null
 	cmake --build $(FUZZ_BUILD) -j $(JOBS) --target bayline_fuzz_targets
