@@ -17,7 +17,7 @@ DEB_PACKAGES := cmake ninja-build g++ make pkg-config \
   python3 python3-zmq python3-protobuf python3-matplotlib python3-numpy \
   python3-scipy python3-statsmodels python3-mpmath python3-pytest r-base-core r-cran-spc
 
-.PHONY: deps configure build test check format format-check bench demo clean
+.PHONY: deps configure build test check format format-check bench demo clean fuzz fuzz-build fuzz-short
 
 deps:
 	@missing=$$(for p in $(DEB_PACKAGES); do \
@@ -36,6 +36,7 @@ build: configure
 
 test: format-check build
 	cd $(BUILD) && ctest --output-on-failure -j $(JOBS) --timeout 1500
+	$(MAKE) fuzz-short
 
 # Debug build with AddressSanitizer and UndefinedBehaviorSanitizer in its own tree; runs the unit and
 # integration tests except those that replace the allocator (label no_sanitizer).
@@ -64,4 +65,35 @@ demo: build
 	clients/demo/run_demo.sh $(BUILD)
 
 clean:
-	rm -rf $(BUILD) $(ASAN_BUILD)
+	rm -rf $(BUILD) $(ASAN_BUILD) $(FUZZ_BUILD)
+
+# Fuzzing (tests/fuzz): a separate clang build of only the fuzz targets and what they link, every
+# part with AddressSanitizer and UndefinedBehaviorSanitizer. `make fuzz` runs each target for
+# FUZZ_SECONDS (new inputs go to $(FUZZ_BUILD)/tests/fuzz/corpus/<target>, findings to
+# $(FUZZ_BUILD)/tests/fuzz/artifacts); `make fuzz-short` (part of `make test`) runs each for
+# a few seconds from the seed corpus, as ctest label `fuzz`.
+FUZZ_BUILD   ?= build-fuzz
+FUZZ_SECONDS ?= 600
+FUZZ_TARGETS := fuzz_ingest_frame fuzz_control_request fuzz_config_text fuzz_snapshot_restore \
+  fuzz_cli_csv fuzz_cli_jsonl
+
+fuzz-build: deps
+	@command -v clang++ >/dev/null || { $(SUDO) apt-get update -qq && \
+	  DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq --no-install-recommends clang >/dev/null; }
+	@cmake -S . -B $(FUZZ_BUILD) -G Ninja -DCMAKE_BUILD_TYPE=FuzzO1 -DCMAKE_CXX_FLAGS_FUZZO1=-O1 \
+	  -DCMAKE_CXX_COMPILER=clang++ -DBAYLINE_FUZZ=ON -DBAYLINE_BUILD_TESTS=OFF \
+	  -DBAYLINE_BUILD_BENCH=OFF >/dev/null
+	cmake --build $(FUZZ_BUILD) -j $(JOBS) --target bayline_fuzz_targets
+
+fuzz-short: fuzz-build
+	cd $(FUZZ_BUILD) && ctest --output-on-failure -L fuzz
+
+fuzz: fuzz-build
+	@set -e; for t in $(FUZZ_TARGETS); do \
+	  echo "== $$t: $(FUZZ_SECONDS) s"; \
+	  $(FUZZ_BUILD)/tests/fuzz/$$t -max_total_time=$(FUZZ_SECONDS) -timeout=10 -rss_limit_mb=2048 \
+	    -print_final_stats=1 -artifact_prefix=$(FUZZ_BUILD)/tests/fuzz/artifacts/$$t- \
+	    $(FUZZ_BUILD)/tests/fuzz/corpus/$$t tests/fuzz/corpus/$$t 2>&1 | \
+	    grep -E '^(#[0-9]+ +DONE|stat::|==[0-9]+==|SUMMARY|artifact_prefix|Test unit written)' || true; \
+	  ls $(FUZZ_BUILD)/tests/fuzz/artifacts/$$t-* >/dev/null 2>&1 && { echo "$$t: findings above"; exit 1; }; \
+	done; true

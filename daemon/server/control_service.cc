@@ -1,6 +1,7 @@
 #include "daemon/server/control_service.h"
 
 #include <algorithm>
+#include <limits>
 
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/routing.h"
@@ -23,11 +24,19 @@ ControlService::ControlService(const std::vector<std::unique_ptr<Worker>>& worke
 
 bayline::v1::Reply ControlService::HandleBytes(std::string_view bytes) {
   bayline::v1::Request request;
-  if (!request.ParseFromArray(bytes.data(), int(bytes.size()))) {
+  if (bytes.size() > size_t(std::numeric_limits<int>::max()) ||
+      !request.ParseFromArray(bytes.data(), int(bytes.size()))) {
+    CountRejected("malformed_request");
     return Error("malformed request: not a bayline.v1.Request (" + std::to_string(bytes.size()) +
                  " bytes)");
   }
   return Handle(request);
+}
+
+bayline::v1::Reply ControlService::RejectMultipart(size_t parts) {
+  CountRejected("multipart_request");
+  return Error("malformed request: " + std::to_string(parts) +
+               " message parts; a request is one part holding a bayline.v1.Request");
 }
 
 bayline::v1::Reply ControlService::Handle(const bayline::v1::Request& request) {
@@ -128,6 +137,9 @@ bayline::v1::Reply ControlService::Stats() {
     for (const auto& [reason, count] : c.rejected_by_reason) by_reason[reason] += count;
   }
   stats->set_snapshots_written(actions_.snapshots_written());
+  for (const auto& [reason, count] : rejected_by_reason_) {
+    (*stats->mutable_control_rejected_by_reason())[reason] = count;
+  }
   const double interval = std::chrono::duration<double>(now - last_stats_time_).count();
   if (interval > 0) {
     stats->set_observations_per_second(double(received - last_stats_observations_) / interval);

@@ -7,11 +7,14 @@
 //   reload   re-reads the config file; message lists what changed
 // Workers are asked by message passing (Worker::Call): nothing here touches a pipeline directly.
 // Errors (unknown channel, malformed request, failed snapshot or reload) are replies with
-// ok = false and `error` set; the daemon keeps running and nothing changes.
+// ok = false and `error` set; the daemon keeps running and nothing changes. Requests refused before
+// they reach an operation are counted by reason and reported by `stats`
+// (control_rejected_by_reason).
 // Thread safety: supervisor thread only.
 #pragma once
 
 #include <chrono>
+#include <map>
 #include <memory>
 #include <string>
 #include <string_view>
@@ -40,8 +43,13 @@ class ControlService {
                  Shard shard, DaemonActions& actions);
 
   bayline::v1::Reply Handle(const bayline::v1::Request& request);
-  // Decodes a request frame and handles it; a frame that does not decode gets an error reply.
+  // Decodes a request frame and handles it; a frame that does not decode gets an error reply
+  // (counted as malformed_request).
   bayline::v1::Reply HandleBytes(std::string_view bytes);
+  // The error reply to a request of `parts` > 1 message parts (counted as multipart_request).
+  bayline::v1::Reply RejectMultipart(size_t parts);
+  // Counts a request that failed on its socket (the daemon's own reasons, e.g. zmq_error).
+  void CountRejected(const std::string& reason) { ++rejected_by_reason_[reason]; }
 
  private:
   bayline::v1::Reply List(const std::string& glob);
@@ -57,6 +65,7 @@ class ControlService {
   const std::chrono::steady_clock::time_point started_ = std::chrono::steady_clock::now();
   std::chrono::steady_clock::time_point last_stats_time_ = started_;
   uint64_t last_stats_observations_ = 0;
+  std::map<std::string, uint64_t> rejected_by_reason_;
 };
 
 }  // namespace bayline::server

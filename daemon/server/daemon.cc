@@ -4,6 +4,7 @@
 #include <spdlog/spdlog.h>
 
 #include <algorithm>
+#include <cstdlib>
 #include <thread>
 
 #include "daemon/server/config_loader.h"
@@ -25,6 +26,8 @@ bool JournalPolicyOf(const bayline::v1::Journal& journal, JournalPolicy* policy)
   if (journal.sync_bytes() > 0) policy->sync_bytes = journal.sync_bytes();
   return true;
 }
+
+const char* SignalName(int signal) { return signal == SIGTERM ? "SIGTERM" : "SIGINT"; }
 
 std::string Join(const std::vector<std::string>& items) {
   std::string out;
@@ -112,14 +115,8 @@ bool Daemon::Start() {
     spdlog::error("{}", error);
     return false;
   }
-  control_ = std::make_unique<zmq::socket_t>(context_, zmq::socket_type::rep);
-  std::string control_endpoint;
-  try {
-    control_->set(zmq::sockopt::linger, 0);
-    control_->bind(config_.endpoints().control_bind());
-    control_endpoint = control_->get(zmq::sockopt::last_endpoint);
-  } catch (const zmq::error_t& e) {
-    spdlog::error("control_bind {}: {}", config_.endpoints().control_bind(), e.what());
+  if (!BindControl(config_.endpoints().control_bind(), &error)) {
+    spdlog::error("{}", error);
     return false;
   }
   control_service_ = std::make_unique<ControlService>(workers_, *ingest_, shard_, *this);
@@ -138,7 +135,7 @@ bool Daemon::Start() {
   std::vector<std::string> pulls(ingest_bound.begin(),
                                  ingest_bound.begin() + endpoints.pull_bind.size());
   spdlog::info("ready: pull={} sub={} publish={} control={} workers={} shard={}/{} state_dir={}",
-               Join(pulls), Join(endpoints.sub_connect), publish_endpoint, control_endpoint,
+               Join(pulls), Join(endpoints.sub_connect), publish_endpoint, control_endpoint_,
                worker_count, shard_.index, shard_.count, store_->dir().string());
   return true;
 }
@@ -146,30 +143,47 @@ bool Daemon::Start() {
 int Daemon::Run() {
   if (!Start()) return 1;
   Serve();
+  signals_.ForceExitOnStopSignal(ForcedExit);
   Shutdown();
   return 0;
 }
 
+void Daemon::ForcedExit(int signal) {
+  spdlog::warn("signal {} during shutdown: exiting now with code {}, without the final snapshot",
+               SignalName(signal), SignalWatcher::ForcedExitCode(signal));
+  std::_Exit(SignalWatcher::ForcedExitCode(signal));
+}
+
 void Daemon::Serve() {
-  zmq::pollitem_t items[] = {{control_->handle(), 0, ZMQ_POLLIN, 0},
-                             {nullptr, signals_.fd(), ZMQ_POLLIN, 0}};
-  const int count = signals_.fd() >= 0 ? 2 : 1;
   while (!stop_requested_) {
     const auto now = std::chrono::steady_clock::now();
     const auto wait = std::chrono::duration_cast<std::chrono::milliseconds>(next_snapshot_ - now);
-    zmq::poll(items, size_t(count), std::max(wait, std::chrono::milliseconds(0)));
-    if (count == 2 && (items[1].revents & ZMQ_POLLIN)) {
+    // Rebuilt each turn: HandleControl may have replaced the control socket (or, if that failed,
+    // left none; signals and snapshots still run).
+    zmq::pollitem_t items[] = {{nullptr, signals_.fd(), ZMQ_POLLIN, 0},
+                               {control_ ? control_->handle() : nullptr, 0, ZMQ_POLLIN, 0}};
+    const size_t first = signals_.fd() >= 0 ? 0 : 1;
+    const size_t end = control_ ? 2 : 1;
+    try {
+      zmq::poll(items + first, end - first, std::max(wait, std::chrono::milliseconds(0)));
+    } catch (const zmq::error_t& e) {
+      if (control_log_.Allow("poll")) spdlog::error("supervisor poll: {}", e.what());
+      continue;
+    }
+    if (first == 0 && (items[0].revents & ZMQ_POLLIN)) {
       for (int signal : signals_.TakePending()) {
         if (signal == SIGHUP) {
           std::string message;
           Reload(&message);
+        } else if (stop_requested_) {  // a second one read in the same batch
+          ForcedExit(signal);
         } else {
-          spdlog::info("signal {}: stopping", signal == SIGTERM ? "SIGTERM" : "SIGINT");
+          spdlog::info("signal {}: stopping (send it again to exit at once)", SignalName(signal));
           stop_requested_ = true;
         }
       }
     }
-    if (items[0].revents & ZMQ_POLLIN) HandleControl();
+    if (end == 2 && (items[1].revents & ZMQ_POLLIN)) HandleControl();
     if (!stop_requested_ && std::chrono::steady_clock::now() >= next_snapshot_) {
       bayline::v1::SnapshotInfo info;
       std::string error;
@@ -179,15 +193,46 @@ void Daemon::Serve() {
 }
 
 void Daemon::HandleControl() {
-  zmq::message_t request;
-  if (!control_->recv(request, zmq::recv_flags::dontwait)) return;
-  while (request.more()) {  // a REP request is one frame; drop any extra parts
-    zmq::message_t extra;
-    if (!control_->recv(extra, zmq::recv_flags::none)) break;
+  // A REP socket delivers a request's parts together and takes exactly one reply before its next
+  // receive: every part is read, and every request is answered (a request of several parts with
+  // an error). Nothing a peer sends makes the socket throw in that order; any ZeroMQ error that
+  // does occur is logged and counted, and the socket is replaced so that its next request starts
+  // in a known state.
+  try {
+    std::vector<zmq::message_t> parts;
+    for (;;) {
+      zmq::message_t part;
+      if (!control_->recv(part, zmq::recv_flags::dontwait)) break;
+      const bool more = part.more();
+      parts.push_back(std::move(part));
+      if (!more) break;
+    }
+    if (parts.empty()) return;  // woken without a request: nothing to answer
+    const bayline::v1::Reply reply = parts.size() == 1
+                                         ? control_service_->HandleBytes(parts[0].to_string_view())
+                                         : control_service_->RejectMultipart(parts.size());
+    const std::string bytes = reply.SerializeAsString();
+    control_->send(zmq::buffer(bytes), zmq::send_flags::none);  // REP: never blocks
+  } catch (const zmq::error_t& e) {
+    control_service_->CountRejected("zmq_error");
+    if (control_log_.Allow("zmq_error")) spdlog::error("control socket: {}", e.what());
+    std::string error;
+    if (!BindControl(control_endpoint_, &error)) spdlog::error("control socket: {}", error);
   }
-  const bayline::v1::Reply reply = control_service_->HandleBytes(request.to_string_view());
-  const std::string bytes = reply.SerializeAsString();
-  control_->send(zmq::buffer(bytes), zmq::send_flags::none);
+}
+
+bool Daemon::BindControl(const std::string& endpoint, std::string* error) {
+  try {
+    control_.reset();  // an old socket closes before its endpoint is bound again
+    control_ = std::make_unique<zmq::socket_t>(context_, zmq::socket_type::rep);
+    control_->set(zmq::sockopt::linger, 0);
+    control_->bind(endpoint);
+    control_endpoint_ = control_->get(zmq::sockopt::last_endpoint);
+  } catch (const zmq::error_t& e) {
+    *error = "control_bind " + endpoint + ": " + e.what();
+    return false;
+  }
+  return true;
 }
 
 bool Daemon::ReplayJournal(uint64_t covered, std::string* error) {

@@ -11,7 +11,8 @@
 // journal segment there, so a snapshot holds exactly the segments before it.
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
 // queues and send their last publications, a snapshot is written, the threads end, the PUB socket
-// lingers (up to 1 s) until connected subscribers have them, exit 0.
+// lingers (up to 1 s) until connected subscribers have them, exit 0. A second SIGTERM / SIGINT
+// before that ends the process at once with 128 + the signal's number (signals.h).
 #pragma once
 
 #include <chrono>
@@ -26,6 +27,7 @@
 #include "daemon/server/ingest.h"
 #include "daemon/server/journal.h"
 #include "daemon/server/publisher.h"
+#include "daemon/server/rate_limited_log.h"
 #include "daemon/server/signals.h"
 #include "daemon/server/snapshot_file.h"
 #include "daemon/server/worker.h"
@@ -48,7 +50,11 @@ class Daemon : public DaemonActions {
   bool Start();  // everything up to the threads running; false: logged, exit 1
   void Serve();  // the supervisor loop
   void Shutdown();
+  // Logs and ends the process at once (SignalWatcher::ForcedExitCode): a second SIGTERM/SIGINT.
+  [[noreturn]] static void ForcedExit(int signal);
   void HandleControl();
+  // (Re)creates the control socket bound to `endpoint`; sets control_endpoint_ to the resolved one.
+  bool BindControl(const std::string& endpoint, std::string* error);
   void ApplyRuntimeSettings();
   // Start-up, workers running, ingest not yet: replays the journal segments from `covered` on
   // (those the restored snapshot does not hold), then opens the next segment when the journal is
@@ -67,6 +73,8 @@ class Daemon : public DaemonActions {
   std::unique_ptr<JournalWriter> journal_;  // null when the journal is off
   uint64_t journal_next_segment_ = 0;       // first segment no snapshot covers yet
   std::unique_ptr<zmq::socket_t> control_;
+  std::string control_endpoint_;  // resolved (a port of 0 or `*` made concrete)
+  RateLimitedLog control_log_;
   std::unique_ptr<ControlService> control_service_;
   uint64_t snapshots_written_ = 0;
   std::chrono::steady_clock::duration snapshot_period_{};

@@ -29,7 +29,8 @@ constexpr const char* kFooter =
     "written there every snapshot_every_s seconds (default 60), on the control request\n"
     "`snapshot` and at shutdown; the newest two are kept and the newest good one is restored at\n"
     "start (a damaged newest file is logged and the previous one used).\n"
-    "Signals: SIGTERM/SIGINT stop ingest, drain the workers, write a snapshot and exit 0.\n"
+    "Signals: SIGTERM/SIGINT stop ingest, drain the workers, write a snapshot and exit 0;\n"
+    "a second one during that exits at once with 128 + its number (no final snapshot).\n"
     "SIGHUP re-reads the config file (rules, log_level, snapshot_every_s); channels whose spec\n"
     "changed are reset with a warning; an invalid file is rejected and the old config kept.\n"
     "Exit codes: 0 clean stop, 1 invalid configuration or start-up failure, 2 bad command line.";

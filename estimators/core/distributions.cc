@@ -46,6 +46,11 @@ constexpr double kStudentTCornishFisherDof = 250.0;
 // (plain Newton when |s L / 2| > 1/2, far from the root) are kept inside a bracket that every
 // evaluation tightens; a step that leaves the bracket (or a zero density) is replaced by bisection,
 // or by expansion toward an infinite end.
+// Failure result: NaN when an evaluation of the distribution function is NaN, or when no
+// stopping rule is met within kMaxQuantileSteps steps and the bracket still has an infinite end;
+// with a finite bracket the last iterate is returned (every step tightens the bracket, and 400
+// halvings leave it below 2^-400 of its start: the case of a quantile that underflows to 0).
+constexpr int kMaxQuantileSteps = 400;
 template <typename Cdf, typename Sf, typename LogPdf, typename DLogPdf>
 double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf, double x,
                      double lo, double hi) {
@@ -74,8 +79,9 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf,
   constexpr double kResidualDone = 1e-7, kHalleyDone = 1e-5;
   constexpr double kNewtonDone = 1e-10, kNoiseFloor = 1e-8;
   double last_newton = kInf;  // relative size of the last Newton step, kInf after a bisection
-  for (int i = 0; i < 400; ++i) {
+  for (int i = 0; i < kMaxQuantileSteps; ++i) {
     const double gx = g(x);
+    if (std::isnan(gx)) return kNaN;  // the distribution function failed (special_functions.h)
     if (gx == 0.0) return x;
     if (gx < 0.0) a = x; else b = x;
     const double density = std::exp(log_pdf(x));
@@ -108,7 +114,10 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf,
     if (std::isfinite(a) && std::isfinite(b) && (b - a) <= 1e-300) return next;
     x = next;
   }
-  return x;
+  // Not converged in kMaxQuantileSteps: x lies in a finite bracket that bisection has narrowed
+  // (for a root at an end of the support that underflows, x is as close to it as doubles allow);
+  // with an open end there is no such bound.
+  return std::isfinite(a) && std::isfinite(b) ? x : kNaN;
 }
 
 }  // namespace

@@ -10,6 +10,10 @@
 // computed in a small per-thread memo (core/quantile_memo.h), since reports of many channels ask
 // for the same (p, dof): a repeated call returns the identical value without the iteration.
 // p must be in [0, 1] (0 and 1 give the ends of the support).
+// Failure result: every function ends after a bounded amount of work (special_functions.h; the
+// quantile iteration takes at most 400 steps) and returns NaN when its parameters are outside the
+// domain or when the computation fails (a special function's NaN, an iteration that does not
+// converge: e.g. a beta or gamma with a parameter near 1e300). Callers treat NaN as "no value".
 #pragma once
 
 namespace bayline::est::dist {

@@ -43,12 +43,14 @@ double LogGammaPrefactor(double a, double x) {
 }
 
 // b_0 + a_1 / (b_1 + a_2 / (b_2 + ...)) by the modified Lentz method; term(n) returns {a_n, b_n}
-// for n >= 1. Stops when a step changes the value by less than kEps relative.
+// for n >= 1. Stops when a step changes the value by less than kEps relative. NaN when the value
+// turns non-finite (it cannot recover) or has not converged after kMaxIterations terms.
 template <typename Term>
 double EvaluateContinuedFraction(double b0, Term term) {
   double f = std::fabs(b0) < kTiny ? kTiny : b0;
   double c = f, d = 0.0;
-  for (int n = 1; n < kMaxIterations; ++n) {
+  for (int n = 1;; ++n) {
+    if (n >= kMaxIterations || !std::isfinite(f)) return kNaN;
     const auto [an, bn] = term(n);
     d = bn + an * d;
     if (std::fabs(d) < kTiny) d = kTiny;
@@ -62,12 +64,14 @@ double EvaluateContinuedFraction(double b0, Term term) {
   return f;
 }
 
-// P(a, x) by its series; converges for any x but fast only for x < a + 1.
+// P(a, x) by its series; converges for any x but fast only for x < a + 1. NaN when the sum turns
+// non-finite or has not converged after kMaxIterations terms.
 double GammaPSeries(double a, double x) {
   double term = 1.0 / a;
   double sum = term;
   double ap = a;
-  for (int n = 0; n < kMaxIterations; ++n) {
+  for (int n = 0;; ++n) {
+    if (n >= kMaxIterations || !std::isfinite(sum)) return kNaN;
     ap += 1.0;
     term *= x / ap;
     sum += term;
@@ -107,6 +111,8 @@ double GammaPBelowTransition(double a, double x) {
 }
 
 // Continued fraction for I_x(a, b) without its prefactor; fast for x < (a + 1) / (a + b + 2).
+// NaN when the value turns non-finite (e.g. a or b near the largest double) or has not converged
+// after kMaxIterations steps.
 double BetaContinuedFraction(double a, double b, double x) {
   const double qab = a + b, qap = a + 1.0, qam = a - 1.0;
   double c = 1.0;
@@ -114,7 +120,8 @@ double BetaContinuedFraction(double a, double b, double x) {
   if (std::fabs(d) < kTiny) d = kTiny;
   d = 1.0 / d;
   double h = d;
-  for (int m = 1; m < kMaxIterations; ++m) {
+  for (int m = 1;; ++m) {
+    if (m >= kMaxIterations || !std::isfinite(h)) return kNaN;
     const int m2 = 2 * m;
     double aa = m * (b - m) * x / ((qam + m2) * (a + m2));
     d = 1.0 + aa * d;
@@ -135,6 +142,10 @@ double BetaContinuedFraction(double a, double b, double x) {
   }
   return h;
 }
+
+// Rounding can carry a probability a few ulps outside [0, 1] (P slightly above 1 at tiny a);
+// NaN stays NaN.
+double ClampProbability(double p) { return p < 0.0 ? 0.0 : (p > 1.0 ? 1.0 : p); }
 
 }  // namespace
 
@@ -193,18 +204,16 @@ double GammaP(double a, double x) {
   if (!(a > 0) || !(x >= 0)) return kNaN;
   if (x == 0) return 0.0;
   if (std::isinf(x)) return 1.0;
-  if (x < a + 1.0)
-    return GammaPBelowTransition(a, x);
-  return 1.0 - GammaQContinuedFraction(a, x);
+  if (x < a + 1.0) return ClampProbability(GammaPBelowTransition(a, x));
+  return ClampProbability(1.0 - GammaQContinuedFraction(a, x));
 }
 
 double GammaQ(double a, double x) {
   if (!(a > 0) || !(x >= 0)) return kNaN;
   if (x == 0) return 1.0;
   if (std::isinf(x)) return 0.0;
-  if (x < a + 1.0)
-    return 1.0 - GammaPBelowTransition(a, x);
-  return GammaQContinuedFraction(a, x);
+  if (x < a + 1.0) return ClampProbability(1.0 - GammaPBelowTransition(a, x));
+  return ClampProbability(GammaQContinuedFraction(a, x));
 }
 
 double BetaIWithComplement(double a, double b, double x, double y, bool complement) {
@@ -222,12 +231,14 @@ double BetaIWithComplement(double a, double b, double x, double y, bool compleme
   const double log_x = y < 0.5 ? std::log1p(-y) : std::log(x);
   const double log_y = x < 0.5 ? std::log1p(-x) : std::log(y);
   const double log_front = a * log_x + b * log_y - LogBeta(a, b);
+  // a or b so large that log B(a, b) overflows (-infinity is an underflowing prefactor: 0).
+  if (std::isnan(log_front) || log_front == std::numeric_limits<double>::infinity()) return kNaN;
   if (x < x_side_scale * (a + 1.0) / (a + b + 2.0)) {
     const double v = std::exp(log_front) * BetaContinuedFraction(a, b, x) / a;  // I_x(a, b)
-    return complement ? 1.0 - v : v;
+    return ClampProbability(complement ? 1.0 - v : v);
   }
   const double w = std::exp(log_front) * BetaContinuedFraction(b, a, y) / b;  // 1 - I_x(a, b)
-  return complement ? w : 1.0 - w;
+  return ClampProbability(complement ? w : 1.0 - w);
 }
 
 double BetaI(double a, double b, double x) { return BetaIWithComplement(a, b, x, 1.0 - x, false); }

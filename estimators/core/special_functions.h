@@ -3,6 +3,15 @@
 // Accuracy: about 1e-14 relative over the ranges the estimators use; see
 // tests/reference/core (checked against scipy.special). Arguments outside a function's domain give
 // NaN (these are internal building blocks; callers validate user input first).
+//
+// Every function ends after a bounded amount of work, whatever its arguments (NaN, 1e-300, 1e300,
+// infinities). The iterative ones (GammaP, GammaQ, BetaI, BetaIWithComplement: a series or a
+// continued fraction) stop after at most 100000 terms; when a sum or fraction has not converged
+// by then, or turns non-finite on the way (parameters near the largest double), the result is NaN:
+// the documented failure result, which callers must treat as "no value". Digamma and Trigamma
+// shift the argument upward at most 12 times. Results that are probabilities lie in [0, 1] or are
+// NaN. With both beta parameters above about 1e10 the rounding of the log prefactor
+// (~ a * 1e-16) limits I_x to about 1e-6 absolute (1e-4 at 1e13): usable for intervals, not more.
 #pragma once
 
 namespace bayline::est::special {

@@ -189,7 +189,7 @@ namespace {
 template <typename Chart, typename Options>
 double SimulateArl(const Options& o, double shift, const SimulationBudget& b) {
   if (!o.Validate().ok() || !std::isfinite(shift) || b.runs < 1) return kNaN;
-  const double cap = b.max_length > 0 ? b.max_length : 1e7;
+  const double cap = b.max_length > 0 ? std::min(b.max_length, kMaxSimulatedRunLength) : 1e7;
   std::mt19937_64 rng(b.seed);
   std::normal_distribution<double> normal(shift, 1.0);
   Chart chart(o);

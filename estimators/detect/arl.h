@@ -63,7 +63,11 @@ struct SimulationBudget {
   int runs = 4000;             // simulated run lengths; relative standard error about 1/sqrt(runs)
   std::uint64_t seed = 20260;  // mt19937_64 seed: results are reproducible
   double max_length = 1e7;     // a run still going at this length is counted as this length
+                               // (at most kMaxSimulatedRunLength; <= 0 or NaN: the default)
 };
+// Upper bound of max_length: every simulated run ends after at most this many steps, so a
+// simulation's work is bounded whatever the budget (beyond 2^53 a step count would stop growing).
+inline constexpr double kMaxSimulatedRunLength = 1e9;
 
 // Monte Carlo ARL (mean of `runs` first alarm times) for any chart in this library at `shift`.
 double SimulatePageHinkleyArl(const PageHinkleyOptions& o, double shift, const SimulationBudget& b = {});

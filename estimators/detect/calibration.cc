@@ -61,7 +61,9 @@ bool SolveIncreasing(Arl arl, double target, double x0, double* out) {
 template <typename Chart, typename Options>
 bool SimulatedThreshold(const Options& chart_options, double arl0, const SimulationBudget& budget,
                         double guess, double grow, double* out) {
-  const double cap = std::min(budget.max_length > 0 ? budget.max_length : 1e7, 50.0 * arl0);
+  const double cap = std::min(
+      budget.max_length > 0 ? std::min(budget.max_length, kMaxSimulatedRunLength) : 1e7,
+      50.0 * arl0);
   std::vector<double> value, time;       // records of all runs, flat
   std::vector<std::size_t> start(1, 0);  // run r's records are [start[r], start[r + 1])
   auto simulate = [&](int runs, double h_hi) {
@@ -216,7 +218,9 @@ Status CalibrateEwma(const AlarmTarget& target, EwmaOptions* options, const ArlA
   double a = std::log(0.02), b = 0.0;
   double c = b - phi * (b - a), d = a + phi * (b - a);
   double fc = arl_at_shift(c), fd = arl_at_shift(d);
-  while (!failed && b - a > 0.03) {
+  // Each step keeps 0.618 of [a, b]: from its width 3.9 to 0.03 takes 11 steps; the bound only
+  // guards against a NaN comparison.
+  for (int step = 0; step < 100 && !failed && b - a > 0.03; ++step) {
     if (fc < fd) {
       b = d, d = c, fd = fc;
       c = b - phi * (b - a);

@@ -1,3 +1,9 @@
+// Every search here takes a bounded number of steps (bracketing 60 + 60, regula falsi 100,
+// golden section 100, simulated bracket growth 40 + 40, bisection 100 + 200; simulated runs end at
+// kMaxSimulatedRunLength). Failure result: kNumericalFailure (options unchanged) when no bracket or
+// no finite ARL is found within them; a root search that reaches its bound inside a bracket
+// returns the bracket's middle.
+//
 // Threshold calibration: from the false-alarm rate a user can live with (an in-control ARL, ARL0:
 // "one false alarm per 500 readings") and the shift they must catch (D, sd units) to each chart's
 // raw options, plus the ARL the result achieves at other shifts.

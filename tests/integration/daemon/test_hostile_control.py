@@ -1,0 +1,75 @@
+"""Hostile requests on the control socket: each gets an error reply (or, when valid, its answer), is
+counted by reason in `stats`, and the daemon keeps serving."""
+import zmq
+
+from bayline.v1 import control_pb2
+from conftest import TIMEOUT_S, frame, obs
+
+
+def exchange(d, parts):
+    """Sends one request of the given message parts on a plain REQ socket; returns the reply."""
+    s = d.ctx.socket(zmq.REQ)
+    s.setsockopt(zmq.LINGER, 0)
+    s.setsockopt(zmq.RCVTIMEO, int(TIMEOUT_S * 1000))
+    s.connect(d.control)
+    try:
+        s.send_multipart(parts)
+        reply = control_pb2.Reply()
+        reply.ParseFromString(s.recv())
+        return reply
+    finally:
+        s.close()
+
+
+def stats_request():
+    req = control_pb2.Request()
+    req.stats.SetInParent()
+    return req.SerializeToString()
+
+
+def feed_one(d):
+    push = d.pusher()
+    push.send(frame(obs("coldstore/freezer1/probe1", y=1.5, seq=1)))
+    d.wait_handled(1)
+    return push
+
+
+def test_two_part_request_gets_an_error_and_the_daemon_keeps_answering(daemons):
+    d = daemons().start()
+    feed_one(d)
+    before = d.ask("coldstore/freezer1/probe1").SerializeToString()  # bytes: NaN fields compare
+    for _ in range(3):  # the same hostile request again and again: each one answered
+        reply = exchange(d, [stats_request(), stats_request()])
+        assert not reply.ok
+        assert "2 message parts" in reply.error
+    reply = exchange(d, [b"", b"\x01", stats_request()])
+    assert not reply.ok and "3 message parts" in reply.error
+    st = d.stats()
+    assert st.control_rejected_by_reason["multipart_request"] == 4
+    assert st.observations_accepted == 1
+    assert d.ask("coldstore/freezer1/probe1").SerializeToString() == before
+    assert d.proc.poll() is None
+
+
+def test_garbage_empty_and_huge_requests_are_answered(daemons):
+    d = daemons().start()
+    feed_one(d)
+    garbage = [b"\xff\xff\xff", b"\x0a\xff\xff\xff\xff\xff\xff\xff\xff\xff\x01", b"\x00" * 7]
+    for data in garbage:
+        reply = d.request_raw(data)
+        assert not reply.ok and "malformed request" in reply.error
+    # An empty frame decodes as a Request with no operation set.
+    reply = d.request_raw(b"")
+    assert not reply.ok and "empty request" in reply.error
+    # A large frame: 16 MiB of garbage, and a valid request carrying a 1 MiB glob.
+    reply = d.request_raw(b"\xfe" * (16 << 20))
+    assert not reply.ok and "malformed request" in reply.error
+    req = control_pb2.Request()
+    req.list.glob = "coldstore/" + "*" * (1 << 20)
+    reply = d.request_raw(req.SerializeToString())
+    assert reply.ok, reply.error
+    st = d.stats()
+    assert st.control_rejected_by_reason["malformed_request"] == len(garbage) + 1
+    assert "multipart_request" not in st.control_rejected_by_reason
+    assert st.observations_accepted == 1
+    assert d.proc.poll() is None
