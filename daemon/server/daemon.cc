@@ -57,22 +57,9 @@ bool Daemon::Start() {
   }
   const size_t worker_count =
       config_.workers() > 0 ? config_.workers() : std::max(1u, std::thread::hardware_concurrency());
-  // Every pipeline keeps all it is given: routing (and the shard) is the daemon's job.
-  std::vector<std::unique_ptr<pipeline::Pipeline>> pipelines(worker_count);
-  for (auto& p : pipelines) p = std::make_unique<pipeline::Pipeline>(config_);
-  const RestoreOutcome restored = RestoreNewestGood(*store_, config_, shard_, &pipelines);
-  for (const auto& why : restored.skipped) spdlog::error("snapshot not used: {}", why);
-  for (const auto& name : restored.reset_channels) {
-    spdlog::warn("channel \"{}\" restarts from its rule: its spec changed since the snapshot", name);
-  }
-  if (restored.path.empty()) {
-    spdlog::info("no usable snapshot in {}: starting empty", store_->dir().string());
-  } else {
-    spdlog::info("restored {} channels from {}{}", restored.channels, restored.path,
-                 restored.other_shard ? " (" + std::to_string(restored.other_shard) +
-                                            " channels of other shards ignored)"
-                                      : std::string());
-  }
+  std::vector<std::unique_ptr<pipeline::Pipeline>> pipelines =
+      MakeWorkerPipelines(config_, worker_count);
+  if (!RestoreAtStart(*store_, config_, shard_, options_.strict_state, &pipelines)) return false;
 
   publisher_ = std::make_unique<Publisher>(context_);
   std::string publish_endpoint;
@@ -121,8 +108,7 @@ bool Daemon::Start() {
 int Daemon::Run() {
   if (!Start()) return 1;
   Serve();
-  Shutdown();
-  return 0;
+  return Shutdown() ? 0 : kExitFinalSnapshotFailed;
 }
 
 void Daemon::Serve() {
@@ -222,13 +208,25 @@ bool Daemon::Reload(std::string* message) {
   return true;
 }
 
-void Daemon::Shutdown() {
+bool Daemon::Shutdown() {
   ingest_->Stop();  // hands its partial batches to the workers
   bayline::v1::SnapshotInfo info;
   std::string error;
-  SnapshotNow(&info, &error);  // queued behind every batch: the workers drain first
+  // Queued behind every batch: the workers drain first.
+  const bool saved = WriteSnapshot(workers_, *store_, config_, &info, &error);
   for (auto& w : workers_) w->Stop();  // each sends its last publications before it ends
+  if (!saved) {
+    spdlog::error(
+        "final snapshot failed: {}; the next start restores the newest snapshot left "
+        "in {}",
+        error, store_->dir().string());
+    spdlog::info("stopped (exit {})", kExitFinalSnapshotFailed);
+    return false;
+  }
+  ++snapshots_written_;
+  spdlog::info("snapshot {}: {} channels, {} bytes", info.path(), info.channels(), info.bytes());
   spdlog::info("stopped");
+  return true;
 }
 
 }  // namespace bayline::server

@@ -7,7 +7,8 @@
 // a thread starts) -> threads started -> "ready" log line with every resolved endpoint.
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
 // queues and send their last publications, a snapshot is written, the threads end, the PUB socket
-// lingers (up to 1 s) until connected subscribers have them, exit 0.
+// lingers (up to 1 s) until connected subscribers have them, exit 0 (kExitFinalSnapshotFailed when
+// the final snapshot could not be written: the state since the last snapshot is lost).
 #pragma once
 
 #include <zmq.hpp>
@@ -43,7 +44,7 @@ class Daemon : public DaemonActions {
  private:
   bool Start();  // everything up to the threads running; false: logged, exit 1
   void Serve();  // the supervisor loop
-  void Shutdown();
+  bool Shutdown();  // false: the final snapshot failed (logged)
   void HandleControl();
   void ApplyRuntimeSettings();
 

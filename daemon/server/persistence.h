@@ -2,9 +2,18 @@
 // start-up.
 //
 // The payload is a bayline.v1.Snapshot (written by the pipeline library); the file container
-// (header, checksums, atomic replacement, rotation) is snapshot_file.h's.
+// (header, checksums, atomic replacement, rotation) is snapshot_file.h's. A snapshot holds the
+// channels of every worker in one list, so it restores whatever the worker count: each channel goes
+// to the worker that owns it under the current routing (routing.h), and the workers' pipelines
+// share one channel budget (limits.max_channels is per daemon, channel_budget.h).
+//
+// Damaged state is never lost quietly: a snapshot file that cannot be restored is logged at error
+// level and moved into `damaged/` in the state directory (out of rotation, never pruned), and
+// starting empty although snapshot files existed is an error-level log line; with --strict-state
+// the daemon refuses to start instead and leaves every file where it is.
 #pragma once
 
+#include <filesystem>
 #include <memory>
 #include <string>
 #include <vector>
@@ -20,16 +29,22 @@ namespace bayline::server {
 
 // Asks every worker for its channels (a task queued behind the work already handed to it, so the
 // snapshot reflects every observation ingested before the call) and writes one snapshot file.
-// Supervisor thread only. On failure returns false with *error; files on disk are untouched.
+// Supervisor thread only. On failure returns false with *error (naming how many channels were
+// not saved; info->channels() holds that count); files on disk are untouched.
 bool WriteSnapshot(const std::vector<std::unique_ptr<Worker>>& workers, SnapshotStore& store,
                    const bayline::v1::DaemonConfig& config, bayline::v1::SnapshotInfo* info,
                    std::string* error);
+
+// One pipeline per worker, all sharing one pipeline::ChannelBudget of limits.max_channels.
+std::vector<std::unique_ptr<pipeline::Pipeline>> MakeWorkerPipelines(
+    const bayline::v1::DaemonConfig& config, size_t workers);
 
 struct RestoreOutcome {
   std::string path;                        // file restored; empty when starting empty
   uint64_t channels = 0;                   // channels restored
   uint64_t other_shard = 0;                // channels in the file that belong to other shards
   std::vector<std::string> skipped;        // newer files not used, each with the reason
+  std::vector<std::filesystem::path> unusable;  // those files, in the same order
   std::vector<std::string> reset_channels; // restored as new because their spec changed
 };
 
@@ -40,5 +55,14 @@ struct RestoreOutcome {
 RestoreOutcome RestoreNewestGood(const SnapshotStore& store, const bayline::v1::DaemonConfig& config,
                                  const Shard& shard,
                                  std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines);
+
+// Start-up: RestoreNewestGood, and the log lines that say what happened. Every file not used is
+// logged at error level and moved into damaged/ (unless refusing to start). When files existed and
+// none was restored: with `strict_state` logs the refusal and returns false (the caller exits 1,
+// nothing on disk changed); otherwise logs at error level that the daemon starts empty and where
+// the files went. Returns true to go on.
+bool RestoreAtStart(SnapshotStore& store, const bayline::v1::DaemonConfig& config,
+                    const Shard& shard, bool strict_state,
+                    std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines);
 
 }  // namespace bayline::server
