@@ -8,10 +8,11 @@
 // One block per channel means one allocation when a channel is created, a stable address for its
 // lifetime (the registry moves only pointers), and few cache lines to touch per observation: the
 // name the registry compares sits right after the header, the estimators right after the name.
-// A gaussian channel with the default rule and a 28-byte name takes 848 bytes: 104 (header)
-// + 32 (name) + 208 + 80 + 192 (ls, ml, map: each 8 bytes of kind + the estimator) + 224 (the CUSUM
-// slot with its standardizer), rounded to 16; about 890 bytes resident per channel with the malloc
-// header and the registry's slots (tests/bench/pipeline measures it).
+// A gaussian channel with the default rule and a 28-byte name takes 864 bytes: 120 (header, of
+// which 32 the sequence window) + 32 (name) + 208 + 80 + 192 (ls, ml, map: each 8 bytes of kind +
+// the estimator) + 224 (the CUSUM slot with its standardizer), rounded to 16; about 905 bytes
+// resident per channel with the malloc header and the registry's slots (tests/bench/pipeline
+// measures it).
 //
 // Create builds a channel for a resolved spec; the ChannelPtr destroys it. Not copyable or movable.
 #pragma once

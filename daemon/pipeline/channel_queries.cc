@@ -80,6 +80,7 @@ std::optional<bayline::v1::ChannelReport> PipelineState::Ask(std::string_view ch
 
 bool PipelineState::Reset(std::string_view channel) {
   const bool erased = channels_.Erase(channel);
+  if (erased) budget_->Release();
   counters_.channels = channels_.size();
   return erased;
 }
@@ -112,10 +113,13 @@ est::Status PipelineState::Reconfigure(const bayline::v1::DaemonConfig& config,
 
   config_ = config;
   limits_ = LimitsOf(config);
+  budget_->set_limit(limits_.max_channels);
   rules_ = std::move(rules);
   for (auto& [ch, spec] : keep) ch->spec = std::move(spec);  // same content, new rule name
   std::sort(drop.begin(), drop.end());
-  for (const auto& name : drop) channels_.Erase(name);
+  for (const auto& name : drop) {
+    if (channels_.Erase(name)) budget_->Release();
+  }
   counters_.channels = channels_.size();
   if (reset != nullptr) reset->insert(reset->end(), drop.begin(), drop.end());
   return est::Status::Ok();

@@ -21,13 +21,25 @@ EffectiveLimits LimitsOf(const bayline::v1::DaemonConfig& config) {
 }
 
 PipelineState::PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                             uint32_t partition_count)
+                             uint32_t partition_count, std::shared_ptr<ChannelBudget> budget)
     : config_(config),
       limits_(LimitsOf(config)),
       partition_index_(partition_index),
-      partition_count_(partition_count == 0 ? 1 : partition_count) {
-  (void)rules_.Build(config_);  // a rule failing calibration rejects its channels (pipeline.h)
+      partition_count_(partition_count == 0 ? 1 : partition_count),
+      budget_(budget != nullptr ? std::move(budget)
+                                : std::make_shared<ChannelBudget>(limits_.max_channels)) {
+  budget_->set_limit(limits_.max_channels);
+  (void)rules_.Build(config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
   x_full_.reserve(limits_.max_regressors + 1);
+}
+
+PipelineState::~PipelineState() { budget_->Release(channels_.size()); }
+
+void PipelineState::RejectChannelLimit(const bayline::v1::Observation& obs, int64_t time_ns,
+                                       PublicationSink& sink) {
+  publisher_.InputError(sink, obs.channel(), obs.seq(), time_ns, "channel_limit",
+                        "channel limit of " + std::to_string(budget_->limit()) +
+                            " reached; new channels are refused");
 }
 
 est::Sample PipelineState::BuildSample(const ResolvedSpec& spec,
@@ -71,10 +83,8 @@ std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
                           "no rule matches channel \"" + name + "\"");
     return nullptr;
   }
-  if (channels_.size() >= limits_.max_channels) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "channel_limit",
-                          "channel limit of " + std::to_string(limits_.max_channels) +
-                              " reached; new channels are refused");
+  if (!budget_->HasRoom()) {
+    RejectChannelLimit(obs, time_ns, sink);
     return nullptr;
   }
   std::shared_ptr<const ResolvedSpec> spec;
@@ -184,10 +194,16 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
   }
 
   const SeqWindow window = ch != nullptr ? ch->seq : SeqWindow{};
-  const uint64_t seq = obs.seq() != 0 ? obs.seq() : window.last + 1;
+  const uint64_t seq = window.Numbered(obs.seq());
   const SeqClass seq_class = window.Classify(seq);
   if (seq_class == SeqClass::kDuplicate) {
     ++counters_.seq_duplicates;
+    return;
+  }
+  if (seq_class == SeqClass::kTooOld || seq_class == SeqClass::kImplausible) {
+    if (ch != nullptr) ch->seq.Refuse(seq);  // only the re-synchronisation run changes
+    publisher_.InputError(sink, name, seq, time_ns, SeqRefusalReason(seq_class),
+                          window.Explain(seq));
     return;
   }
 
@@ -198,6 +214,10 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
       publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
       return;
     }
+    if (!budget_->TryReserve()) {  // another worker took the last unit since ResolveNewChannel
+      RejectChannelLimit(obs, time_ns, sink);
+      return;
+    }
     ch = channels_.InsertOrReplace(std::move(fresh));
     counters_.channels = channels_.size();
   } else if (est::Status s = UpdateEstimators(*ch, sample); !s.ok()) {
@@ -205,8 +225,8 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
     return;
   }
 
-  ch->seq.Accept(seq);
-  if (seq_class == SeqClass::kGap) ++counters_.seq_gaps;
+  ch->seq.Accept(seq, seq_class);
+  if (seq_class == SeqClass::kGap || seq_class == SeqClass::kRestart) ++counters_.seq_gaps;
   if (seq_class == SeqClass::kLate) ++counters_.seq_reordered;
   ++ch->accepted;
   ++counters_.accepted;
@@ -340,8 +360,9 @@ void PipelineState::RejectFrame(std::string_view reason, std::string_view detail
 // ---- Pipeline: forwards to PipelineState.
 
 Pipeline::Pipeline(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                   uint32_t partition_count)
-    : state_(std::make_unique<PipelineState>(config, partition_index, partition_count)) {}
+                   uint32_t partition_count, std::shared_ptr<ChannelBudget> channel_budget)
+    : state_(std::make_unique<PipelineState>(config, partition_index, partition_count,
+                                             std::move(channel_budget))) {}
 Pipeline::~Pipeline() = default;
 
 void Pipeline::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
@@ -373,6 +394,9 @@ std::optional<bayline::v1::ChannelReport> Pipeline::Ask(std::string_view channel
 }
 bool Pipeline::Reset(std::string_view channel) { return state_->Reset(channel); }
 const Counters& Pipeline::counters() const { return state_->counters(); }
+const std::shared_ptr<ChannelBudget>& Pipeline::channel_budget() const {
+  return state_->channel_budget();
+}
 void Pipeline::SaveChannels(bayline::v1::Snapshot* out) const { state_->SaveChannels(out); }
 est::Status Pipeline::RestoreChannels(const bayline::v1::Snapshot& in,
                                       std::vector<std::string>* reset_channels,

@@ -17,7 +17,10 @@
 //   3. validate the values against every estimator and detector of the channel BEFORE any of them
 //      is updated (non_finite, wrong_regressor_count, out_of_domain, invalid_weight); a rejected
 //      observation publishes exactly one InputError and changes no state at all;
-//   4. check seq: a duplicate is dropped and counted (no InputError); gaps and reordering counted;
+//   4. check seq (seq_window.h): a duplicate is dropped and counted (no InputError); gaps and
+//      reordering counted; a number the window cannot place is refused (implausible_seq: 0 after
+//      numbering, above 2^63-1, or more than 2^32 ahead; seq_too_old: more than 63 behind), and a
+//      run of 4 such consecutive numbers restarts the window (counted as a gap);
 //   5. update every estimator (if one reports a numerical failure, the ones already updated are
 //      rolled back and an InputError "numerical_failure" is published);
 //   6. feed each detector its standardized innovation; publish alarm transitions immediately and,
@@ -27,10 +30,14 @@
 // that can predict, nothing changes (unknown channel: InputError "unknown_channel").
 //
 // Sequence numbers: the channel keeps the highest seq accepted and a 64-bit bitmap of the 64
-// numbers up to it. seq 0 means "unnumbered" (numbered last_seq + 1). A seq above the highest is
-// new (a jump by more than one counts one gap); a seq inside the window is a duplicate if its bit is
-// set, else a late arrival (counted as reordered and absorbed); a seq more than 63 below the
-// highest cannot be told from a re-sent duplicate and is dropped as a duplicate.
+// numbers up to it. seq 0 means "unnumbered" (numbered last_seq + 1). A seq up to 2^32 above the
+// highest is new (a jump by more than one counts one gap); a seq inside the window is a duplicate
+// if its bit is set, else a late arrival (counted as reordered and absorbed); a seq more than 63
+// below the highest cannot be told from a re-sent duplicate and is refused (seq_too_old), as is a
+// seq beyond 2^63-1 or more than 2^32 ahead (implausible_seq). Four refused numbers in a row that
+// continue one another restart the window at the fourth, so no single observation can jam a
+// channel (seq_window.h has the rule and its price). A refused number changes no channel state
+// except that run.
 //
 // Time: Observation.time_ns, else the arrival time; estimators see seconds since the epoch.
 //
@@ -54,6 +61,7 @@
 #include "bayline/v1/observation.pb.h"
 #include "bayline/v1/publication.pb.h"
 #include "bayline/v1/snapshot.pb.h"
+#include "daemon/pipeline/channel_budget.h"
 #include "estimators/core/status.h"
 
 namespace bayline::pipeline {
@@ -105,8 +113,11 @@ class Pipeline {
   // ChannelHash(name) % partition_count == partition_index. Empty rules / zero limits mean the
   // defaults of DefaultConfig(). Calibrates every detector threshold of every rule (a rule whose
   // calibration fails rejects its channels with reason "invalid_config"; Reconfigure reports it).
+  // limits.max_channels counts the channels of every pipeline sharing `channel_budget` (the
+  // daemon's workers share one); nullptr: a budget of this pipeline's own. The pipeline sets the
+  // budget's limit (here and on Reconfigure) and gives its channels back when destroyed.
   Pipeline(const bayline::v1::DaemonConfig& config, uint32_t partition_index = 0,
-           uint32_t partition_count = 1);
+           uint32_t partition_count = 1, std::shared_ptr<ChannelBudget> channel_budget = nullptr);
   ~Pipeline();
   Pipeline(const Pipeline&) = delete;
   Pipeline& operator=(const Pipeline&) = delete;
@@ -148,6 +159,7 @@ class Pipeline {
   // Forgets a channel (it restarts from its rule with its next observation); false if unknown.
   bool Reset(std::string_view channel);
   const Counters& counters() const;
+  const std::shared_ptr<ChannelBudget>& channel_budget() const;
 
   // Appends one ChannelSnapshot per channel (sorted by name) and sets format_version and
   // config_digest. Restoring and continuing is bit-identical to never stopping.

@@ -13,6 +13,7 @@
 
 #include "bayline/v1/config.pb.h"
 #include "daemon/pipeline/channel.h"
+#include "daemon/pipeline/channel_budget.h"
 #include "daemon/pipeline/channel_name.h"
 #include "daemon/pipeline/channel_registry.h"
 #include "daemon/pipeline/pipeline.h"
@@ -31,8 +32,10 @@ EffectiveLimits LimitsOf(const bayline::v1::DaemonConfig& config);
 
 class PipelineState {
  public:
+  // budget: shared with the daemon's other pipelines; nullptr: one of its own.
   PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                uint32_t partition_count);
+                uint32_t partition_count, std::shared_ptr<ChannelBudget> budget);
+  ~PipelineState();  // gives its channels back to the budget
 
   void Process(const bayline::v1::Observation& obs, int64_t arrival_ns, PublicationSink& sink) {
     ProcessHashed(obs, arrival_ns, nullptr, sink);
@@ -53,6 +56,7 @@ class PipelineState {
                               std::vector<std::string>* not_restored);
   est::Status Reconfigure(const bayline::v1::DaemonConfig& config, std::vector<std::string>* reset);
 
+  const std::shared_ptr<ChannelBudget>& channel_budget() const { return budget_; }
   Counters& counters() { return counters_; }
   const Counters& counters() const { return counters_; }
 
@@ -67,6 +71,8 @@ class PipelineState {
   // Publishes the InputError for a name that CheckChannelName refused.
   void RejectName(const bayline::v1::Observation& obs, ChannelNameProblem problem, int64_t time_ns,
                   PublicationSink& sink);
+  void RejectChannelLimit(const bayline::v1::Observation& obs, int64_t time_ns,
+                          PublicationSink& sink);
   // A new channel's spec from the first matching rule; nullptr after publishing the InputError.
   std::shared_ptr<const ResolvedSpec> ResolveNewChannel(const bayline::v1::Observation& obs,
                                                         int64_t time_ns, PublicationSink& sink);
@@ -89,6 +95,7 @@ class PipelineState {
   EffectiveLimits limits_;
   uint32_t partition_index_;
   uint32_t partition_count_;
+  std::shared_ptr<ChannelBudget> budget_;  // limits.max_channels over every sharing pipeline
   RuleSet rules_;
   ChannelRegistry channels_;
   Counters counters_;

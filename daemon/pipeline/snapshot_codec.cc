@@ -157,12 +157,12 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
     }
     restored.push_back(std::move(fresh));
   }
-  std::size_t total = channels_.size();
-  for (const ChannelPtr& ch : restored) total += channels_.Find(ch->name()) == nullptr ? 1 : 0;
-  if (total > limits_.max_channels) {
-    return est::Status::Error(est::ErrorCode::kInvalidState,
-                              "restoring would exceed limits.max_channels (" +
-                                  std::to_string(limits_.max_channels) + ")");
+  std::size_t added = 0;
+  for (const ChannelPtr& ch : restored) added += channels_.Find(ch->name()) == nullptr ? 1 : 0;
+  if (!budget_->TryReserve(added)) {  // shared with the other workers' pipelines
+    return est::Status::Error(
+        est::ErrorCode::kInvalidState,
+        "restoring would exceed limits.max_channels (" + std::to_string(budget_->limit()) + ")");
   }
   for (ChannelPtr& ch : restored) channels_.InsertOrReplace(std::move(ch));
   counters_.channels = channels_.size();

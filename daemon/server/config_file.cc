@@ -5,10 +5,12 @@
 #include <google/protobuf/io/tokenizer.h>
 #include <google/protobuf/io/zero_copy_stream_impl_lite.h>
 
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
 #include <cerrno>
 #include <cstring>
-#include <fstream>
-#include <sstream>
 
 namespace bayline::server {
 namespace {
@@ -52,6 +54,57 @@ std::pair<std::string, int> SplitIndex(std::string_view part) {
   return {std::string(part.substr(0, open)), index};
 }
 
+// Reads a regular file whole. Opened non-blocking so that a FIFO is refused, not waited on.
+bool ReadConfigText(const std::filesystem::path& path, std::string* text, std::string* error) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_NONBLOCK | O_CLOEXEC);
+  if (fd < 0) {
+    *error = path.string() + ": cannot open: " + std::strerror(errno);
+    return false;
+  }
+  struct stat st {};
+  bool ok = ::fstat(fd, &st) == 0;
+  if (!ok) {
+    *error = path.string() + ": cannot stat: " + std::strerror(errno);
+  } else if (!S_ISREG(st.st_mode)) {
+    *error = path.string() +
+             (S_ISDIR(st.st_mode) ? ": is a directory, not a config file" : ": not a regular file");
+    ok = false;
+  }
+  char buffer[1 << 16];
+  while (ok) {
+    const ssize_t n = ::read(fd, buffer, sizeof buffer);
+    if (n < 0 && errno == EINTR) continue;
+    if (n < 0) {
+      *error = path.string() + ": read error: " + std::strerror(errno);
+      ok = false;
+    } else if (n == 0) {
+      break;
+    } else if (text->size() + size_t(n) > kMaxConfigFileBytes) {
+      *error = path.string() + ": larger than " + std::to_string(kMaxConfigFileBytes) + " bytes";
+      ok = false;
+    } else {
+      text->append(buffer, size_t(n));
+    }
+  }
+  ::close(fd);
+  return ok;
+}
+
+// Whether text-format `text` holds anything but whitespace and '#' comments.
+bool SetsAnything(std::string_view text) {
+  bool in_comment = false;
+  for (char c : text) {
+    if (in_comment) {
+      in_comment = c != '\n';
+    } else if (c == '#') {
+      in_comment = true;
+    } else if (c != ' ' && c != '\t' && c != '\n' && c != '\r' && c != '\f' && c != '\v') {
+      return true;
+    }
+  }
+  return false;
+}
+
 }  // namespace
 
 FieldLocator::FieldLocator() : tree_(std::make_unique<ParseInfoTree>()) {}
@@ -83,18 +136,19 @@ int FieldLocator::LineOf(std::string_view field_path) const {
 bool ParseConfigFile(const std::filesystem::path& path, bayline::v1::DaemonConfig* out,
                      FieldLocator* locator, std::string* error) {
   out->Clear();
-  std::ifstream in(path, std::ios::binary);
-  if (!in) {
-    *error = path.string() + ": cannot open: " + std::strerror(errno);
+  std::string text;
+  if (!ReadConfigText(path, &text, error)) return false;
+  if (!SetsAnything(text)) {
+    *error = path.string() +
+             ": empty: no settings (only whitespace or comments); refused, since that is what a "
+             "half-written file looks like (run without --config for the defaults)";
     return false;
   }
-  std::ostringstream text;
-  text << in.rdbuf();
   CollectErrors errors(path.string());
   google::protobuf::TextFormat::Parser parser;
   parser.RecordErrorsTo(&errors);
   if (locator != nullptr) parser.WriteLocationsTo(locator->tree());
-  if (!parser.ParseFromString(text.str(), out)) {
+  if (!parser.ParseFromString(text, out)) {
     *error = errors.text().empty() ? path.string() + ": parse error" : errors.text();
     return false;
   }
@@ -121,6 +175,7 @@ void MergeConfigOver(const bayline::v1::DaemonConfig& overlay, bayline::v1::Daem
   if (overlay.rules_size() > 0) *base->mutable_rules() = overlay.rules();
   if (!overlay.shard().empty()) base->set_shard(overlay.shard());
   if (overlay.has_journal()) *base->mutable_journal() = overlay.journal();
+  if (overlay.use_default_rules()) base->set_use_default_rules(true);
 }
 
 uint64_t ConfigDigest(const bayline::v1::DaemonConfig& config) {

@@ -14,6 +14,8 @@
 
 namespace bayline::server {
 
+inline constexpr size_t kMaxConfigFileBytes = size_t{16} << 20;
+
 // Where each field of a parsed file came from.
 class FieldLocator {
  public:
@@ -34,6 +36,9 @@ class FieldLocator {
 
 // Parses `path` (text format) into *out, which is cleared first. On failure returns false and
 // *error holds one line per problem, "FILE:LINE:COLUMN: message" (1-based). `locator` may be null.
+// Refused before parsing, with "FILE: reason": anything but a regular file (a directory, a FIFO),
+// a read error, a file over kMaxConfigFileBytes, and a file that sets nothing (empty, or only
+// whitespace and comments), which is what an editor's half-written file or a truncation leaves.
 bool ParseConfigFile(const std::filesystem::path& path, bayline::v1::DaemonConfig* out,
                      FieldLocator* locator, std::string* error);
 

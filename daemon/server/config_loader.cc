@@ -17,14 +17,32 @@ std::string WhereIs(const std::string& message, const std::string& file,
   return where.append(": ");
 }
 
+// A file sets rules, or says it wants the default rule: never both, never neither (config.proto).
+bool RulesIntended(const bayline::v1::DaemonConfig& from_file, const std::string& file,
+                   const FieldLocator& locator, std::string* error) {
+  if (from_file.rules_size() > 0 && from_file.use_default_rules()) {
+    *error = WhereIs("use_default_rules: ", file, locator) +
+             "use_default_rules: true, but the file also sets " +
+             std::to_string(from_file.rules_size()) + " rules";
+    return false;
+  }
+  if (from_file.rules_size() == 0 && !from_file.use_default_rules()) {
+    *error = file +
+             ": sets no rules (a file cut short?); refused. A file meant to run the embedded "
+             "default rule says so with `use_default_rules: true`";
+    return false;
+  }
+  return true;
+}
+
 }  // namespace
 
 bool LoadDaemonConfig(const DaemonOptions& options, const std::string& config_file,
                       bayline::v1::DaemonConfig* out, std::string* error) {
   *out = pipeline::DefaultConfig();
   FieldLocator locator;
+  bayline::v1::DaemonConfig from_file;
   if (!config_file.empty()) {
-    bayline::v1::DaemonConfig from_file;
     if (!ParseConfigFile(config_file, &from_file, &locator, error)) return false;
     MergeConfigOver(from_file, out);
   }
@@ -65,6 +83,7 @@ bool LoadDaemonConfig(const DaemonOptions& options, const std::string& config_fi
     *error = WhereIs(status.message(), config_file, locator) + status.message();
     return false;
   }
+  if (!config_file.empty() && !RulesIntended(from_file, config_file, locator, error)) return false;
   if (out->state_dir().empty()) out->set_state_dir(DefaultStateDir());
   return true;
 }

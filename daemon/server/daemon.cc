@@ -72,26 +72,11 @@ bool Daemon::Start() {
   }
   const size_t worker_count =
       config_.workers() > 0 ? config_.workers() : std::max(1u, std::thread::hardware_concurrency());
-  // Every pipeline keeps all it is given: routing (and the shard) is the daemon's job.
-  std::vector<std::unique_ptr<pipeline::Pipeline>> pipelines(worker_count);
-  for (auto& p : pipelines) p = std::make_unique<pipeline::Pipeline>(config_);
-  const RestoreOutcome restored = RestoreNewestGood(*store_, config_, shard_, &pipelines);
-  for (const auto& why : restored.skipped) spdlog::error("snapshot not used: {}", why);
-  for (const auto& name : restored.reset_channels) {
-    spdlog::warn("channel \"{}\" restarts from its rule: its spec changed since the snapshot",
-                 name);
-  }
-  for (const auto& why : restored.not_restored) {
-    spdlog::error("snapshot channel not restored, it restarts from its rule: {}", why);
-  }
-  if (restored.path.empty()) {
-    spdlog::info("no usable snapshot in {}: starting empty", store_->dir().string());
-  } else {
-    spdlog::info("restored {} channels from {}{}", restored.channels, restored.path,
-                 restored.other_shard ? " (" + std::to_string(restored.other_shard) +
-                                            " channels of other shards ignored)"
-                                      : std::string());
-  }
+  uint64_t journal_covered = 0;
+  std::vector<std::unique_ptr<pipeline::Pipeline>> pipelines =
+      MakeWorkerPipelines(config_, worker_count);
+  if (!RestoreAtStart(*store_, config_, shard_, options_.strict_state, &pipelines,
+                      &journal_covered)) return false;
 
   publisher_ = std::make_unique<Publisher>(context_);
   std::string publish_endpoint;
@@ -127,7 +112,7 @@ bool Daemon::Start() {
     journal_ = std::make_unique<JournalWriter>(store_->dir(), policy);
     ingest_->set_journal(journal_.get());
   }
-  if (!ReplayJournal(restored.journal_segment, &error)) {
+  if (!ReplayJournal(journal_covered, &error)) {
     spdlog::error("journal: {}", error);
     return false;
   }
@@ -144,8 +129,7 @@ int Daemon::Run() {
   if (!Start()) return 1;
   Serve();
   signals_.ForceExitOnStopSignal(ForcedExit);
-  Shutdown();
-  return 0;
+  return Shutdown() ? 0 : kExitFinalSnapshotFailed;
 }
 
 void Daemon::ForcedExit(int signal) {
@@ -270,8 +254,7 @@ bool Daemon::ReplayJournal(uint64_t covered, std::string* error) {
   return true;
 }
 
-bool Daemon::SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) {
-  next_snapshot_ = std::chrono::steady_clock::now() + snapshot_period_;
+bool Daemon::CutAndWriteSnapshot(bayline::v1::SnapshotInfo* info, std::string* error) {
   // The cut: every frame before it is in the capture and in journal segments below `covered`.
   SnapshotCapture capture;
   bool rotated = true;
@@ -286,12 +269,20 @@ bool Daemon::SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) {
   const uint64_t covered = journal_next_segment_;
   if (!rotated ||
       !WriteCapturedSnapshot(std::move(capture), *store_, config_, covered, info, error)) {
-    spdlog::error("snapshot failed: {}", *error);
     return false;
   }
   std::string remove_error;
   if (!RemoveJournalSegmentsBelow(store_->dir(), covered, &remove_error)) {
     spdlog::error("journal: {}", remove_error);
+  }
+  return true;
+}
+
+bool Daemon::SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) {
+  next_snapshot_ = std::chrono::steady_clock::now() + snapshot_period_;
+  if (!CutAndWriteSnapshot(info, error)) {
+    spdlog::error("snapshot failed: {}", *error);
+    return false;
   }
   ++snapshots_written_;
   spdlog::info("snapshot {}: {} channels, {} bytes", info->path(), info->channels(), info->bytes());
@@ -346,13 +337,25 @@ bool Daemon::Reload(std::string* message) {
   return true;
 }
 
-void Daemon::Shutdown() {
+bool Daemon::Shutdown() {
   ingest_->Stop();  // hands its partial batches to the workers
   bayline::v1::SnapshotInfo info;
   std::string error;
-  SnapshotNow(&info, &error);          // queued behind every batch: the workers drain first
+  // Queued behind every batch: the workers drain first.
+  const bool saved = CutAndWriteSnapshot(&info, &error);
   for (auto& w : workers_) w->Stop();  // each sends its last publications before it ends
+  if (!saved) {
+    spdlog::error(
+        "final snapshot failed: {}; the next start restores the newest snapshot left "
+        "in {}",
+        error, store_->dir().string());
+    spdlog::info("stopped (exit {})", kExitFinalSnapshotFailed);
+    return false;
+  }
+  ++snapshots_written_;
+  spdlog::info("snapshot {}: {} channels, {} bytes", info.path(), info.channels(), info.bytes());
   spdlog::info("stopped");
+  return true;
 }
 
 }  // namespace bayline::server

@@ -11,7 +11,8 @@
 // journal segment there, so a snapshot holds exactly the segments before it.
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
 // queues and send their last publications, a snapshot is written, the threads end, the PUB socket
-// lingers (up to 1 s) until connected subscribers have them, exit 0. A second SIGTERM / SIGINT
+// lingers (up to 1 s) until connected subscribers have them, exit 0 (kExitFinalSnapshotFailed when
+// the final snapshot could not be written: the state since the last snapshot is lost). A second SIGTERM / SIGINT
 // before that ends the process at once with 128 + the signal's number (signals.h).
 #pragma once
 
@@ -49,7 +50,7 @@ class Daemon : public DaemonActions {
  private:
   bool Start();  // everything up to the threads running; false: logged, exit 1
   void Serve();  // the supervisor loop
-  void Shutdown();
+  bool Shutdown();  // false: the final snapshot failed (logged)
   // Logs and ends the process at once (SignalWatcher::ForcedExitCode): a second SIGTERM/SIGINT.
   [[noreturn]] static void ForcedExit(int signal);
   void HandleControl();
@@ -60,6 +61,9 @@ class Daemon : public DaemonActions {
   // (those the restored snapshot does not hold), then opens the next segment when the journal is
   // on.
   bool ReplayJournal(uint64_t covered, std::string* error);
+  // Takes a snapshot at an ingest frame boundary (rotating the journal there) and writes it;
+  // removes the journal segments it covers. Logs nothing but journal clean-up failures.
+  bool CutAndWriteSnapshot(bayline::v1::SnapshotInfo* info, std::string* error);
 
   DaemonOptions options_;
   SignalWatcher signals_;  // first member: blocks signals before any thread exists

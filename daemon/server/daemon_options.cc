@@ -28,12 +28,17 @@ constexpr const char* kFooter =
     "$XDG_STATE_HOME/bayline, else $HOME/.local/state/bayline. Snapshots snapshot-<n>.bls are\n"
     "written there every snapshot_every_s seconds (default 60), on the control request\n"
     "`snapshot` and at shutdown; the newest two are kept and the newest good one is restored at\n"
-    "start (a damaged newest file is logged and the previous one used).\n"
+    "start. A file that cannot be restored is logged as an error and moved into damaged/ there\n"
+    "(never pruned); when none restores the daemon starts empty with an error line, or with\n"
+    "--strict-state refuses to start. Entries of the directory are never followed as links;\n"
+    "names that are not a snapshot generation in [1, 2^48] are ignored.\n"
     "Signals: SIGTERM/SIGINT stop ingest, drain the workers, write a snapshot and exit 0;\n"
     "a second one during that exits at once with 128 + its number (no final snapshot).\n"
     "SIGHUP re-reads the config file (rules, log_level, snapshot_every_s); channels whose spec\n"
-    "changed are reset with a warning; an invalid file is rejected and the old config kept.\n"
-    "Exit codes: 0 clean stop, 1 invalid configuration or start-up failure, 2 bad command line.";
+    "changed are reset with a warning; an invalid, empty or unreadable file, or one without rules\n"
+    "(unless it says use_default_rules: true), is rejected and the old config kept.\n"
+    "Exit codes: 0 clean stop, 1 invalid configuration or start-up failure (or refused state),\n"
+    "2 bad command line, 3 stopped but the final snapshot could not be written (logged).";
 
 }  // namespace
 
@@ -56,6 +61,9 @@ std::optional<int> ParseDaemonOptions(int argc, char** argv, DaemonOptions* out)
   app.add_option("--shard", out->shard,
                  "i/N: keep only channels with hash(name) % N == i (several daemons share the "
                  "producers)");
+  app.add_flag("--strict-state", out->strict_state,
+               "Refuse to start (exit 1) when the state directory holds snapshot files and none "
+               "can be restored, instead of moving them into damaged/ and starting empty");
   app.add_option("--log-level", out->log_level, "trace, debug, info (default), warn, error")
       ->check([](const std::string& v) {
         return IsLogLevelName(v) ? std::string() : "unknown log level: " + v;

@@ -23,7 +23,14 @@ struct DaemonOptions {
   uint32_t workers = 0;           // --workers; 0 = unset
   std::string shard;              // --shard i/N
   std::string log_level;          // --log-level
+  bool strict_state = false;      // --strict-state: refuse to start when no snapshot restores
 };
+
+// Process exit codes of baylined.
+inline constexpr int kExitOk = 0;
+inline constexpr int kExitStartFailed = 1;  // invalid configuration, refused state, bind failure
+inline constexpr int kExitBadCommandLine = 2;
+inline constexpr int kExitFinalSnapshotFailed = 3;  // stopped, but the state was not saved
 
 // Parses argv. Returns nullopt to run, or the process exit code when parsing already finished the
 // job (--help: 0) or failed (the error and usage are printed: 2).

@@ -1,5 +1,7 @@
 #include "daemon/server/persistence.h"
 
+#include <spdlog/spdlog.h>
+
 #include <chrono>
 
 #include "daemon/server/config_file.h"
@@ -8,12 +10,25 @@
 namespace bayline::server {
 namespace {
 
+// Every pipeline empty again; each old one gives its channels back to the shared budget.
 void RebuildEmpty(const bayline::v1::DaemonConfig& config,
                   std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines) {
-  for (auto& p : *pipelines) p = std::make_unique<pipeline::Pipeline>(config);
+  if (pipelines->empty()) return;
+  const std::shared_ptr<pipeline::ChannelBudget> budget = pipelines->front()->channel_budget();
+  for (auto& p : *pipelines) p = std::make_unique<pipeline::Pipeline>(config, 0, 1, budget);
 }
 
 }  // namespace
+
+std::vector<std::unique_ptr<pipeline::Pipeline>> MakeWorkerPipelines(
+    const bayline::v1::DaemonConfig& config, size_t workers) {
+  // Every pipeline keeps all it is given (partition 0 of 1): routing and the shard are the
+  // daemon's job; the budget makes limits.max_channels count the channels of all of them.
+  auto budget = std::make_shared<pipeline::ChannelBudget>(0);  // each pipeline sets the limit
+  std::vector<std::unique_ptr<pipeline::Pipeline>> pipelines(workers);
+  for (auto& p : pipelines) p = std::make_unique<pipeline::Pipeline>(config, 0, 1, budget);
+  return pipelines;
+}
 
 SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers) {
   SnapshotCapture capture;
@@ -40,19 +55,25 @@ bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,
     for (auto& channel : *part.mutable_channels()) all.add_channels()->Swap(&channel);
   }
   all.set_journal_segment(journal_segment);
+  info->set_channels(uint64_t(all.channels_size()));
+  const std::string not_saved = std::to_string(all.channels_size()) + " channels not saved: ";
   all.set_written_time_ns(std::chrono::duration_cast<std::chrono::nanoseconds>(
                               std::chrono::system_clock::now().time_since_epoch())
                               .count());
+  info->set_channels(uint64_t(all.channels_size()));
+  const std::string not_saved = std::to_string(all.channels_size()) + " channels not saved: ";
   std::string payload;
   if (!all.SerializeToString(&payload)) {
-    *error = "serialize snapshot: failed";
+    *error = not_saved + "serialize snapshot: failed";
     return false;
   }
   std::filesystem::path path;
   uint64_t bytes = 0;
-  if (!store.Write(payload, ConfigDigest(config), &path, &bytes, error)) return false;
+  if (!store.Write(payload, ConfigDigest(config), &path, &bytes, error)) {
+    *error = not_saved + *error;
+    return false;
+  }
   info->set_path(path.string());
-  info->set_channels(uint64_t(all.channels_size()));
   info->set_bytes(bytes);
   return true;
 }
@@ -67,11 +88,13 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
     std::string error;
     if (!ReadSnapshotFile(path, &contents, &error)) {
       outcome.skipped.push_back(error);
+      outcome.unusable.push_back(path);
       continue;
     }
     bayline::v1::Snapshot snapshot;
     if (!snapshot.ParseFromString(contents.payload)) {
       outcome.skipped.push_back(path.string() + ": payload is not a bayline.v1.Snapshot");
+      outcome.unusable.push_back(path);
       continue;
     }
     // Split by owner; the metadata goes with every part.
@@ -104,6 +127,7 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
       restored += uint64_t(parts[w].channels_size());
     }
     if (!ok) {
+      outcome.unusable.push_back(path);
       RebuildEmpty(config, pipelines);
       continue;
     }
@@ -116,6 +140,58 @@ RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
     return outcome;
   }
   return outcome;
+}
+
+bool RestoreAtStart(SnapshotStore& store, const bayline::v1::DaemonConfig& config,
+                    const Shard& shard, bool strict_state,
+                    std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines,
+                    uint64_t* journal_segment) {
+  const std::string dir = store.dir().string();
+  for (const auto& name : store.IgnoredNames()) {
+    spdlog::warn("state directory {}: ignoring {}: not a snapshot generation in [1, {}]", dir, name,
+                 kMaxSnapshotGeneration);
+  }
+  const RestoreOutcome restored = RestoreNewestGood(store, config, shard, pipelines);
+  for (const auto& why : restored.skipped) spdlog::error("snapshot not used: {}", why);
+  if (restored.path.empty() && !restored.unusable.empty() && strict_state) {
+    spdlog::error(
+        "no snapshot in {} could be restored ({} files, listed above): refusing to "
+        "start (--strict-state); nothing was changed",
+        dir, restored.unusable.size());
+    return false;
+  }
+  for (const auto& path : restored.unusable) {
+    std::filesystem::path moved_to;
+    std::string error;
+    if (store.MoveAside(path, &moved_to, &error)) {
+      spdlog::error("snapshot {} kept as {}", path.string(), moved_to.string());
+    } else {
+      spdlog::error("snapshot {} could not be moved aside (it may be pruned later): {}",
+                    path.string(), error);
+    }
+  }
+  for (const auto& name : restored.reset_channels) {
+    spdlog::warn("channel \"{}\" restarts from its rule: its spec changed since the snapshot",
+                 name);
+  }
+  for (const auto& why : restored.not_restored) {
+    spdlog::error("snapshot channel not restored, it restarts from its rule: {}", why);
+  }
+  *journal_segment = restored.journal_segment;
+  if (!restored.path.empty()) {
+    spdlog::info("restored {} channels from {}{}", restored.channels, restored.path,
+                 restored.other_shard ? " (" + std::to_string(restored.other_shard) +
+                                            " channels of other shards ignored)"
+                                      : std::string());
+  } else if (!restored.unusable.empty()) {
+    spdlog::error(
+        "no snapshot could be restored from {}: starting empty; the {} unusable files "
+        "are kept in {}/{} (start with --strict-state to refuse instead)",
+        dir, restored.unusable.size(), dir, kDamagedSubdirectory);
+  } else {
+    spdlog::info("no snapshot in {}: starting empty", dir);
+  }
+  return true;
 }
 
 }  // namespace bayline::server

@@ -2,10 +2,19 @@
 // start-up.
 //
 // The payload is a bayline.v1.Snapshot (written by the pipeline library); the file container
-// (header, checksums, atomic replacement, rotation) is snapshot_file.h's.
+// (header, checksums, atomic replacement, rotation) is snapshot_file.h's. A snapshot holds the
+// channels of every worker in one list, so it restores whatever the worker count: each channel goes
+// to the worker that owns it under the current routing (routing.h), and the workers' pipelines
+// share one channel budget (limits.max_channels is per daemon, channel_budget.h).
+//
+// Damaged state is never lost quietly: a snapshot file that cannot be restored is logged at error
+// level and moved into `damaged/` in the state directory (out of rotation, never pruned), and
+// starting empty although snapshot files existed is an error-level log line; with --strict-state
+// the daemon refuses to start instead and leaves every file where it is.
 #pragma once
 
 #include <future>
+#include <filesystem>
 #include <memory>
 #include <string>
 #include <vector>
@@ -30,14 +39,19 @@ bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,
                            const bayline::v1::DaemonConfig& config, uint64_t journal_segment,
                            bayline::v1::SnapshotInfo* info, std::string* error);
 
+// One pipeline per worker, all sharing one pipeline::ChannelBudget of limits.max_channels.
+std::vector<std::unique_ptr<pipeline::Pipeline>> MakeWorkerPipelines(
+    const bayline::v1::DaemonConfig& config, size_t workers);
+
 struct RestoreOutcome {
-  std::string path;                         // file restored; empty when starting empty
-  uint64_t channels = 0;                    // channels restored
-  uint64_t other_shard = 0;                 // channels in the file that belong to other shards
-  std::vector<std::string> skipped;         // newer files not used, each with the reason
-  std::vector<std::string> reset_channels;  // restored as new because their spec changed
+  std::string path;                              // file restored; empty when starting empty
+  uint64_t channels = 0;                         // channels restored
+  uint64_t other_shard = 0;                      // channels in the file of other shards
+  std::vector<std::string> skipped;              // newer files not used, each with the reason
+  std::vector<std::filesystem::path> unusable;   // those files, in the same order
+  std::vector<std::string> reset_channels;       // restored as new because their spec changed
+  std::vector<std::string> not_restored;         // channels set aside: "channel \"name\": reason"
   uint64_t journal_segment = 0;  // first journal segment the restored file does not cover
-  std::vector<std::string> not_restored;    // channels set aside, each "channel \"name\": reason"
 };
 
 // Before the workers start: tries the snapshot files newest first and restores the first that
@@ -51,5 +65,16 @@ struct RestoreOutcome {
 RestoreOutcome RestoreNewestGood(const SnapshotStore& store,
                                  const bayline::v1::DaemonConfig& config, const Shard& shard,
                                  std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines);
+
+// Start-up: RestoreNewestGood, and the log lines that say what happened. Every file not used is
+// logged at error level and moved into damaged/ (unless refusing to start). When files existed and
+// none was restored: with `strict_state` logs the refusal and returns false (the caller exits 1,
+// nothing on disk changed); otherwise logs at error level that the daemon starts empty and where
+// the files went. Returns true to go on, with *journal_segment the first journal segment the
+// restored file does not cover (0 when none was restored).
+bool RestoreAtStart(SnapshotStore& store, const bayline::v1::DaemonConfig& config,
+                    const Shard& shard, bool strict_state,
+                    std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines,
+                    uint64_t* journal_segment);
 
 }  // namespace bayline::server

@@ -1,13 +1,13 @@
 #include "daemon/server/snapshot_file.h"
 
 #include <fcntl.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <algorithm>
 #include <cerrno>
 #include <cstring>
-#include <fstream>
-#include <sstream>
+#include <ctime>
 #include <system_error>
 
 #include "daemon/server/crc32.h"
@@ -41,17 +41,23 @@ std::string ErrnoText(std::string_view step, const std::filesystem::path& path) 
   return std::string(step) + " " + path.string() + ": " + std::strerror(errno);
 }
 
-// Generation number of a snapshot file name, or 0 when the name is not one of ours.
+bool LooksLikeSnapshotName(const std::string& name) {
+  return name.size() > kPrefix.size() + kSuffix.size() && name.starts_with(kPrefix) &&
+         name.ends_with(kSuffix);
+}
+
+// Generation number of a snapshot file name, or 0 when the name is not one of ours or its number
+// is outside [1, kMaxSnapshotGeneration] (checked digit by digit, so no value wraps).
 uint64_t GenerationOf(const std::string& name) {
-  if (name.size() <= kPrefix.size() + kSuffix.size()) return 0;
-  if (name.compare(0, kPrefix.size(), kPrefix) != 0) return 0;
-  if (name.compare(name.size() - kSuffix.size(), kSuffix.size(), kSuffix) != 0) return 0;
-  std::string digits = name.substr(kPrefix.size(), name.size() - kPrefix.size() - kSuffix.size());
-  if (digits.empty() || digits.size() > 20) return 0;
+  if (!LooksLikeSnapshotName(name)) return 0;
+  const std::string_view digits =
+      std::string_view(name).substr(kPrefix.size(), name.size() - kPrefix.size() - kSuffix.size());
+  if (digits.size() > 20) return 0;
   uint64_t g = 0;
   for (char c : digits) {
     if (c < '0' || c > '9') return 0;
     g = g * 10 + uint64_t(c - '0');
+    if (g > kMaxSnapshotGeneration) return 0;
   }
   return g;
 }
@@ -121,18 +127,33 @@ bool DecodeSnapshotFile(std::string_view bytes, SnapshotFileContents* out, std::
 
 bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* out,
                       std::string* error) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) {
+  // Not through a link, and never blocking on a FIFO: only a regular file is read.
+  const int fd = ::open(path.c_str(), O_RDONLY | O_NOFOLLOW | O_NONBLOCK | O_CLOEXEC);
+  if (fd < 0) {
     *error = ErrnoText("open", path);
     return false;
   }
-  std::ostringstream buffer;
-  buffer << in.rdbuf();
-  if (in.bad()) {
-    *error = ErrnoText("read", path);
+  struct stat st {};
+  if (::fstat(fd, &st) != 0 || !S_ISREG(st.st_mode)) {
+    *error = path.string() + ": not a regular file";
+    ::close(fd);
     return false;
   }
-  std::string bytes = std::move(buffer).str();
+  std::string bytes;
+  bytes.reserve(size_t(st.st_size));
+  char buffer[1 << 16];
+  for (;;) {
+    const ssize_t n = ::read(fd, buffer, sizeof buffer);
+    if (n < 0 && errno == EINTR) continue;
+    if (n < 0) {
+      *error = ErrnoText("read", path);
+      ::close(fd);
+      return false;
+    }
+    if (n == 0) break;
+    bytes.append(buffer, size_t(n));
+  }
+  ::close(fd);
   std::string why;
   if (!DecodeSnapshotFile(bytes, out, &why)) {
     *error = path.string() + ": " + why;
@@ -144,7 +165,13 @@ bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* o
 bool WriteFileAtomically(const std::filesystem::path& path, std::string_view bytes,
                          std::string* error) {
   const std::filesystem::path temp = path.string() + std::string(kTempSuffix);
-  int fd = ::open(temp.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+  // Whatever has the temporary name (a stale file, or a planted link: unlink removes the link, not
+  // its target) goes first; the file is then created exclusively and not through a link.
+  if (::unlink(temp.c_str()) != 0 && errno != ENOENT) {
+    *error = ErrnoText("remove stale", temp);
+    return false;
+  }
+  int fd = ::open(temp.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_NOFOLLOW | O_CLOEXEC, 0644);
   if (fd < 0) {
     *error = ErrnoText("create", temp);
     return false;
@@ -190,20 +217,27 @@ bool SnapshotStore::Open(std::string* error) {
     *error = "create state directory " + dir_.string() + ": " + ec.message();
     return false;
   }
-  newest_generation_ = 0;
   for (const auto& entry : std::filesystem::directory_iterator(dir_, ec)) {
     const std::string name = entry.path().filename().string();
     if (name.starts_with(kPrefix) && name.ends_with(kTempSuffix)) {
-      std::filesystem::remove(entry.path(), ec);  // left by an interrupted write
-      continue;
+      std::filesystem::remove(entry.path(), ec);  // left by an interrupted write (a link: the link)
     }
-    newest_generation_ = std::max(newest_generation_, GenerationOf(name));
   }
   if (ec) {
     *error = "list state directory " + dir_.string() + ": " + ec.message();
     return false;
   }
+  LearnNewestGeneration();
   return true;
+}
+
+void SnapshotStore::LearnNewestGeneration() {
+  newest_generation_ = 0;
+  std::error_code ec;
+  for (const auto& entry : std::filesystem::directory_iterator(dir_, ec)) {
+    newest_generation_ =
+        std::max(newest_generation_, GenerationOf(entry.path().filename().string()));
+  }
 }
 
 std::vector<std::filesystem::path> SnapshotStore::ListNewestFirst() const {
@@ -213,10 +247,55 @@ std::vector<std::filesystem::path> SnapshotStore::ListNewestFirst() const {
     uint64_t g = GenerationOf(entry.path().filename().string());
     if (g != 0) found.emplace_back(g, entry.path());
   }
-  std::sort(found.begin(), found.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
+  std::sort(found.begin(), found.end(),
+            [](const auto& a, const auto& b) { return a.first > b.first; });
   std::vector<std::filesystem::path> paths;
   for (auto& [g, p] : found) paths.push_back(std::move(p));
   return paths;
+}
+
+std::vector<std::string> SnapshotStore::IgnoredNames() const {
+  std::vector<std::string> names;
+  std::error_code ec;
+  for (const auto& entry : std::filesystem::directory_iterator(dir_, ec)) {
+    const std::string name = entry.path().filename().string();
+    if (LooksLikeSnapshotName(name) && GenerationOf(name) == 0) names.push_back(name);
+  }
+  std::sort(names.begin(), names.end());
+  return names;
+}
+
+bool SnapshotStore::MoveAside(const std::filesystem::path& path, std::filesystem::path* moved_to,
+                              std::string* error) {
+  const std::filesystem::path aside = dir_ / kDamagedSubdirectory;
+  std::error_code ec;
+  std::filesystem::create_directories(aside, ec);
+  if (ec) {
+    *error = "create " + aside.string() + ": " + ec.message();
+    return false;
+  }
+  char stamp[32];
+  const std::time_t now = std::time(nullptr);
+  std::tm utc{};
+  gmtime_r(&now, &utc);
+  std::strftime(stamp, sizeof stamp, "%Y%m%dT%H%M%SZ", &utc);
+  const std::string base = path.filename().string() + "." + stamp;
+  std::filesystem::path target = aside / base;
+  for (int n = 1;
+       std::filesystem::symlink_status(target, ec).type() != std::filesystem::file_type::not_found;
+       ++n) {
+    target = aside / (base + "." + std::to_string(n));
+  }
+  if (::rename(path.c_str(), target.c_str()) != 0) {
+    *error = ErrnoText("move " + path.string() + " to", target);
+    return false;
+  }
+  LearnNewestGeneration();
+  *moved_to = target;
+  std::string
+      not_durable;  // the move is done; a failed fsync only risks it being undone by a crash
+  FsyncDirectory(dir_, &not_durable);
+  return true;
 }
 
 std::filesystem::path SnapshotStore::PathOf(uint64_t generation) const {
@@ -230,6 +309,11 @@ bool SnapshotStore::Write(std::string_view payload, uint64_t config_digest,
                           std::filesystem::path* written_path, uint64_t* written_bytes,
                           std::string* error) {
   const uint64_t generation = newest_generation_ + 1;
+  if (generation > kMaxSnapshotGeneration) {
+    *error = "snapshot generation " + std::to_string(generation) + " in " + dir_.string() +
+             " exceeds " + std::to_string(kMaxSnapshotGeneration) + ": move the old files away";
+    return false;
+  }
   const std::filesystem::path path = PathOf(generation);
   const std::string bytes = EncodeSnapshotFile(payload, config_digest);
   if (!WriteFileAtomically(path, bytes, error)) return false;

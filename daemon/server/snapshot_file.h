@@ -15,7 +15,21 @@
 // (generation zero-padded to 20 digits, so names sort like numbers). A write goes to a temporary
 // file that is fsynced, renamed into place, and the directory fsynced; only then are generations
 // older than the newest `keep` removed. A reader therefore always finds the newest complete file,
-// and when that one is damaged, the one before it.
+// and when that one is damaged, the one before it. Files that could not be restored can be moved
+// into the `damaged/` subdirectory (MoveAside), where pruning never reaches them.
+//
+// Hostile directory contents (anyone who can write the directory can plant files):
+//   * names are trusted only when they parse to a generation in [1, kMaxSnapshotGeneration]
+//     (2^48: one snapshot a second for nine million years); any other `snapshot-*.bls` name, e.g.
+//     generation 2^64-1, after which the next generation would wrap to 0, is ignored: never
+//     restored, never pruned, never used to number the next file (IgnoredNames lists them);
+//   * the temporary file is created with O_CREAT|O_EXCL|O_NOFOLLOW after removing whatever has its
+//     name (unlink removes a planted symbolic link itself, not its target), so a write never
+//     lands outside the directory; a link planted between the two steps makes the write fail;
+//   * snapshot files are opened with O_NOFOLLOW|O_NONBLOCK and must be regular files, so a planted
+//     link, FIFO or device is refused as damaged instead of followed or blocked on.
+// The state directory itself may be a symbolic link: the operator chose its path, and links are
+// common for moving state to another disk; only the entries inside it are never followed.
 //
 // Thread safety: none; the daemon's supervisor thread owns its store.
 #pragma once
@@ -30,6 +44,8 @@ namespace bayline::server {
 
 inline constexpr uint32_t kSnapshotFormatVersion = 1;
 inline constexpr size_t kSnapshotHeaderBytes = 40;
+inline constexpr uint64_t kMaxSnapshotGeneration = uint64_t{1} << 48;
+inline constexpr const char* kDamagedSubdirectory = "damaged";
 
 // The container's content once verified.
 struct SnapshotFileContents {
@@ -48,9 +64,10 @@ bool DecodeSnapshotFile(std::string_view bytes, SnapshotFileContents* out, std::
 bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* out,
                       std::string* error);
 
-// Writes `bytes` to `path` atomically: temporary file in the same directory, fsync, rename, fsync
-// the directory. On failure returns false, *error names the failing step and path, and `path`
-// still holds its previous content (the temporary file is removed).
+// Writes `bytes` to `path` atomically: temporary file `path`.tmp in the same directory (anything
+// already there is removed first; the file is created exclusively, never through a link), fsync,
+// rename, fsync the directory. On failure returns false, *error names the failing step and path,
+// and `path` still holds its previous content (the temporary file is removed).
 bool WriteFileAtomically(const std::filesystem::path& path, std::string_view bytes,
                          std::string* error);
 
@@ -62,18 +79,30 @@ class SnapshotStore {
   // Creates the directory if needed, removes stale temporary files, learns the newest generation.
   bool Open(std::string* error);
 
-  // Snapshot files present, newest first (names only; contents are not checked).
+  // Snapshot files present with a sane generation, newest first (names only; contents are not
+  // checked).
   std::vector<std::filesystem::path> ListNewestFirst() const;
 
+  // Names in the directory that look like snapshot files but do not parse to a sane generation.
+  std::vector<std::string> IgnoredNames() const;
+
   // Writes the next generation. On success returns true, sets *written_path and *written_bytes,
-  // and prunes generations beyond `keep`. On failure nothing already on disk is touched.
-  bool Write(std::string_view payload, uint64_t config_digest,
-             std::filesystem::path* written_path, uint64_t* written_bytes, std::string* error);
+  // and prunes generations beyond `keep`. On failure nothing already on disk is touched. Fails
+  // when the next generation would exceed kMaxSnapshotGeneration.
+  bool Write(std::string_view payload, uint64_t config_digest, std::filesystem::path* written_path,
+             uint64_t* written_bytes, std::string* error);
+
+  // Moves one snapshot file of this directory into `damaged/` as `<name>.<UTC time>` (a numeric
+  // suffix is added if that name exists), creating the subdirectory, and relearns the newest
+  // generation. On success sets *moved_to; on failure returns false with *error and the file stays.
+  bool MoveAside(const std::filesystem::path& path, std::filesystem::path* moved_to,
+                 std::string* error);
 
   const std::filesystem::path& dir() const { return dir_; }
 
  private:
   std::filesystem::path PathOf(uint64_t generation) const;
+  void LearnNewestGeneration();
 
   std::filesystem::path dir_;
   int keep_;

@@ -50,8 +50,9 @@ class Daemon:
     """One baylined process. `transport` is "tcp" (ports chosen by the daemon, read back from its
     "ready" log line) or "ipc" (sockets in the temp dir)."""
 
-    def __init__(self, tmp_path, state_dir=None, transport="tcp", extra_args=(), name="d"):
+    def __init__(self, tmp_path, state_dir=None, transport="tcp", extra_args=(), name="d", workers=2):
         self.tmp_path = tmp_path
+        self.workers = workers  # may be changed between restarts
         self.state_dir = state_dir or str(tmp_path / f"state-{name}")
         self.transport = transport
         self.extra_args = list(extra_args)
@@ -67,7 +68,7 @@ class Daemon:
         return "tcp://127.0.0.1:*"
 
     def start(self, expect_ready=True):
-        args = [BAYLINED, "--state-dir", self.state_dir, "--workers", "2",
+        args = [BAYLINED, "--state-dir", self.state_dir, "--workers", str(self.workers),
                 "--publish-bind", self.endpoint("pub"), "--control-bind", self.endpoint("ctl")]
         if not any(a.startswith("--pull-bind") for a in self.extra_args):
             args += ["--pull-bind", self.endpoint("pull")]

@@ -106,7 +106,7 @@ def test_malformed_and_empty_requests_get_error_replies(daemons):
 
 def test_periodic_snapshots_follow_snapshot_every_s(daemons, tmp_path):
     config = tmp_path / "fast.conf"
-    config.write_text("snapshot_every_s: 0.2\n")
+    config.write_text("snapshot_every_s: 0.2\nuse_default_rules: true\n")
     d = daemons(extra_args=["--config", str(config)]).start()
     feed(d, per_channel=2)
     d.wait_stats(lambda st: st.snapshots_written >= 2, "two periodic snapshots")

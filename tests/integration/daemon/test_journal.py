@@ -50,7 +50,7 @@ def wait_accepted(daemon, count):
 def test_kill_9_at_random_moments_loses_and_repeats_nothing(daemons, tmp_path):
     config = tmp_path / "journal.conf"
     # Frequent snapshots, so kills also land around snapshot cuts and journal rotations.
-    config.write_text('journal { sync: "every_frame" }\nsnapshot_every_s: 0.05\n')
+    config.write_text('use_default_rules: true\njournal { sync: "every_frame" }\nsnapshot_every_s: 0.05\n')
     frames = make_frames(4000, seed=11)
     starts = [0]  # observations before frame i
     for _, size in frames:
@@ -113,7 +113,7 @@ def test_kill_9_at_random_moments_loses_and_repeats_nothing(daemons, tmp_path):
 
 def test_a_torn_last_record_is_skipped_and_reported(daemons, tmp_path):
     config = tmp_path / "journal.conf"
-    config.write_text('journal { sync: "every_frame" }\nsnapshot_every_s: 3600\n')
+    config.write_text('use_default_rules: true\njournal { sync: "every_frame" }\nsnapshot_every_s: 3600\n')
     d = daemons(extra_args=["--config", str(config)]).start()
     push = d.pusher()
     for i in range(1, 11):
@@ -134,7 +134,7 @@ def test_a_torn_last_record_is_skipped_and_reported(daemons, tmp_path):
 
 def test_bad_journal_setting_is_refused(daemons, tmp_path):
     config = tmp_path / "journal.conf"
-    config.write_text('journal { sync: "sometimes" }\n')
+    config.write_text('use_default_rules: true\njournal { sync: "sometimes" }\n')
     d = daemons(extra_args=["--config", str(config)]).start(expect_ready=False)
     assert d.proc.wait(timeout=20) != 0
     assert any("journal.sync" in line for line in d.lines)

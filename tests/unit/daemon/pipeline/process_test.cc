@@ -130,24 +130,44 @@ TEST(ProcessTest, RejectedFirstObservationCreatesNoChannel) {
   EXPECT_EQ(sink.OfKind(Publication::kInputError).size(), 1u);
 }
 
-TEST(ProcessTest, SeqDuplicatesDroppedGapsAndReorderingCounted) {
+TEST(ProcessTest, SeqDuplicatesDroppedGapsAndReorderingCountedTooOldRefused) {
   Pipeline p(DefaultConfig());
   RecordingSink sink;
   for (uint64_t seq : {1, 2, 3, 3, 5, 4, 4}) p.Process(Obs("site/a", seq, 1.0 + 0.01 * seq), kArrival, sink);
   p.Process(Obs("site/a", 0, 1.5), kArrival, sink);  // unnumbered: becomes 6
   p.Process(Obs("site/a", 200, 1.2), kArrival, sink);
-  p.Process(Obs("site/a", 100, 1.3), kArrival, sink);  // too far back to tell: dropped
+  p.Process(Obs("site/a", 100, 1.3), kArrival, sink);  // too far back to tell: refused
   const auto& c = p.counters();
   EXPECT_EQ(c.accepted, 7u);
   EXPECT_EQ(c.seq_duplicates, 3u);
   EXPECT_EQ(c.seq_gaps, 2u);       // 3 -> 5 and 6 -> 200
   EXPECT_EQ(c.seq_reordered, 1u);  // 4 after 5
-  EXPECT_EQ(c.rejected_total, 0u);
+  EXPECT_EQ(c.rejected_total, 1u);
+  EXPECT_EQ(c.rejected_by_reason.at("seq_too_old"), 1u);
   const auto info = p.Ask("site/a")->info();
   EXPECT_EQ(info.accepted(), 7u);
   EXPECT_EQ(info.last_seq(), 200u);
   // Duplicates publish nothing: 7 accepted observations x 3 estimators.
   EXPECT_EQ(sink.OfKind(Publication::kEstimate).size(), 21u);
+  const auto errors = sink.OfKind(Publication::kInputError);
+  ASSERT_EQ(errors.size(), 1u);
+  EXPECT_EQ(errors[0]->publication.input_error().reason(), "seq_too_old");
+  EXPECT_EQ(errors[0]->publication.input_error().seq(), 100u);
+}
+
+TEST(ProcessTest, ImplausibleSeqIsRefusedAndChangesNothing) {
+  Pipeline p(DefaultConfig());
+  RecordingSink sink;
+  p.Process(Obs("site/a", 1, 1.0), kArrival, sink);
+  const auto before = p.Ask("site/a");
+  p.Process(Obs("site/a", ~uint64_t{0}, 5.0), kArrival, sink);
+  p.Process(Obs("site/b", uint64_t{1} << 63, 5.0), kArrival, sink);  // not even as a first number
+  EXPECT_EQ(p.Ask("site/a")->SerializeAsString(), before->SerializeAsString());
+  EXPECT_FALSE(p.Ask("site/b").has_value());
+  EXPECT_EQ(p.counters().rejected_by_reason.at("implausible_seq"), 2u);
+  p.Process(Obs("site/a", 2, 1.1), kArrival, sink);
+  EXPECT_EQ(p.Ask("site/a")->info().accepted(), 2u);
+  EXPECT_EQ(p.counters().seq_duplicates, 0u);
 }
 
 TEST(ProcessTest, PublishPolicyEveryN) {

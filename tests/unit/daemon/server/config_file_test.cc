@@ -2,6 +2,7 @@
 #include "daemon/server/config_file.h"
 
 #include <gtest/gtest.h>
+#include <sys/stat.h>
 
 #include <filesystem>
 #include <fstream>
@@ -65,6 +66,25 @@ TEST_F(ConfigFileTest, MissingFileIsAnErrorNamingIt) {
   std::string error;
   EXPECT_FALSE(ParseConfigFile(dir_ / "absent.conf", &config, nullptr, &error));
   EXPECT_NE(error.find("absent.conf"), std::string::npos) << error;
+}
+
+TEST_F(ConfigFileTest, FilesThatSetNothingOrAreNotFilesAreRefused) {
+  bayline::v1::DaemonConfig config;
+  std::string error;
+  for (const char* text : {"", "\n  \t\n", "# rules follow\n# later\n"}) {
+    EXPECT_FALSE(ParseConfigFile(Write("empty.conf", text), &config, nullptr, &error)) << text;
+    EXPECT_NE(error.find("empty.conf: empty"), std::string::npos) << error;
+  }
+  fs::create_directory(dir_ / "a-directory.conf");
+  EXPECT_FALSE(ParseConfigFile(dir_ / "a-directory.conf", &config, nullptr, &error));
+  EXPECT_NE(error.find("a-directory.conf: is a directory"), std::string::npos) << error;
+  ASSERT_EQ(::mkfifo((dir_ / "fifo.conf").c_str(), 0600), 0);
+  EXPECT_FALSE(ParseConfigFile(dir_ / "fifo.conf", &config, nullptr, &error));  // not waited on
+  EXPECT_NE(error.find("not a regular file"), std::string::npos) << error;
+  EXPECT_TRUE(ParseConfigFile(Write("one.conf", "# a comment\nworkers: 2 # two\n"), &config,
+                              nullptr, &error))
+      << error;
+  EXPECT_EQ(config.workers(), 2u);
 }
 
 TEST(MergeConfigTest, OverlayReplacesWhatItSetsAndKeepsTheRest) {

@@ -80,6 +80,26 @@ TEST_F(ConfigLoaderTest, ValidationErrorNamesFileLineAndFieldPath) {
   EXPECT_EQ(error.rfind(file + ":5: rules[0].spec.detectors[0].arl0", 0), 0u) << error;
 }
 
+TEST_F(ConfigLoaderTest, AFileSetsRulesOrSaysItWantsTheDefaultRule) {
+  bayline::v1::DaemonConfig config;
+  std::string error;
+  const std::string cut = Write("snapshot_every_s: 30\n");  // e.g. the rules not written yet
+  ASSERT_FALSE(LoadDaemonConfig(DaemonOptions{}, cut, &config, &error));
+  EXPECT_EQ(error.rfind(cut + ": sets no rules", 0), 0u) << error;
+  EXPECT_NE(error.find("use_default_rules: true"), std::string::npos) << error;
+
+  const std::string intended = Write("snapshot_every_s: 30\nuse_default_rules: true\n");
+  ASSERT_TRUE(LoadDaemonConfig(DaemonOptions{}, intended, &config, &error)) << error;
+  ASSERT_EQ(config.rules_size(), 1);
+  EXPECT_EQ(config.rules(0).match(), "**");
+
+  const std::string both = Write(
+      "rules { name: \"probes\" match: \"coldstore/**\" spec { model: \"gaussian\" } }\n"
+      "use_default_rules: true\n");
+  ASSERT_FALSE(LoadDaemonConfig(DaemonOptions{}, both, &config, &error));
+  EXPECT_EQ(error.rfind(both + ":2: use_default_rules", 0), 0u) << error;
+}
+
 TEST_F(ConfigLoaderTest, DaemonSettingsAreCheckedWithTheirOrigin) {
   bayline::v1::DaemonConfig config;
   std::string error;

@@ -2,7 +2,9 @@
 #include "daemon/server/snapshot_file.h"
 
 #include <gtest/gtest.h>
+#include <sys/stat.h>
 
+#include <algorithm>
 #include <filesystem>
 #include <fstream>
 #include <random>
@@ -58,7 +60,8 @@ TEST(SnapshotFileTest, RoundTripsPayloadAndDigest) {
     std::string payload = RandomBytes(n, n + 1);
     SnapshotFileContents out;
     std::string error;
-    ASSERT_TRUE(DecodeSnapshotFile(EncodeSnapshotFile(payload, 0xABCDEF0123456789ull), &out, &error))
+    ASSERT_TRUE(
+        DecodeSnapshotFile(EncodeSnapshotFile(payload, 0xABCDEF0123456789ull), &out, &error))
         << error;
     EXPECT_EQ(out.payload, payload);
     EXPECT_EQ(out.config_digest, 0xABCDEF0123456789ull);
@@ -121,10 +124,10 @@ TEST(SnapshotFileTest, FailedAtomicWriteKeepsTheOldContent) {
   const fs::path target = dir.path() / "state.bin";
   std::string error;
   ASSERT_TRUE(WriteFileAtomically(target, "good", &error)) << error;
-  // A directory where the temporary file should go makes the create step fail.
+  // A directory where the temporary file should go cannot be removed: the write fails.
   fs::create_directory(target.string() + ".tmp");
   EXPECT_FALSE(WriteFileAtomically(target, "never", &error));
-  EXPECT_NE(error.find("create"), std::string::npos) << error;
+  EXPECT_NE(error.find("state.bin.tmp"), std::string::npos) << error;
   EXPECT_EQ(ReadAll(target), "good");
 }
 
@@ -188,6 +191,96 @@ TEST(SnapshotStoreTest, DamagedNewestIsReportedAndThePreviousStillReads) {
   EXPECT_NE(error.find(listed[0].string()), std::string::npos) << error;
   ASSERT_TRUE(ReadSnapshotFile(listed[1], &contents, &error)) << error;
   EXPECT_EQ(contents.payload, "old state");
+}
+
+TEST(SnapshotFileTest, PlantedLinkAtTheTemporaryNameIsRemovedNotFollowed) {
+  TempDir dir;
+  const fs::path target = dir.path() / "state.bin";
+  const fs::path victim = dir.path() / "victim.txt";
+  WriteAll(victim, "precious");
+  fs::create_symlink(victim, target.string() + ".tmp");
+  std::string error;
+  ASSERT_TRUE(WriteFileAtomically(target, "state", &error)) << error;
+  EXPECT_EQ(ReadAll(victim), "precious");
+  EXPECT_EQ(ReadAll(target), "state");
+  EXPECT_EQ(fs::symlink_status(target).type(), fs::file_type::regular);
+  EXPECT_FALSE(fs::exists(fs::symlink_status(target.string() + ".tmp")));
+}
+
+TEST(SnapshotFileTest, ReadRefusesLinksAndFifos) {
+  TempDir dir;
+  const fs::path real = dir.path() / "real.bls";
+  WriteAll(real, EncodeSnapshotFile("payload", 1));
+  const fs::path link = dir.path() / "link.bls";
+  fs::create_symlink(real, link);
+  SnapshotFileContents contents;
+  std::string error;
+  ASSERT_TRUE(ReadSnapshotFile(real, &contents, &error)) << error;
+  EXPECT_FALSE(ReadSnapshotFile(link, &contents, &error));
+  const fs::path fifo = dir.path() / "fifo.bls";
+  ASSERT_EQ(::mkfifo(fifo.c_str(), 0600), 0);
+  EXPECT_FALSE(ReadSnapshotFile(fifo, &contents, &error));  // refused at once, not blocked on
+  EXPECT_NE(error.find("not a regular file"), std::string::npos) << error;
+}
+
+TEST(SnapshotStoreTest, NamesWithoutASaneGenerationAreIgnoredNotNumberedAfter) {
+  TempDir dir;
+  // 2^64-1 (the next would wrap to 0), a number that overflows 64 bits, 0, and beyond 2^48.
+  const std::vector<std::string> planted = {
+      "snapshot-18446744073709551615.bls", "snapshot-99999999999999999999.bls",
+      "snapshot-00000000000000000000.bls", "snapshot-00000281474976710657.bls"};
+  for (const auto& name : planted) WriteAll(dir.path() / name, EncodeSnapshotFile("planted", 1));
+  SnapshotStore store(dir.path());
+  std::string error;
+  ASSERT_TRUE(store.Open(&error)) << error;
+  EXPECT_TRUE(store.ListNewestFirst().empty());
+  auto ignored = store.IgnoredNames();
+  auto expected = planted;
+  std::sort(expected.begin(), expected.end());
+  EXPECT_EQ(ignored, expected);
+  fs::path p;
+  uint64_t bytes = 0;
+  for (int i = 0; i < 3; ++i) ASSERT_TRUE(store.Write("ours", 1, &p, &bytes, &error)) << error;
+  EXPECT_EQ(p.filename(), "snapshot-00000000000000000003.bls");
+  EXPECT_EQ(store.ListNewestFirst().front(), p);
+  for (const auto& name : planted) EXPECT_TRUE(fs::exists(dir.path() / name)) << name;
+}
+
+TEST(SnapshotStoreTest, TheLastSaneGenerationIsRestoredButNotWrittenBeyond) {
+  TempDir dir;
+  WriteAll(dir.path() / "snapshot-00000281474976710656.bls", EncodeSnapshotFile("last", 1));
+  SnapshotStore store(dir.path());
+  std::string error;
+  ASSERT_TRUE(store.Open(&error)) << error;
+  ASSERT_EQ(store.ListNewestFirst().size(), 1u);
+  fs::path p;
+  uint64_t bytes = 0;
+  EXPECT_FALSE(store.Write("next", 1, &p, &bytes, &error));
+  EXPECT_NE(error.find("exceeds"), std::string::npos) << error;
+}
+
+TEST(SnapshotStoreTest, MoveAsideKeepsAFileOutOfRotationAndPruning) {
+  TempDir dir;
+  SnapshotStore store(dir.path());
+  std::string error;
+  ASSERT_TRUE(store.Open(&error));
+  fs::path p;
+  uint64_t bytes = 0;
+  ASSERT_TRUE(store.Write("one", 1, &p, &bytes, &error));
+  ASSERT_TRUE(store.Write("two", 1, &p, &bytes, &error));
+  fs::path moved;
+  ASSERT_TRUE(store.MoveAside(p, &moved, &error)) << error;
+  EXPECT_EQ(moved.parent_path(), dir.path() / "damaged");
+  EXPECT_TRUE(moved.filename().string().starts_with("snapshot-00000000000000000002.bls."));
+  EXPECT_EQ(ReadAll(moved), EncodeSnapshotFile("two", 1));
+  fs::path again;
+  ASSERT_TRUE(store.Write("two again", 1, &again, &bytes, &error));
+  ASSERT_TRUE(store.MoveAside(again, &again, &error)) << error;  // same second: a second name
+  EXPECT_NE(again, moved);
+  for (int i = 0; i < 4; ++i) ASSERT_TRUE(store.Write("more", 1, &p, &bytes, &error));
+  EXPECT_TRUE(fs::exists(moved));
+  EXPECT_TRUE(fs::exists(again));
+  EXPECT_EQ(store.ListNewestFirst().size(), 2u);
 }
 
 }  // namespace
