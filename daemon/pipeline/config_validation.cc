@@ -7,6 +7,7 @@
 #include "daemon/pipeline/detector_setup.h"
 #include "daemon/pipeline/estimator_slot.h"
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/resource_limits.h"
 #include "daemon/pipeline/resolved_spec.h"
 
 namespace bayline::pipeline {
@@ -268,6 +269,9 @@ Status ValidateConfig(const bayline::v1::DaemonConfig& config) {
   const auto& limits = config.limits();
   if (limits.max_channel_name_bytes() > 65536) return Bad("limits.max_channel_name_bytes", "must be <= 65536");
   if (limits.max_regressors() > 64) return Bad("limits.max_regressors", "must be <= 64");
+  if (const std::string why = CheckResourceLimits(limits); !why.empty()) {
+    return Status::Error(est::ErrorCode::kInvalidConfig, why);
+  }
   const uint32_t max_regressors = limits.max_regressors() > 0 ? limits.max_regressors() : 32;
   const auto check_endpoint = [](const std::string& e, const std::string& path) {
     if (e.find("://") == std::string::npos) return Bad(path, "\"" + e + "\" is not an endpoint (tcp://host:port, ipc://path)");

@@ -29,6 +29,8 @@ std::vector<Token> Tokenize(std::string_view p) {
       }
     } else if (p[i] == '?') {
       tokens.push_back({TokenKind::kOne});
+    } else if (p[i] == '\\' && i + 1 < p.size()) {
+      tokens.push_back({TokenKind::kLiteral, p[++i]});
     } else {
       tokens.push_back({TokenKind::kLiteral, p[i]});
     }
@@ -48,6 +50,8 @@ bool GlobMatch(std::string_view pattern, std::string_view name) {
   next[n] = 1;  // empty pattern matches the empty rest
   for (std::size_t t = tokens.size(); t-- > 0;) {
     const Token& tok = tokens[t];
+    // kAnyDirs: some k >= j has name[k] == '/' and next[k + 1] (maintained from the right).
+    bool slash_then_match = false;
     for (std::size_t j = n + 1; j-- > 0;) {
       bool m = false;
       switch (tok.kind) {
@@ -68,10 +72,8 @@ bool GlobMatch(std::string_view pattern, std::string_view name) {
           m = next[j] || (j < n && cur[j + 1]);
           break;
         case TokenKind::kAnyDirs:  // empty, or any run ending in '/' (then the rest)
-          m = next[j];
-          if (!m) {
-            for (std::size_t k = j; k < n && !m; ++k) m = name[k] == '/' && next[k + 1];
-          }
+          if (j < n && name[j] == '/' && next[j + 1]) slash_then_match = true;
+          m = next[j] || slash_then_match;
           break;
       }
       cur[j] = m ? 1 : 0;

@@ -171,6 +171,14 @@ void MergeConfigOver(const bayline::v1::DaemonConfig& overlay, bayline::v1::Daem
   if (ol.max_channel_name_bytes() != 0) bl->set_max_channel_name_bytes(ol.max_channel_name_bytes());
   if (ol.max_frame_bytes() != 0) bl->set_max_frame_bytes(ol.max_frame_bytes());
   if (ol.max_regressors() != 0) bl->set_max_regressors(ol.max_regressors());
+  if (ol.max_ingest_message_bytes() != 0) {
+    bl->set_max_ingest_message_bytes(ol.max_ingest_message_bytes());
+  }
+  if (ol.max_control_message_bytes() != 0) {
+    bl->set_max_control_message_bytes(ol.max_control_message_bytes());
+  }
+  if (ol.ingest_queue_bytes() != 0) bl->set_ingest_queue_bytes(ol.ingest_queue_bytes());
+  if (ol.max_queued_bytes() != 0) bl->set_max_queued_bytes(ol.max_queued_bytes());
   if (!overlay.log_level().empty()) base->set_log_level(overlay.log_level());
   if (overlay.rules_size() > 0) *base->mutable_rules() = overlay.rules();
   if (!overlay.shard().empty()) base->set_shard(overlay.shard());

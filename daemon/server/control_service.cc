@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <limits>
 
+#include "daemon/pipeline/glob.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/routing.h"
 
@@ -77,6 +78,10 @@ Worker* ControlService::OwnerOf(std::string_view channel) const {
 }
 
 bayline::v1::Reply ControlService::List(const std::string& glob) {
+  if (glob.size() > pipeline::kMaxGlobBytes) {
+    return Error("list: glob of " + std::to_string(glob.size()) + " bytes exceeds the limit of " +
+                 std::to_string(pipeline::kMaxGlobBytes) + " bytes");
+  }
   bayline::v1::Reply reply;
   auto* channels = reply.mutable_channels()->mutable_channels();
   for (const auto& worker : workers_) {

@@ -7,6 +7,8 @@
 #include <cstdlib>
 #include <thread>
 
+#include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/resource_limits.h"
 #include "daemon/server/config_loader.h"
 #include "daemon/server/persistence.h"
 
@@ -14,6 +16,7 @@ namespace bayline::server {
 namespace {
 
 constexpr size_t kWorkerQueueCapacity = 64;  // batches of up to Ingest::kMaxBatch observations
+constexpr int kControlReceiveMessages = 64;   // requests queued per control client
 constexpr double kDefaultSnapshotEveryS = 60;
 
 bool JournalPolicyOf(const bayline::v1::Journal& journal, JournalPolicy* policy) {
@@ -84,14 +87,18 @@ bool Daemon::Start() {
     spdlog::error("{}", error);
     return false;
   }
+  const pipeline::ResourceLimits limits =
+      pipeline::EffectiveResourceLimits(config_.limits(), worker_count);
   std::vector<Worker*> raw_workers;
   for (size_t i = 0; i < worker_count; ++i) {
     workers_.push_back(std::make_unique<Worker>(int(i), std::move(pipelines[i]), *publisher_,
-                                                kWorkerQueueCapacity));
+                                                kWorkerQueueCapacity,
+                                                limits.queued_bytes_per_worker));
     raw_workers.push_back(workers_.back().get());
   }
-  ingest_ =
-      std::make_unique<Ingest>(context_, raw_workers, shard_, config_.limits().max_frame_bytes());
+  ingest_ = std::make_unique<Ingest>(context_, raw_workers, shard_,
+                                     config_.limits().max_frame_bytes(),
+                                     limits.ingest_message_bytes, limits.ingest_receive_messages);
   IngestEndpoints endpoints;
   for (const auto& e : config_.endpoints().pull_bind()) endpoints.pull_bind.push_back(e);
   for (const auto& e : config_.endpoints().sub_connect()) endpoints.sub_connect.push_back(e);
@@ -100,6 +107,7 @@ bool Daemon::Start() {
     spdlog::error("{}", error);
     return false;
   }
+  control_message_bytes_ = limits.control_message_bytes;
   if (!BindControl(config_.endpoints().control_bind(), &error)) {
     spdlog::error("{}", error);
     return false;
@@ -119,9 +127,13 @@ bool Daemon::Start() {
   ingest_->Start();
   std::vector<std::string> pulls(ingest_bound.begin(),
                                  ingest_bound.begin() + endpoints.pull_bind.size());
+  // Printed at every log level: it is how `*` ports are discovered.
+  const auto level = spdlog::get_level();
+  if (level > spdlog::level::info) spdlog::set_level(spdlog::level::info);
   spdlog::info("ready: pull={} sub={} publish={} control={} workers={} shard={}/{} state_dir={}",
                Join(pulls), Join(endpoints.sub_connect), publish_endpoint, control_endpoint_,
                worker_count, shard_.index, shard_.count, store_->dir().string());
+  spdlog::set_level(level);
   return true;
 }
 
@@ -192,9 +204,16 @@ void Daemon::HandleControl() {
       if (!more) break;
     }
     if (parts.empty()) return;  // woken without a request: nothing to answer
-    const bayline::v1::Reply reply = parts.size() == 1
-                                         ? control_service_->HandleBytes(parts[0].to_string_view())
-                                         : control_service_->RejectMultipart(parts.size());
+    bayline::v1::Reply reply = parts.size() == 1
+                                   ? control_service_->HandleBytes(parts[0].to_string_view())
+                                   : control_service_->RejectMultipart(parts.size());
+    // Errors and messages quote outside bytes (config files, requests): clients parse them as UTF-8.
+    if (!pipeline::IsValidUtf8(reply.error())) {
+      reply.set_error(pipeline::ReplaceInvalidUtf8(reply.error()));
+    }
+    if (!pipeline::IsValidUtf8(reply.message())) {
+      reply.set_message(pipeline::ReplaceInvalidUtf8(reply.message()));
+    }
     const std::string bytes = reply.SerializeAsString();
     control_->send(zmq::buffer(bytes), zmq::send_flags::none);  // REP: never blocks
   } catch (const zmq::error_t& e) {
@@ -210,6 +229,8 @@ bool Daemon::BindControl(const std::string& endpoint, std::string* error) {
     control_.reset();  // an old socket closes before its endpoint is bound again
     control_ = std::make_unique<zmq::socket_t>(context_, zmq::socket_type::rep);
     control_->set(zmq::sockopt::linger, 0);
+    control_->set(zmq::sockopt::maxmsgsize, int64_t(control_message_bytes_));
+    control_->set(zmq::sockopt::rcvhwm, kControlReceiveMessages);
     control_->bind(endpoint);
     control_endpoint_ = control_->get(zmq::sockopt::last_endpoint);
   } catch (const zmq::error_t& e) {
@@ -339,6 +360,7 @@ bool Daemon::Reload(std::string* message) {
 
 bool Daemon::Shutdown() {
   ingest_->Stop();  // hands its partial batches to the workers
+  for (auto& w : workers_) w->Drain();  // control calls overtake the queues: drain them first
   bayline::v1::SnapshotInfo info;
   std::string error;
   // Queued behind every batch: the workers drain first.

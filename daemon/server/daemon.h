@@ -74,6 +74,7 @@ class Daemon : public DaemonActions {
   std::unique_ptr<Publisher> publisher_;
   std::vector<std::unique_ptr<Worker>> workers_;
   std::unique_ptr<Ingest> ingest_;
+  uint64_t control_message_bytes_ = 0;       // ZMQ_MAXMSGSIZE of the control socket
   std::unique_ptr<JournalWriter> journal_;  // null when the journal is off
   uint64_t journal_next_segment_ = 0;       // first segment no snapshot covers yet
   std::unique_ptr<zmq::socket_t> control_;

@@ -17,8 +17,6 @@
 namespace bayline::server {
 namespace {
 
-constexpr int kIngestHighWaterMark = 100000;
-
 // The counters have one writer, the ingest thread: a plain load and store, no locked instruction.
 void Increment(std::atomic<uint64_t>& counter) {
   counter.store(counter.load(std::memory_order_relaxed) + 1, std::memory_order_relaxed);
@@ -40,11 +38,13 @@ int64_t SteadyNs() {
 }  // namespace
 
 Ingest::Ingest(zmq::context_t& context, std::vector<Worker*> workers, Shard shard,
-               uint32_t max_frame_bytes)
+               uint32_t max_frame_bytes, uint32_t ingest_message_bytes, int ingest_receive_messages)
     : context_(context),
       workers_(std::move(workers)),
       shard_(shard),
       max_frame_bytes_(max_frame_bytes),
+      ingest_message_bytes_(ingest_message_bytes),
+      ingest_receive_messages_(ingest_receive_messages),
       wake_fd_(eventfd(0, EFD_CLOEXEC | EFD_NONBLOCK)),
       pending_(workers_.size()) {}
 
@@ -64,7 +64,8 @@ bool Ingest::Bind(const IngestEndpoints& endpoints, std::vector<std::string>* bo
     for (const auto& endpoint : endpoints.pull_bind) {
       current = "pull_bind " + endpoint;
       zmq::socket_t s(context_, zmq::socket_type::pull);
-      s.set(zmq::sockopt::rcvhwm, kIngestHighWaterMark);
+      s.set(zmq::sockopt::rcvhwm, ingest_receive_messages_);
+      s.set(zmq::sockopt::maxmsgsize, int64_t(ingest_message_bytes_));
       s.set(zmq::sockopt::linger, 0);
       s.bind(endpoint);
       bound->push_back(s.get(zmq::sockopt::last_endpoint));
@@ -73,7 +74,8 @@ bool Ingest::Bind(const IngestEndpoints& endpoints, std::vector<std::string>* bo
     for (const auto& endpoint : endpoints.sub_connect) {
       current = "sub_connect " + endpoint;
       zmq::socket_t s(context_, zmq::socket_type::sub);
-      s.set(zmq::sockopt::rcvhwm, kIngestHighWaterMark);
+      s.set(zmq::sockopt::rcvhwm, ingest_receive_messages_);
+      s.set(zmq::sockopt::maxmsgsize, int64_t(ingest_message_bytes_));
       s.set(zmq::sockopt::linger, 0);
       s.set(zmq::sockopt::subscribe, "");
       s.connect(endpoint);
@@ -134,7 +136,9 @@ void Ingest::RunBoundaryTask() {
 }
 
 void Ingest::ReplayFrame(std::string_view frame, int64_t arrival_ns) {
+  ++frame_number_;  // any number that differs from the previous frame's
   HandleFrame(frame, arrival_ns, /*journal=*/false);
+  MarkFrameEnds();
 }
 
 void Ingest::Run() {
@@ -192,8 +196,20 @@ bool Ingest::HandleMessage(zmq::socket_t& socket) {
     part = std::move(next);
   }
   Increment(frames_received_);
+  frame_number_ = frames_received_.load(std::memory_order_relaxed);
   HandleFrame(part.to_string_view(), NowNs(), /*journal=*/true);
+  MarkFrameEnds();
   return true;
+}
+
+void Ingest::MarkFrameEnds() {
+  // Route hands a batch over only when a further observation comes for it, so each worker's last
+  // entry of this frame is still pending here.
+  for (auto& batch : pending_) {
+    if (batch && batch->size() > 0 && batch->entries.back().frame == frame_number_) {
+      batch->entries.back().frame_end = true;
+    }
+  }
 }
 
 void Ingest::HandleFrame(std::string_view frame, int64_t arrival_ns, bool journal) {
@@ -250,10 +266,12 @@ void Ingest::Route(std::string_view channel, std::string_view observation, int64
   }
   const size_t worker = WorkerOf(h, shard_, workers_.size());
   auto& batch = pending_[worker];
+  if (batch && (batch->size() >= kMaxBatch || batch->bytes.size() >= kMaxBatchBytes)) {
+    Flush(worker);
+  }
   if (!batch) batch = workers_[worker]->TakeEmptyBatch();
-  batch->Add(observation, arrival_ns, h);
+  batch->Add(observation, arrival_ns, h, frame_number_);
   Increment(observations_received_);
-  if (batch->size() >= kMaxBatch || batch->bytes.size() >= kMaxBatchBytes) Flush(worker);
 }
 
 void Ingest::Reject(const char* reason, std::string detail, int64_t arrival_ns) {

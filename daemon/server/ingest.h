@@ -4,16 +4,21 @@
 // observation to its worker in per-worker batches; the workers decode them.
 //
 // Frames: a message's last part is the IngestFrame (earlier parts, e.g. a producer's PUB topic,
-// are ignored). A frame over max_frame_bytes is refused as "oversized_frame" without decoding; one
-// that does not decode, or holds neither an observation nor a batch, as "malformed_frame". Both
-// are handed to worker 0, whose pipeline publishes the InputError and counts it.
+// are ignored). ZeroMQ refuses a message part larger than the ingest message size (ZMQ_MAXMSGSIZE)
+// by dropping the producer's connection, and queues at most the ingest receive count of messages
+// per connected producer (ZMQ_RCVHWM): pipeline/resource_limits.h. A frame over max_frame_bytes
+// is refused as "oversized_frame" without decoding; one that does not decode, or holds neither an
+// observation nor a batch, as "malformed_frame". Both are handed to worker 0, whose pipeline
+// publishes the InputError and counts it.
 //
 // Routing: h = pipeline::ChannelHash(channel); the daemon keeps h % shard.count == shard.index and
 // sends it to worker (h / shard.count) % workers (dividing first keeps the workers balanced when
-// shard.count and the worker count share factors). A batch is handed over when it reaches
-// kMaxBatch observations or kMaxBatchBytes (which bounds the memory a queue of large observations
-// holds), or when no more frames are waiting, so latency stays low at low rates. Ingest never
-// estimates: every observation is processed on the worker thread that owns its channel.
+// shard.count and the worker count share factors). A batch is handed over when it has
+// kMaxBatch observations or kMaxBatchBytes and another observation comes for it, or when no more
+// frames are waiting, so latency stays low at low rates; the workers' queues bound the bytes
+// queued (Worker). Each entry carries its frame's number, and the last entry of a frame for each
+// worker is marked (the worker bounds a frame's input errors). Ingest never estimates: every
+// observation is processed on the worker thread that owns its channel.
 //
 // Journal (journal.h): when set, every frame within the size limit is appended to the journal
 // before its observations are routed; a frame the journal cannot take is refused
@@ -54,8 +59,10 @@ class Ingest {
   static constexpr size_t kMaxBatch = 512;
   static constexpr size_t kMaxBatchBytes = size_t(1) << 20;
 
+  // ingest_message_bytes and ingest_receive_messages: pipeline::ResourceLimits.
   Ingest(zmq::context_t& context, std::vector<Worker*> workers, Shard shard,
-         uint32_t max_frame_bytes);
+         uint32_t max_frame_bytes, uint32_t ingest_message_bytes = UINT32_MAX,
+         int ingest_receive_messages = 100000);
   ~Ingest();
   Ingest(const Ingest&) = delete;
   Ingest& operator=(const Ingest&) = delete;
@@ -102,6 +109,7 @@ class Ingest {
   void Route(std::string_view channel, std::string_view observation, int64_t arrival_ns);
   void RouteDecoded(const bayline::v1::Observation& observation, int64_t arrival_ns);
   void Reject(const char* reason, std::string detail, int64_t arrival_ns);
+  void MarkFrameEnds();
   void Flush(size_t worker);
   void FlushAll();
 
@@ -109,6 +117,8 @@ class Ingest {
   std::vector<Worker*> workers_;
   Shard shard_;
   std::atomic<uint32_t> max_frame_bytes_;
+  const uint32_t ingest_message_bytes_;
+  const int ingest_receive_messages_;
   std::vector<zmq::socket_t> sockets_;  // PULL and SUB ingest sockets
   int wake_fd_;  // eventfd: Stop() and RunAtFrameBoundary() wake the ingest thread's poll
   std::atomic<bool> stopping_{false};
@@ -127,6 +137,7 @@ class Ingest {
   bayline::v1::IngestFrame frame_;  // frames the scanner leaves to protobuf
   std::string encoded_;
   std::vector<std::unique_ptr<IngestBatch>> pending_;  // one per worker
+  uint64_t frame_number_ = 0;                          // of the frame being routed
   RateLimitedLog log_;
 
   std::atomic<uint64_t> frames_received_{0};

@@ -5,8 +5,11 @@
 namespace bayline::server {
 
 Worker::Worker(int index, std::unique_ptr<pipeline::Pipeline> pipeline, Publisher& publisher,
-               size_t queue_capacity)
-    : index_(index), pipeline_(std::move(pipeline)), sink_(publisher), queue_(queue_capacity) {}
+               size_t queue_capacity, uint64_t queue_bytes)
+    : index_(index),
+      pipeline_(std::move(pipeline)),
+      sink_(publisher),
+      queue_(queue_capacity, queue_bytes) {}
 
 Worker::~Worker() { Stop(); }
 
@@ -42,15 +45,23 @@ std::unique_ptr<IngestBatch> Worker::TakeEmptyBatch() {
 }
 
 void Worker::Submit(std::unique_ptr<IngestBatch> batch) {
+  const uint64_t bytes = batch->bytes.size();
   Item item;
   item.batch = std::move(batch);
-  queue_.Push(std::move(item));
+  queue_.Push(std::move(item), bytes);
 }
 
 void Worker::Post(Task task) {
   Item item;
   item.task = std::move(task);
   queue_.Push(std::move(item));
+}
+
+void Worker::Drain() {
+  std::promise<void> done;
+  std::future<void> drained = done.get_future();
+  Post([&done](pipeline::Pipeline&) { done.set_value(); });
+  drained.wait();
 }
 
 void Worker::PostFrameRejection(std::string reason, std::string detail, int64_t arrival_ns) {
@@ -62,19 +73,64 @@ void Worker::PostFrameRejection(std::string reason, std::string detail, int64_t 
 
 void Worker::Recycle(std::unique_ptr<IngestBatch> batch) {
   batch->Clear();
+  if (batch->bytes.capacity() > kKeptBatchCapacity) std::string().swap(batch->bytes);
   std::lock_guard lock(free_mutex_);
-  free_batches_.push_back(std::move(batch));
+  if (free_batches_.size() < kKeptFreeBatches) free_batches_.push_back(std::move(batch));
 }
 
+namespace {
+
+// End of the run of entries from begin on that came in the same frame.
+size_t FrameRunEnd(const IngestBatch& batch, size_t begin) {
+  size_t end = begin + 1;
+  while (end < batch.size() && batch.entries[end].frame == batch.entries[begin].frame) ++end;
+  return end;
+}
+
+// A run that is a frame's whole share for this worker (not continued from an earlier batch nor
+// into a later one) and too short to exceed the input-error bound.
+bool WholeShortFrame(const IngestBatch& batch, size_t begin, size_t end,
+                     const FrameErrorLimit& limit) {
+  const bool continued = limit.open() && limit.frame() == batch.entries[begin].frame;
+  return !continued && batch.entries[end - 1].frame_end &&
+         end - begin <= FrameErrorLimit::kIndividual;
+}
+
+}  // namespace
+
 void Worker::ProcessBatch(const IngestBatch& batch) {
-  // Decode the whole batch into reused messages, then let the pipeline process it in one call
+  // Frames too short to exceed the input-error bound (the usual single observations and small
+  // batches) go to the pipeline together, unlimited; a longer frame goes on its own, limited.
+  size_t begin = 0;
+  while (begin < batch.size()) {
+    size_t end = FrameRunEnd(batch, begin);
+    if (WholeShortFrame(batch, begin, end, frame_errors_)) {
+      while (end < batch.size()) {
+        const size_t next = FrameRunEnd(batch, end);
+        if (!WholeShortFrame(batch, end, next, frame_errors_)) break;
+        end = next;
+      }
+      frame_errors_.End();
+      ProcessRange(batch, begin, end, sink_);
+    } else {
+      frame_errors_.Begin(batch.entries[begin].frame, batch.entries[begin].arrival_ns);
+      ProcessRange(batch, begin, end, frame_errors_);
+      if (batch.entries[end - 1].frame_end) frame_errors_.End();
+    }
+    begin = end;
+  }
+}
+
+void Worker::ProcessRange(const IngestBatch& batch, size_t begin, size_t end,
+                          pipeline::PublicationSink& sink) {
+  // Decode the range into reused messages, then let the pipeline process it in one call
   // (pipeline::Pipeline::ProcessBatch looks up the next observations' channels ahead).
   auto* observations = decoded_.mutable_observations();
   observations->Clear();  // keeps the cleared messages, and their buffers, for reuse
   arrival_ns_.clear();
   channel_hashes_.clear();
   bool decoded = true;
-  for (size_t i = 0; i < batch.size() && decoded; ++i) {
+  for (size_t i = begin; i < end && decoded; ++i) {
     const std::string_view bytes = batch.At(i);
     decoded = observations->Add()->ParseFromArray(bytes.data(), int(bytes.size()));
     arrival_ns_.push_back(batch.entries[i].arrival_ns);
@@ -83,21 +139,21 @@ void Worker::ProcessBatch(const IngestBatch& batch) {
   if (decoded) {
     // The ingest thread hashed the names to route them (frame_scan.h reads the very name that
     // protobuf decodes), so the pipeline does not hash them again.
-    pipeline_->ProcessBatch(*observations, arrival_ns_, channel_hashes_, sink_);
+    pipeline_->ProcessBatch(*observations, arrival_ns_, channel_hashes_, sink);
     return;
   }
   // Not expected (ingest hands over only observations that decode): one at a time, refusing the
   // ones that do not decode.
-  for (size_t i = 0; i < batch.size(); ++i) {
+  for (size_t i = begin; i < end; ++i) {
     const std::string_view bytes = batch.At(i);
     const int64_t arrival_ns = batch.entries[i].arrival_ns;
     if (observation_.ParseFromArray(bytes.data(), int(bytes.size()))) {
-      pipeline_->Process(observation_, arrival_ns, sink_);
+      pipeline_->Process(observation_, arrival_ns, sink);
     } else {
       pipeline_->RejectFrame("malformed_frame",
                              "observation of " + std::to_string(bytes.size()) +
                                  " bytes is not a bayline.v1.Observation",
-                             arrival_ns, sink_);
+                             arrival_ns, sink);
     }
   }
 }

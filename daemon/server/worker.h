@@ -1,16 +1,25 @@
 // A worker thread: owns one pipeline::Pipeline (a partition of the channels) exclusively and is
 // reached only by message passing through its bounded WorkQueue:
-//   * observation batches from the ingest thread (processed in order, so per-channel order holds);
-//   * tasks from the supervisor thread (control requests, snapshots, reload), run on the worker's
+//   * observation batches from the ingest thread (processed in order, so per-channel order holds),
+//     in the queue's ordered lane, bounded by count and by bytes (backpressure to ingest);
+//   * tasks from the supervisor thread: Call (control requests, snapshots, reload) uses the urgent
+//     lane, so it runs after the batch in progress and before the queued ones: a control request
+//     waits for at most one batch (<= Ingest::kMaxBatch observations), however full the queue.
+//     Post and Drain are ordered (after everything queued). Either way a task runs on the worker's
 //     own thread between batches, so no two threads ever touch the pipeline at once.
 // Publications are collected while an item is processed and sent on the shared PUB socket
-// (Publisher) when it is done, before the worker can block again.
+// (Publisher) when it is done, before the worker can block again. The input errors of one ingest
+// frame are bounded (FrameErrorLimit: the first 16 published, then one summary per frame).
+//
+// Memory: the queued batches hold at most queue_bytes + one batch; at most kKeptFreeBatches
+// emptied batches are kept for reuse, each with at most kKeptBatchCapacity bytes of buffer.
 //
 // Lifetime: construct (in the supervisor thread) -> Start() -> ... -> Stop() (drains the queue,
 // then joins). Submit/Call after Stop are programmer errors.
 #pragma once
 
 #include <atomic>
+#include <cstdint>
 #include <functional>
 #include <future>
 #include <memory>
@@ -22,6 +31,7 @@
 
 #include "bayline/v1/observation.pb.h"
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/server/frame_error_limit.h"
 #include "daemon/server/publication_sink.h"
 #include "daemon/server/publisher.h"
 #include "daemon/server/work_queue.h"
@@ -38,13 +48,16 @@ struct IngestBatch {
     uint32_t size = 0;
     int64_t arrival_ns = 0;
     uint64_t channel_hash = 0;  // pipeline::ChannelHash of the observation's channel name
+    uint64_t frame = 0;         // the ingest frame it came in (numbered from 1 by ingest)
+    bool frame_end = false;     // the frame's last observation for this worker
   };
   std::string bytes;
   std::vector<Entry> entries;
 
-  void Add(std::string_view observation, int64_t arrival_ns, uint64_t channel_hash) {
-    entries.push_back(
-        {uint32_t(bytes.size()), uint32_t(observation.size()), arrival_ns, channel_hash});
+  void Add(std::string_view observation, int64_t arrival_ns, uint64_t channel_hash,
+           uint64_t frame) {
+    entries.push_back({uint32_t(bytes.size()), uint32_t(observation.size()), arrival_ns,
+                       channel_hash, frame, false});
     bytes.append(observation);
   }
   std::string_view At(size_t i) const {
@@ -61,9 +74,13 @@ class Worker {
  public:
   using Task = std::function<void(pipeline::Pipeline&)>;
 
-  // `publisher` (bound already) must outlive the worker.
+  static constexpr size_t kKeptFreeBatches = 8;
+  static constexpr size_t kKeptBatchCapacity = size_t(2) << 20;
+
+  // `publisher` (bound already) must outlive the worker. The queue holds at most queue_capacity
+  // items and queue_bytes bytes of batches (plus one batch).
   Worker(int index, std::unique_ptr<pipeline::Pipeline> pipeline, Publisher& publisher,
-         size_t queue_capacity);
+         size_t queue_capacity, uint64_t queue_bytes = UINT64_MAX);
   ~Worker();
   Worker(const Worker&) = delete;
   Worker& operator=(const Worker&) = delete;
@@ -73,24 +90,29 @@ class Worker {
   void Stop();
 
   // Ingest thread: an empty batch to fill (recycled when possible), and handing it over (blocks
-  // while the queue is full).
+  // while the queue is full, by count or by bytes).
   std::unique_ptr<IngestBatch> TakeEmptyBatch();
   void Submit(std::unique_ptr<IngestBatch> batch);
 
   // Runs `task` on the worker thread after everything queued before it; does not wait.
   void Post(Task task);
+  // Waits until everything queued before it has been processed.
+  void Drain();
 
   // Ingest thread: a frame that could not be decoded, to be published and counted by this
   // worker's pipeline (pipeline::Pipeline::RejectFrame).
   void PostFrameRejection(std::string reason, std::string detail, int64_t arrival_ns);
 
-  // Runs `fn(pipeline)` on the worker thread and waits for its result.
+  // Runs `fn(pipeline)` on the worker thread before the queued batches (after the one in
+  // progress) and waits for its result.
   template <typename Fn>
   auto Call(Fn fn) -> decltype(fn(std::declval<pipeline::Pipeline&>())) {
     using R = decltype(fn(std::declval<pipeline::Pipeline&>()));
     auto task = std::make_shared<std::packaged_task<R(pipeline::Pipeline&)>>(std::move(fn));
     auto result = task->get_future();
-    Post([task](pipeline::Pipeline& p) { (*task)(p); });
+    Item item;
+    item.task = [task](pipeline::Pipeline& p) { (*task)(p); };
+    queue_.PushUrgent(std::move(item));
     return result.get();
   }
 
@@ -111,14 +133,19 @@ class Worker {
     bool stop = false;
   };
   void Run();
-  // Decodes the batch and runs it through the pipeline (worker thread).
+  // Decodes the batch and runs it through the pipeline (worker thread), frame by frame where a
+  // frame's input errors may need limiting.
   void ProcessBatch(const IngestBatch& batch);
+  // Entries [begin, end) of the batch, publishing to `sink`.
+  void ProcessRange(const IngestBatch& batch, size_t begin, size_t end,
+                    pipeline::PublicationSink& sink);
   void Recycle(std::unique_ptr<IngestBatch> batch);
 
   const int index_;
   std::unique_ptr<pipeline::Pipeline> pipeline_;
   // Used only by the worker thread.
   ZmqPublicationSink sink_;
+  FrameErrorLimit frame_errors_{sink_};
   bayline::v1::ObservationBatch decoded_;  // decoding buffers
   std::vector<int64_t> arrival_ns_;
   std::vector<uint64_t> channel_hashes_;
