@@ -78,9 +78,10 @@ class GaussianLs {
   Ls ls_;
 };
 
-// What a slot can do follows from its estimator's type (estimator_slot.cc): it predicts when the
-// estimator has a Predict(x, level) member, inflates when it has InflateUncertainty(factor), and
-// passes recursive residuals when its Update takes one. Adding an estimator means adding its type
+// What a slot can do follows from its estimator's type (the concepts in estimator_slot.cc): it
+// predicts when the estimator has Predict(x, level) returning a Prediction or Predict(x, level,
+// &out) returning a Status, inflates when it has InflateUncertainty(factor), and passes recursive
+// residuals when its Update takes one. Adding an estimator means adding its type
 // to Alternatives and its (model, kind) to the mapping in estimator_slot.cc.
 class EstimatorSlot {
  public:
