@@ -7,7 +7,7 @@
 namespace bayline::pipeline {
 
 // Stable 64-bit FNV-1a hash of a channel name: partitions channels over shards and workers, and
-// keys the channel registry (also declared in pipeline.h, the public interface).
+// keys the channel registry.
 uint64_t ChannelHash(std::string_view name);
 
 // Why a name is refused; kOk when it is acceptable. Stable reason codes in ChannelNameReason().

@@ -59,7 +59,7 @@ void PipelineState::RejectName(const bayline::v1::Observation& obs, ChannelNameP
       : problem == ChannelNameProblem::kEmpty
           ? std::string("channel name is empty")
           : std::string("channel name is not valid UTF-8 or contains control characters");
-  publisher_.InputError(sink, "", obs.seq(), time_ns, ChannelNameReason(problem), detail);
+  publications_.InputError(sink, "", obs.seq(), time_ns, ChannelNameReason(problem), detail);
 }
 
 std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
@@ -67,22 +67,22 @@ std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
   const std::string& name = obs.channel();
   const int rule = rules_.Match(name);
   if (rule < 0) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "no_matching_rule",
-                          "no rule matches channel \"" + name + "\"");
+    publications_.InputError(sink, name, obs.seq(), time_ns, "no_matching_rule",
+                             "no rule matches channel \"" + name + "\"");
     return nullptr;
   }
   if (channels_.size() >= limits_.max_channels) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "channel_limit",
-                          "channel limit of " + std::to_string(limits_.max_channels) +
-                              " reached; new channels are refused");
+    publications_.InputError(sink, name, obs.seq(), time_ns, "channel_limit",
+                             "channel limit of " + std::to_string(limits_.max_channels) +
+                                 " reached; new channels are refused");
     return nullptr;
   }
   std::shared_ptr<const ResolvedSpec> spec;
   const est::Status s =
       rules_.ResolveForObservation(rule, static_cast<uint32_t>(obs.x_size()), &spec);
   if (!s.ok()) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
-                          s.message());
+    publications_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
+                             s.message());
     return nullptr;
   }
   return spec;
@@ -154,17 +154,17 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
     }
   }
   if (static_cast<uint64_t>(obs.x_size()) > limits_.max_regressors) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "too_many_regressors",
-                          "x has " + std::to_string(obs.x_size()) + " entries, limit " +
-                              std::to_string(limits_.max_regressors));
+    publications_.InputError(sink, name, obs.seq(), time_ns, "too_many_regressors",
+                             "x has " + std::to_string(obs.x_size()) + " entries, limit " +
+                                 std::to_string(limits_.max_regressors));
     return;
   }
   if (!obs.has_y()) {
     if (obs.x_size() > 0) {
       AnswerPrediction(ch, obs, time_ns, sink);
     } else {
-      publisher_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
-                            "y is missing (and no regressors: not a prediction request)");
+      publications_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
+                               "y is missing (and no regressors: not a prediction request)");
     }
     return;
   }
@@ -178,8 +178,8 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
 
   const est::Sample sample = BuildSample(spec, obs, time_ns);
   if (est::Status s = CheckObservation(spec, sample); !s.ok()) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
-                          s.message());
+    publications_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
+                             s.message());
     return;
   }
 
@@ -195,13 +195,13 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
     // Registered only once its first observation is absorbed: a rejection leaves no channel.
     ChannelPtr fresh = Channel::Create(std::move(new_spec), name);
     if (est::Status s = UpdateEstimators(*fresh, sample); !s.ok()) {
-      publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
+      publications_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
       return;
     }
     ch = channels_.InsertOrReplace(std::move(fresh));
     counters_.channels = channels_.size();
   } else if (est::Status s = UpdateEstimators(*ch, sample); !s.ok()) {
-    publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
+    publications_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
     return;
   }
 
@@ -256,11 +256,11 @@ void PipelineState::RunDetectors(Channel& ch, const est::Sample& sample, uint64_
       continue;
     }
     if (event.cleared) {
-      publisher_.Alarm(sink, name, setup, spec, event, false, seq, time_ns, sample.y);
+      publications_.Alarm(sink, name, setup, spec, event, false, seq, time_ns, sample.y);
     }
     if (event.raised) {
       detectors[d].RecordAlarm(
-          publisher_.Alarm(sink, name, setup, spec, event, true, seq, time_ns, sample.y));
+          publications_.Alarm(sink, name, setup, spec, event, true, seq, time_ns, sample.y));
       if (setup.inflate_on_alarm > 1 && ch.estimator(w).CanInflate()) {
         ch.estimator(w).Inflate(setup.inflate_on_alarm);  // factor validated: cannot fail
       }
@@ -278,8 +278,8 @@ void PipelineState::ApplyPublishPolicy(Channel& ch, uint64_t seq, int64_t time_n
     return;
   }
   for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
-    publisher_.Estimate(sink, ch.name(), spec, spec.estimators[i],
-                        ch.estimator(i).Report(spec.level), seq, time_ns, ch.accepted);
+    publications_.Estimate(sink, ch.name(), spec, spec.estimators[i],
+                           ch.estimator(i).Report(spec.level), seq, time_ns, ch.accepted);
   }
   p.since_publish = 0;
   p.last_publish_ns = time_ns;
@@ -290,24 +290,24 @@ void PipelineState::AnswerPrediction(const Channel* found, const bayline::v1::Ob
                                      int64_t time_ns, PublicationSink& sink) {
   const std::string& name = obs.channel();
   if (found == nullptr) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "unknown_channel",
-                          "prediction request for unknown channel \"" + name + "\"");
+    publications_.InputError(sink, name, obs.seq(), time_ns, "unknown_channel",
+                             "prediction request for unknown channel \"" + name + "\"");
     return;
   }
   const Channel& ch = *found;
   const ResolvedSpec& spec = *ch.spec;
   if (!IsRegressionModel(spec.model) ||
       static_cast<uint32_t>(obs.x_size()) != spec.regressor_count) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "wrong_regressor_count",
-                          "prediction request has " + std::to_string(obs.x_size()) +
-                              " regressors, channel expects " +
-                              std::to_string(spec.regressor_count));
+    publications_.InputError(sink, name, obs.seq(), time_ns, "wrong_regressor_count",
+                             "prediction request has " + std::to_string(obs.x_size()) +
+                                 " regressors, channel expects " +
+                                 std::to_string(spec.regressor_count));
     return;
   }
   for (double v : obs.x()) {
     if (!std::isfinite(v)) {
-      publisher_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
-                            "a regressor of the prediction request is not finite");
+      publications_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
+                               "a regressor of the prediction request is not finite");
       return;
     }
   }
@@ -318,23 +318,23 @@ void PipelineState::AnswerPrediction(const Channel* found, const bayline::v1::Ob
   for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
     if (!ch.estimator(i).CanPredict()) continue;
     const est::Prediction p = ch.estimator(i).Predict(x_full_, spec.level);
-    publisher_.Prediction(sink, name, spec.estimators[i],
-                          std::span<const double>(obs.x().data(), obs.x().size()), p, obs.seq(),
-                          time_ns);
+    publications_.Prediction(sink, name, spec.estimators[i],
+                             std::span<const double>(obs.x().data(), obs.x().size()), p, obs.seq(),
+                             time_ns);
     answered = true;
   }
   if (answered) {
     ++counters_.predictions;
   } else {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "cannot_predict",
-                          "no estimator of this channel predicts (model " +
-                              std::string(ModelName(spec.model)) + ")");
+    publications_.InputError(
+        sink, name, obs.seq(), time_ns, "cannot_predict",
+        "no estimator of this channel predicts (model " + std::string(ModelName(spec.model)) + ")");
   }
 }
 
 void PipelineState::RejectFrame(std::string_view reason, std::string_view detail,
                                 int64_t arrival_ns, PublicationSink& sink) {
-  publisher_.InputError(sink, "", 0, arrival_ns, reason, detail);
+  publications_.InputError(sink, "", 0, arrival_ns, reason, detail);
 }
 
 // ---- Pipeline: forwards to PipelineState.

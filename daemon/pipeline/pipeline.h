@@ -5,6 +5,9 @@
 // Both publish exactly the same things for the same observations, because everything that decides a
 // publication (rules, estimators, detectors, publish policy, sequence checks) lives here.
 //
+// Its interface uses: publication_sink.h (where publications go), counters.h (Counters),
+// daemon_config.h (ValidateConfig, DefaultConfig, ConfigDigest), channel_name.h (ChannelHash).
+//
 // Per observation (Process):
 //   1. validate the channel name (empty_channel_name, channel_name_too_long, invalid_channel_name)
 //      and the regressor count (too_many_regressors): the length always, the rest (UTF-8, control
@@ -28,8 +31,8 @@
 //
 // Sequence numbers: the channel keeps the highest seq accepted and a 64-bit bitmap of the 64
 // numbers up to it. seq 0 means "unnumbered" (numbered last_seq + 1). A seq above the highest is
-// new (a jump by more than one counts one gap); a seq inside the window is a duplicate if its bit is
-// set, else a late arrival (counted as reordered and absorbed); a seq more than 63 below the
+// new (a jump by more than one counts one gap); a seq inside the window is a duplicate if its bit
+// is set, else a late arrival (counted as reordered and absorbed); a seq more than 63 below the
 // highest cannot be told from a re-sent duplicate and is dropped as a duplicate.
 //
 // Time: Observation.time_ns, else the arrival time; estimators see seconds since the epoch.
@@ -41,7 +44,6 @@
 #pragma once
 
 #include <cstdint>
-#include <map>
 #include <memory>
 #include <optional>
 #include <span>
@@ -52,55 +54,18 @@
 #include "bayline/v1/config.pb.h"
 #include "bayline/v1/control.pb.h"
 #include "bayline/v1/observation.pb.h"
-#include "bayline/v1/publication.pb.h"
 #include "bayline/v1/snapshot.pb.h"
+#include "daemon/pipeline/counters.h"
+#include "daemon/pipeline/publication_sink.h"
 #include "estimators/core/status.h"
 
 namespace bayline::pipeline {
-
-// Where publications go. Topic = "<kind>/<channel>", kind in {estimate, alarm, input_error,
-// prediction}. The publication is only valid during the call (the pipeline reuses it).
-class PublicationSink {
- public:
-  virtual ~PublicationSink() = default;
-  virtual void Publish(const std::string& topic, const bayline::v1::Publication& publication) = 0;
-};
-
-// Stable 64-bit FNV-1a hash of a channel name, used to partition channels over workers and shards.
-uint64_t ChannelHash(std::string_view name);
-
-// Ok, or kInvalidConfig whose message names the field path, e.g.
-// "rules[2].spec.detectors[0].arl0: must be in [2, 1e7], got 1". Checks everything that can be
-// checked without data (threshold calibration runs when a Pipeline is built or reconfigured).
-bayline::est::Status ValidateConfig(const bayline::v1::DaemonConfig& config);
-
-// The embedded default configuration: loopback endpoints from daemon/defaults.h, default limits,
-// and one rule "default": match "**", model "auto", all estimators the model allows, a
-// self-starting CUSUM with arl0 1000 watching the first estimator.
-bayline::v1::DaemonConfig DefaultConfig();
-
-// Digest (16 hex digits) of a configuration, stored in snapshots.
-std::string ConfigDigest(const bayline::v1::DaemonConfig& config);
-
-struct Counters {
-  uint64_t accepted = 0;        // observations absorbed
-  uint64_t rejected_total = 0;  // InputErrors published (frames and observations)
-  uint64_t publications = 0;    // everything handed to a sink
-  uint64_t seq_gaps = 0;
-  uint64_t seq_duplicates = 0;
-  uint64_t seq_reordered = 0;
-  std::map<std::string, uint64_t> rejected_by_reason;
-  uint64_t channels = 0;        // channels currently held
-  uint64_t predictions = 0;     // prediction requests answered
-  uint64_t not_owned = 0;       // observations of another partition's channels (ignored)
-  uint64_t detector_skips = 0;  // detector updates skipped after a numerical failure
-};
 
 class PipelineState;  // the implementation (pipeline_state.h)
 
 class Pipeline {
  public:
-  // config must have passed ValidateConfig. Keeps only channels with
+  // config must have passed ValidateConfig (daemon_config.h). Keeps only channels with
   // ChannelHash(name) % partition_count == partition_index. Empty rules / zero limits mean the
   // defaults of DefaultConfig(). Calibrates every detector threshold of every rule (a rule whose
   // calibration fails rejects its channels with reason "invalid_config"; Reconfigure reports it).
@@ -121,7 +86,8 @@ class Pipeline {
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
                     std::span<const int64_t> arrival_ns, PublicationSink& sink);
   // The same, for a caller that has hashed the names already (the daemon's ingest thread, to route
-  // them): channel_hashes[i] must be ChannelHash(observations[i].channel()), and is then not
+  // them): channel_hashes[i] must be ChannelHash(observations[i].channel()) (channel_name.h), and
+  // is then not
   // computed again (an empty span: hashed here). Throws std::invalid_argument, processing nothing,
   // when a size differs.
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
@@ -169,9 +135,5 @@ class Pipeline {
  private:
   std::unique_ptr<PipelineState> state_;
 };
-
-// JSON rendering of a publication with protobuf's own JSON mapping (proto field names, snake_case,
-// zero values printed), one line, no trailing newline.
-std::string ToJsonLine(const bayline::v1::Publication& publication);
 
 }  // namespace bayline::pipeline

@@ -7,16 +7,22 @@
 #include <array>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "bayline/v1/config.pb.h"
+#include "bayline/v1/control.pb.h"
+#include "bayline/v1/observation.pb.h"
+#include "bayline/v1/snapshot.pb.h"
 #include "daemon/pipeline/channel.h"
 #include "daemon/pipeline/channel_name.h"
 #include "daemon/pipeline/channel_registry.h"
-#include "daemon/pipeline/pipeline.h"
-#include "daemon/pipeline/publications.h"
+#include "daemon/pipeline/counters.h"
+#include "daemon/pipeline/publication_builder.h"
+#include "daemon/pipeline/publication_sink.h"
 #include "daemon/pipeline/rule_set.h"
 
 namespace bayline::pipeline {
@@ -38,9 +44,10 @@ class PipelineState {
     ProcessHashed(obs, arrival_ns, nullptr, sink);
   }
   // channel_hashes: empty (hashed here) or ChannelHash of every observation's name.
-  void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
-                    std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
-                    PublicationSink& sink);
+  void ProcessBatch(
+      const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+      std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
+      PublicationSink& sink);
   void PrefetchSlot(uint64_t channel_hash) const { channels_.PrefetchSlot(channel_hash); }
   void PrefetchChannel(uint64_t channel_hash) const { channels_.PrefetchChannel(channel_hash); }
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
@@ -91,7 +98,7 @@ class PipelineState {
   RuleSet rules_;
   ChannelRegistry channels_;
   Counters counters_;
-  Publisher publisher_{&counters_};
+  PublicationBuilder publications_{&counters_};
 
   // Reused scratch of the per-observation path.
   std::vector<double> x_full_;

@@ -5,6 +5,7 @@
 #include <set>
 
 #include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/pipeline_state.h"
 
 namespace bayline::pipeline {

@@ -2,6 +2,8 @@
 
 #include <algorithm>
 
+#include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/counters.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/routing.h"
 

@@ -2,6 +2,7 @@
 
 #include <chrono>
 
+#include "daemon/pipeline/channel_name.h"
 #include "daemon/server/config_file.h"
 #include "daemon/server/routing.h"
 

@@ -10,7 +10,7 @@
 #include <gtest/gtest.h>
 
 #include "daemon/pipeline/channel_registry.h"
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/rule_set.h"
 
 namespace bayline::pipeline {

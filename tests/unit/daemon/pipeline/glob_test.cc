@@ -4,7 +4,6 @@
 
 #include "daemon/pipeline/channel_name.h"
 #include "daemon/pipeline/glob.h"
-#include "daemon/pipeline/pipeline.h"
 
 namespace bayline::pipeline {
 namespace {

@@ -220,17 +220,6 @@ TEST(ProcessTest, PredictionRequestAnswersAndChangesNothing) {
   EXPECT_EQ(sink.records[0].publication.input_error().reason(), "unknown_channel");
 }
 
-TEST(ProcessTest, JsonLineUsesProtoFieldNames) {
-  Pipeline p(DefaultConfig());
-  RecordingSink sink;
-  p.Process(Obs("site/a", 1, 2.0), kArrival, sink);
-  const std::string json = ToJsonLine(sink.records[0].publication);
-  EXPECT_NE(json.find("\"std_error\""), std::string::npos) << json;
-  EXPECT_NE(json.find("\"effective_n\""), std::string::npos) << json;
-  EXPECT_NE(json.find("\"channel\":\"site/a\""), std::string::npos) << json;
-  EXPECT_EQ(json.find('\n'), std::string::npos);
-}
-
 TEST(ProcessTest, PartitionKeepsOnlyOwnChannels) {
   Pipeline p0(DefaultConfig(), 0, 2), p1(DefaultConfig(), 1, 2);
   RecordingSink sink;
