@@ -18,7 +18,6 @@ struct Counters {
   std::map<std::string, uint64_t> rejected_by_reason;
   uint64_t channels = 0;        // channels currently held
   uint64_t predictions = 0;     // prediction requests answered
-  uint64_t not_owned = 0;       // observations of another partition's channels (ignored)
   uint64_t detector_skips = 0;  // detector updates skipped after a numerical failure
 };
 

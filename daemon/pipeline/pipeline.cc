@@ -20,12 +20,8 @@ EffectiveLimits LimitsOf(const bayline::v1::DaemonConfig& config) {
   return l;
 }
 
-PipelineState::PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                             uint32_t partition_count)
-    : config_(config),
-      limits_(LimitsOf(config)),
-      partition_index_(partition_index),
-      partition_count_(partition_count == 0 ? 1 : partition_count) {
+PipelineState::PipelineState(const bayline::v1::DaemonConfig& config)
+    : config_(config), limits_(LimitsOf(config)) {
   rules_.Build(config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
   x_full_.reserve(limits_.max_regressors + 1);
 }
@@ -146,10 +142,6 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
     if (const auto problem = CheckChannelName(name, limits_.max_channel_name_bytes);
         problem != ChannelNameProblem::kOk) {
       RejectName(obs, problem, time_ns, sink);
-      return;
-    }
-    if (!Owns(hash)) {  // registered channels are always owned
-      ++counters_.not_owned;
       return;
     }
   }
@@ -339,9 +331,8 @@ void PipelineState::RejectFrame(std::string_view reason, std::string_view detail
 
 // ---- Pipeline: forwards to PipelineState.
 
-Pipeline::Pipeline(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                   uint32_t partition_count)
-    : state_(std::make_unique<PipelineState>(config, partition_index, partition_count)) {}
+Pipeline::Pipeline(const bayline::v1::DaemonConfig& config)
+    : state_(std::make_unique<PipelineState>(config)) {}
 Pipeline::~Pipeline() = default;
 
 void Pipeline::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
@@ -358,10 +349,6 @@ void Pipeline::ProcessBatch(
     std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
     PublicationSink& sink) {
   state_->ProcessBatch(observations, arrival_ns, channel_hashes, sink);
-}
-void Pipeline::PrefetchSlot(uint64_t channel_hash) const { state_->PrefetchSlot(channel_hash); }
-void Pipeline::PrefetchChannel(uint64_t channel_hash) const {
-  state_->PrefetchChannel(channel_hash);
 }
 void Pipeline::RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                            PublicationSink& sink) {

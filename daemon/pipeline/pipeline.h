@@ -1,8 +1,9 @@
 // The pipeline: rules -> channel registry -> update -> detect -> publish policy.
 //
-// One Pipeline owns a partition of the channels (those with ChannelHash(name) % partition_count ==
-// partition_index). The daemon runs one per worker thread; `bayline replay` runs one over a file.
-// Both publish exactly the same things for the same observations, because everything that decides a
+// A Pipeline holds every channel of the observations it is given: which channels reach which
+// Pipeline is the caller's choice (the daemon runs one per worker thread and routes each channel
+// to one of them, daemon/server/routing.h; `bayline replay` runs one over a file). Both publish
+// exactly the same things for the same observations, because everything that decides a
 // publication (rules, estimators, detectors, publish policy, sequence checks) lives here.
 //
 // Its interface uses: publication_sink.h (where publications go), counters.h (Counters),
@@ -13,7 +14,8 @@
 //      and the regressor count (too_many_regressors): the length always, the rest (UTF-8, control
 //      characters) only for a name that is not registered, since a registered name was validated
 //      when its channel was created;
-//   2. find the channel (by ChannelHash, computed once and also deciding the partition), or
+//   2. find the channel (by ChannelHash, computed once, or taken from a caller that hashed the name
+//      to route it), or
 //      resolve a new one from the first matching rule (no_matching_rule, channel_limit); a rule
 //      with model "auto" becomes gaussian without regressors and linear with intercept with
 //      regressors; a new channel is registered only once its first observation is absorbed;
@@ -65,12 +67,10 @@ class PipelineState;  // the implementation (pipeline_state.h)
 
 class Pipeline {
  public:
-  // config must have passed ValidateConfig (daemon_config.h). Keeps only channels with
-  // ChannelHash(name) % partition_count == partition_index. Empty rules / zero limits mean the
+  // config must have passed ValidateConfig (daemon_config.h). Empty rules / zero limits mean the
   // defaults of DefaultConfig(). Calibrates every detector threshold of every rule (a rule whose
   // calibration fails rejects its channels with reason "invalid_config"; Reconfigure reports it).
-  Pipeline(const bayline::v1::DaemonConfig& config, uint32_t partition_index = 0,
-           uint32_t partition_count = 1);
+  explicit Pipeline(const bayline::v1::DaemonConfig& config);
   ~Pipeline();
   Pipeline(const Pipeline&) = delete;
   Pipeline& operator=(const Pipeline&) = delete;
@@ -94,13 +94,6 @@ class Pipeline {
                     std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
                     PublicationSink& sink);
 
-  // Lookahead hints, for a caller that processes observations one by one but knows the
-  // ChannelHash of the next ones (e.g. computed to route them): PrefetchSlot(hash) two
-  // observations ahead and PrefetchChannel(hash) one ahead start loading the registry slot and the
-  // channel's block (what ProcessBatch does itself). Any hash is safe: no effect on behaviour.
-  void PrefetchSlot(uint64_t channel_hash) const;
-  void PrefetchChannel(uint64_t channel_hash) const;
-
   // Publishes an InputError for a frame that could not be decoded (reason "malformed_frame" or
   // "oversized_frame") and counts it.
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
@@ -118,10 +111,11 @@ class Pipeline {
   // config_digest. Restoring and continuing is bit-identical to never stopping.
   void SaveChannels(bayline::v1::Snapshot* out) const;
   // Validates every channel of `in` first; on any state that does not unpack returns kInvalidState
-  // naming the channel and changes nothing. Channels of other partitions are skipped. A channel
-  // whose spec digest no longer matches its rule (or that no rule matches any more) is not
-  // restored: it restarts from its rule, and its name is appended to *reset_channels (if given).
-  // A restored channel replaces a channel of the same name already held.
+  // naming the channel and changes nothing. Every channel of `in` is restored (the daemon gives
+  // each worker's pipeline only the channels routed to it). A channel whose spec digest no longer
+  // matches its rule (or that no rule matches any more) is not restored: it restarts from its
+  // rule, and its name is appended to *reset_channels (if given). A restored channel replaces a
+  // channel of the same name already held.
   bayline::est::Status RestoreChannels(const bayline::v1::Snapshot& in,
                                        std::vector<std::string>* reset_channels);
   bayline::est::Status RestoreChannels(const bayline::v1::Snapshot& in);

@@ -37,8 +37,7 @@ EffectiveLimits LimitsOf(const bayline::v1::DaemonConfig& config);
 
 class PipelineState {
  public:
-  PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                uint32_t partition_count);
+  explicit PipelineState(const bayline::v1::DaemonConfig& config);
 
   void Process(const bayline::v1::Observation& obs, int64_t arrival_ns, PublicationSink& sink) {
     ProcessHashed(obs, arrival_ns, nullptr, sink);
@@ -48,8 +47,6 @@ class PipelineState {
       const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
       std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
       PublicationSink& sink);
-  void PrefetchSlot(uint64_t channel_hash) const { channels_.PrefetchSlot(channel_hash); }
-  void PrefetchChannel(uint64_t channel_hash) const { channels_.PrefetchChannel(channel_hash); }
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                    PublicationSink& sink);
   bayline::v1::ChannelList List(std::string_view glob) const;
@@ -66,10 +63,6 @@ class PipelineState {
   // Process with ChannelHash(obs.channel()) already computed (*hash) or not (nullptr).
   void ProcessHashed(const bayline::v1::Observation& obs, int64_t arrival_ns, const uint64_t* hash,
                      PublicationSink& sink);
-  // Whether this partition owns a channel of this ChannelHash.
-  bool Owns(uint64_t hash) const {
-    return partition_count_ <= 1 || hash % partition_count_ == partition_index_;
-  }
   // Publishes the InputError for a name that CheckChannelName refused.
   void RejectName(const bayline::v1::Observation& obs, ChannelNameProblem problem, int64_t time_ns,
                   PublicationSink& sink);
@@ -93,8 +86,6 @@ class PipelineState {
 
   bayline::v1::DaemonConfig config_;
   EffectiveLimits limits_;
-  uint32_t partition_index_;
-  uint32_t partition_count_;
   RuleSet rules_;
   ChannelRegistry channels_;
   Counters counters_;

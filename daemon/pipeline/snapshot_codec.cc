@@ -77,7 +77,6 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
       return est::Status::Error(est::ErrorCode::kInvalidState, "snapshot holds an invalid channel name");
     }
     if (!seen.insert(name).second) return Invalid(name, "appears twice");
-    if (!Owns(ChannelHash(name))) continue;
     Model model;
     if (!ParseModel(c.model(), &model)) return Invalid(name, "unknown model \"" + c.model() + "\"");
     const int rule = rules_.Match(name);

@@ -8,12 +8,12 @@
 // that does not decode, or holds neither an observation nor a batch, as "malformed_frame". Both
 // are handed to worker 0, whose pipeline publishes the InputError and counts it.
 //
-// Routing: h = pipeline::ChannelHash(channel); the daemon keeps h % shard.count == shard.index and
-// sends it to worker (h / shard.count) % workers (dividing first keeps the workers balanced when
-// shard.count and the worker count share factors). A batch is handed over when it reaches
-// kMaxBatch observations or kMaxBatchBytes (which bounds the memory a queue of large observations
-// holds), or when no more frames are waiting, so latency stays low at low rates. Ingest never
-// estimates: every observation is processed on the worker thread that owns its channel.
+// Routing (routing.h): h = pipeline::ChannelHash(channel); the daemon keeps the observations with
+// InShard(h, shard) and sends each to worker WorkerOf(h, shard, workers). A batch is handed over
+// when it reaches kMaxBatch observations or kMaxBatchBytes (which bounds the memory a queue of
+// large observations holds), or when no more frames are waiting, so latency stays low at low
+// rates. Ingest never estimates: every observation is processed on the worker thread that owns
+// its channel.
 //
 // Lifetime: construct and Bind() in the supervisor thread -> Start() -> Stop() (hands over what it
 // holds, then joins). Counters may be read from any thread.

@@ -1,5 +1,5 @@
-// A worker thread: owns one pipeline::Pipeline (a partition of the channels) exclusively and is
-// reached only by message passing through its bounded WorkQueue:
+// A worker thread: owns one pipeline::Pipeline (holding the channels routed to it, routing.h)
+// exclusively and is reached only by message passing through its bounded WorkQueue:
 //   * observation batches from the ingest thread (processed in order, so per-channel order holds);
 //   * tasks from the supervisor thread (control requests, snapshots, reload), run on the worker's
 //     own thread between batches, so no two threads ever touch the pipeline at once.
