@@ -17,7 +17,7 @@
 #include "clients/cli/channel_glob.h"
 #include "clients/cli/command_support.h"
 #include "clients/cli/commands.h"
-#include "clients/cli/json_render.h"
+#include "clients/cli/json_line.h"
 #include "clients/cli/live_table.h"
 #include "daemon/defaults.h"
 
@@ -112,7 +112,7 @@ int RunFollow(const FollowOptions& o) {
         live.Absorb(publication);
         dirty = true;
       } else {
-        std::string line = PublicationJsonLine(publication) + "\n";
+        std::string line = ToJsonLine(publication) + "\n";
         std::fwrite(line.data(), 1, line.size(), stdout);
         std::fflush(stdout);
       }

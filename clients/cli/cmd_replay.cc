@@ -1,6 +1,6 @@
 // replay: run the pipeline library offline over a CSV or JSON Lines file, with no daemon, and
-// print every publication as one JSON line (the same ToJsonLine the daemon's subscribers get from
-// `bayline follow`). With --output FILE the lines go to FILE.tmp, renamed to FILE only when the
+// print every publication as one JSON line (json_line.h, as `bayline follow` prints what the
+// daemon publishes). With --output FILE the lines go to FILE.tmp, renamed to FILE only when the
 // whole input was processed; on an input error nothing is left behind.
 #include <unistd.h>
 
@@ -13,11 +13,13 @@
 #include "clients/cli/command_support.h"
 #include "clients/cli/commands.h"
 #include "clients/cli/input_error.h"
+#include "clients/cli/json_line.h"
 #include "clients/cli/mapping_options.h"
 #include "clients/cli/progress_bar.h"
 #include "clients/cli/record_reader.h"
 #include "clients/cli/replay_spec.h"
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/publication_sink.h"
 
 namespace bayline::cli {
 namespace {
@@ -35,7 +37,7 @@ class JsonLinesSink : public bayline::pipeline::PublicationSink {
  public:
   explicit JsonLinesSink(std::FILE* out) : out_(out) {}
   void Publish(const std::string&, const bayline::v1::Publication& publication) override {
-    line_ = bayline::pipeline::ToJsonLine(publication);
+    line_ = ToJsonLine(publication);
     line_ += '\n';
     if (std::fwrite(line_.data(), 1, line_.size(), out_) != line_.size()) failed_ = true;
   }

@@ -8,7 +8,7 @@
 
 #include "clients/cli/input_error.h"
 #include "clients/cli/observation_mapping.h"
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/daemon_config.h"
 
 namespace bayline::cli {
 namespace {

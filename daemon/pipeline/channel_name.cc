@@ -1,7 +1,5 @@
 #include "daemon/pipeline/channel_name.h"
 
-#include "daemon/pipeline/pipeline.h"
-
 namespace bayline::pipeline {
 
 uint64_t ChannelHash(std::string_view name) {

@@ -1,4 +1,4 @@
-// Channel names: hashing (partitioning) and validation.
+// Channel names: hashing and validation.
 #pragma once
 
 #include <cstdint>
@@ -7,8 +7,8 @@
 
 namespace bayline::pipeline {
 
-// Stable 64-bit FNV-1a hash of a channel name: partitions channels over shards and workers, and
-// keys the channel registry (also declared in pipeline.h, the public interface).
+// Stable 64-bit FNV-1a hash of a channel name: the daemon routes channels to shards and workers by
+// it (daemon/server/routing.h), and it keys the channel registry.
 uint64_t ChannelHash(std::string_view name);
 
 // Why a name is refused; kOk when it is acceptable. Stable reason codes in ChannelNameReason().

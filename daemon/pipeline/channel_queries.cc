@@ -1,6 +1,7 @@
 // Control-API queries on the channel registry (List, Ask, Reset) and Reconfigure.
 #include <algorithm>
 
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/glob.h"
 #include "daemon/pipeline/pipeline_state.h"
 

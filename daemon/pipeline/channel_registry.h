@@ -2,11 +2,12 @@
 //
 // Open addressing with linear probing over a power-of-two array of 16-byte slots {hash, Channel*}
 // (an empty slot has no channel), at most 3/4 full. The hash is ChannelHash(name), the same FNV-1a
-// hash that partitions channels over workers, so the pipeline computes it once per observation
-// for both. A slot's home is the top bits of hash * 2^64/phi (Fibonacci hashing, which spreads
-// every bit of the hash). A lookup compares the full 64-bit hash before the name, so it touches a
-// channel's block only on a hash match. Erase shifts later entries of the run back (no
-// tombstones), so lookups never slow down after many erasures.
+// hash the daemon routes channels by (daemon/server/routing.h), so the hash computed once per
+// observation to route it also finds its channel (Pipeline::ProcessBatch). A slot's home is the top
+// bits of hash * 2^64/phi (Fibonacci hashing, which spreads every bit of the hash). A lookup
+// compares the full 64-bit hash before the name, so it touches a channel's block only on a hash
+// match. Erase shifts later entries of the run back (no tombstones), so lookups never slow down
+// after many erasures.
 //
 // The registry owns the channels (Channel::Create blocks). A channel's address never changes while
 // it is registered: growing the array moves slots, not channels.

@@ -4,9 +4,9 @@
 #include <sstream>
 #include <string>
 
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/detector_setup.h"
 #include "daemon/pipeline/estimator_slot.h"
-#include "daemon/pipeline/pipeline.h"
 #include "daemon/pipeline/resource_limits.h"
 #include "daemon/pipeline/resolved_spec.h"
 

@@ -2,7 +2,7 @@
 #include <google/protobuf/io/zero_copy_stream_impl_lite.h>
 
 #include "daemon/defaults.h"
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/resolved_spec.h"
 
 namespace bayline::pipeline {

@@ -20,12 +20,10 @@ EffectiveLimits LimitsOf(const bayline::v1::DaemonConfig& config) {
   return l;
 }
 
-PipelineState::PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                             uint32_t partition_count, std::shared_ptr<ChannelBudget> budget)
+PipelineState::PipelineState(const bayline::v1::DaemonConfig& config,
+                             std::shared_ptr<ChannelBudget> budget)
     : config_(config),
       limits_(LimitsOf(config)),
-      partition_index_(partition_index),
-      partition_count_(partition_count == 0 ? 1 : partition_count),
       budget_(budget != nullptr ? std::move(budget)
                                 : std::make_shared<ChannelBudget>(limits_.max_channels)) {
   budget_->set_limit(limits_.max_channels);
@@ -71,7 +69,7 @@ void PipelineState::RejectName(const bayline::v1::Observation& obs, ChannelNameP
       : problem == ChannelNameProblem::kEmpty
           ? std::string("channel name is empty")
           : std::string("channel name is not valid UTF-8 or contains control characters");
-  publisher_.InputError(sink, "", obs.seq(), time_ns, ChannelNameReason(problem), detail);
+  publications_.InputError(sink, "", obs.seq(), time_ns, ChannelNameReason(problem), detail);
 }
 
 std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
@@ -79,8 +77,8 @@ std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
   const std::string& name = obs.channel();
   const int rule = rules_.Match(name);
   if (rule < 0) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "no_matching_rule",
-                          "no rule matches channel \"" + name + "\"");
+    publications_.InputError(sink, name, obs.seq(), time_ns, "no_matching_rule",
+                             "no rule matches channel \"" + name + "\"");
     return nullptr;
   }
   if (!budget_->HasRoom()) {
@@ -91,8 +89,8 @@ std::shared_ptr<const ResolvedSpec> PipelineState::ResolveNewChannel(
   const est::Status s =
       rules_.ResolveForObservation(rule, static_cast<uint32_t>(obs.x_size()), &spec);
   if (!s.ok()) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
-                          s.message());
+    publications_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
+                             s.message());
     return nullptr;
   }
   return spec;
@@ -158,23 +156,19 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
       RejectName(obs, problem, time_ns, sink);
       return;
     }
-    if (!Owns(hash)) {  // registered channels are always owned
-      ++counters_.not_owned;
-      return;
-    }
   }
   if (static_cast<uint64_t>(obs.x_size()) > limits_.max_regressors) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "too_many_regressors",
-                          "x has " + std::to_string(obs.x_size()) + " entries, limit " +
-                              std::to_string(limits_.max_regressors));
+    publications_.InputError(sink, name, obs.seq(), time_ns, "too_many_regressors",
+                             "x has " + std::to_string(obs.x_size()) + " entries, limit " +
+                                 std::to_string(limits_.max_regressors));
     return;
   }
   if (!obs.has_y()) {
     if (obs.x_size() > 0) {
       AnswerPrediction(ch, obs, time_ns, sink);
     } else {
-      publisher_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
-                            "y is missing (and no regressors: not a prediction request)");
+      publications_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
+                               "y is missing (and no regressors: not a prediction request)");
     }
     return;
   }
@@ -188,8 +182,8 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
 
   const est::Sample sample = BuildSample(spec, obs, time_ns);
   if (est::Status s = CheckObservation(spec, sample); !s.ok()) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
-                          s.message());
+    publications_.InputError(sink, name, obs.seq(), time_ns, est::ErrorCodeName(s.code()),
+                             s.message());
     return;
   }
 
@@ -211,7 +205,7 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
     // Registered only once its first observation is absorbed: a rejection leaves no channel.
     ChannelPtr fresh = Channel::Create(std::move(new_spec), name);
     if (est::Status s = UpdateEstimators(*fresh, sample); !s.ok()) {
-      publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
+      publications_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
       return;
     }
     if (!budget_->TryReserve()) {  // another worker took the last unit since ResolveNewChannel
@@ -221,7 +215,7 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
     ch = channels_.InsertOrReplace(std::move(fresh));
     counters_.channels = channels_.size();
   } else if (est::Status s = UpdateEstimators(*ch, sample); !s.ok()) {
-    publisher_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
+    publications_.InputError(sink, name, seq, time_ns, est::ErrorCodeName(s.code()), s.message());
     return;
   }
 
@@ -276,11 +270,11 @@ void PipelineState::RunDetectors(Channel& ch, const est::Sample& sample, uint64_
       continue;
     }
     if (event.cleared) {
-      publisher_.Alarm(sink, name, setup, spec, event, false, seq, time_ns, sample.y);
+      publications_.Alarm(sink, name, setup, spec, event, false, seq, time_ns, sample.y);
     }
     if (event.raised) {
       detectors[d].RecordAlarm(
-          publisher_.Alarm(sink, name, setup, spec, event, true, seq, time_ns, sample.y));
+          publications_.Alarm(sink, name, setup, spec, event, true, seq, time_ns, sample.y));
       if (setup.inflate_on_alarm > 1 && ch.estimator(w).CanInflate()) {
         (void)ch.estimator(w).Inflate(setup.inflate_on_alarm);  // factor validated: cannot fail
       }
@@ -298,8 +292,8 @@ void PipelineState::ApplyPublishPolicy(Channel& ch, uint64_t seq, int64_t time_n
     return;
   }
   for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
-    publisher_.Estimate(sink, ch.name(), spec, spec.estimators[i],
-                        ch.estimator(i).Report(spec.level), seq, time_ns, ch.accepted);
+    publications_.Estimate(sink, ch.name(), spec, spec.estimators[i],
+                           ch.estimator(i).Report(spec.level), seq, time_ns, ch.accepted);
   }
   p.since_publish = 0;
   p.last_publish_ns = time_ns;
@@ -310,24 +304,24 @@ void PipelineState::AnswerPrediction(const Channel* found, const bayline::v1::Ob
                                      int64_t time_ns, PublicationSink& sink) {
   const std::string& name = obs.channel();
   if (found == nullptr) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "unknown_channel",
-                          "prediction request for unknown channel \"" + name + "\"");
+    publications_.InputError(sink, name, obs.seq(), time_ns, "unknown_channel",
+                             "prediction request for unknown channel \"" + name + "\"");
     return;
   }
   const Channel& ch = *found;
   const ResolvedSpec& spec = *ch.spec;
   if (!IsRegressionModel(spec.model) ||
       static_cast<uint32_t>(obs.x_size()) != spec.regressor_count) {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "wrong_regressor_count",
-                          "prediction request has " + std::to_string(obs.x_size()) +
-                              " regressors, channel expects " +
-                              std::to_string(spec.regressor_count));
+    publications_.InputError(sink, name, obs.seq(), time_ns, "wrong_regressor_count",
+                             "prediction request has " + std::to_string(obs.x_size()) +
+                                 " regressors, channel expects " +
+                                 std::to_string(spec.regressor_count));
     return;
   }
   for (double v : obs.x()) {
     if (!std::isfinite(v)) {
-      publisher_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
-                            "a regressor of the prediction request is not finite");
+      publications_.InputError(sink, name, obs.seq(), time_ns, "non_finite",
+                               "a regressor of the prediction request is not finite");
       return;
     }
   }
@@ -338,31 +332,30 @@ void PipelineState::AnswerPrediction(const Channel* found, const bayline::v1::Ob
   for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
     if (!ch.estimator(i).CanPredict()) continue;
     const est::Prediction p = ch.estimator(i).Predict(x_full_, spec.level);
-    publisher_.Prediction(sink, name, spec.estimators[i],
-                          std::span<const double>(obs.x().data(), obs.x().size()), p, obs.seq(),
-                          time_ns);
+    publications_.Prediction(sink, name, spec.estimators[i],
+                             std::span<const double>(obs.x().data(), obs.x().size()), p, obs.seq(),
+                             time_ns);
     answered = true;
   }
   if (answered) {
     ++counters_.predictions;
   } else {
-    publisher_.InputError(sink, name, obs.seq(), time_ns, "cannot_predict",
-                          "no estimator of this channel predicts (model " +
-                              std::string(ModelName(spec.model)) + ")");
+    publications_.InputError(
+        sink, name, obs.seq(), time_ns, "cannot_predict",
+        "no estimator of this channel predicts (model " + std::string(ModelName(spec.model)) + ")");
   }
 }
 
 void PipelineState::RejectFrame(std::string_view reason, std::string_view detail,
                                 int64_t arrival_ns, PublicationSink& sink) {
-  publisher_.InputError(sink, "", 0, arrival_ns, reason, detail);
+  publications_.InputError(sink, "", 0, arrival_ns, reason, detail);
 }
 
 // ---- Pipeline: forwards to PipelineState.
 
-Pipeline::Pipeline(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                   uint32_t partition_count, std::shared_ptr<ChannelBudget> channel_budget)
-    : state_(std::make_unique<PipelineState>(config, partition_index, partition_count,
-                                             std::move(channel_budget))) {}
+Pipeline::Pipeline(const bayline::v1::DaemonConfig& config,
+                   std::shared_ptr<ChannelBudget> channel_budget)
+    : state_(std::make_unique<PipelineState>(config, std::move(channel_budget))) {}
 Pipeline::~Pipeline() = default;
 
 void Pipeline::Process(const bayline::v1::Observation& obs, int64_t arrival_ns,
@@ -379,10 +372,6 @@ void Pipeline::ProcessBatch(
     std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
     PublicationSink& sink) {
   state_->ProcessBatch(observations, arrival_ns, channel_hashes, sink);
-}
-void Pipeline::PrefetchSlot(uint64_t channel_hash) const { state_->PrefetchSlot(channel_hash); }
-void Pipeline::PrefetchChannel(uint64_t channel_hash) const {
-  state_->PrefetchChannel(channel_hash);
 }
 void Pipeline::RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                            PublicationSink& sink) {

@@ -1,16 +1,21 @@
 // The pipeline: rules -> channel registry -> update -> detect -> publish policy.
 //
-// One Pipeline owns a partition of the channels (those with ChannelHash(name) % partition_count ==
-// partition_index). The daemon runs one per worker thread; `bayline replay` runs one over a file.
-// Both publish exactly the same things for the same observations, because everything that decides a
+// A Pipeline holds every channel of the observations it is given: which channels reach which
+// Pipeline is the caller's choice (the daemon runs one per worker thread and routes each channel
+// to one of them, daemon/server/routing.h; `bayline replay` runs one over a file). Both publish
+// exactly the same things for the same observations, because everything that decides a
 // publication (rules, estimators, detectors, publish policy, sequence checks) lives here.
+//
+// Its interface uses: publication_sink.h (where publications go), counters.h (Counters),
+// daemon_config.h (ValidateConfig, DefaultConfig, ConfigDigest), channel_name.h (ChannelHash).
 //
 // Per observation (Process):
 //   1. validate the channel name (empty_channel_name, channel_name_too_long, invalid_channel_name)
 //      and the regressor count (too_many_regressors): the length always, the rest (UTF-8, control
 //      characters) only for a name that is not registered, since a registered name was validated
 //      when its channel was created;
-//   2. find the channel (by ChannelHash, computed once and also deciding the partition), or
+//   2. find the channel (by ChannelHash, computed once, or taken from a caller that hashed the name
+//      to route it), or
 //      resolve a new one from the first matching rule (no_matching_rule, channel_limit); a rule
 //      with model "auto" becomes gaussian without regressors and linear with intercept with
 //      regressors; a new channel is registered only once its first observation is absorbed;
@@ -48,7 +53,6 @@
 #pragma once
 
 #include <cstdint>
-#include <map>
 #include <memory>
 #include <optional>
 #include <span>
@@ -59,65 +63,26 @@
 #include "bayline/v1/config.pb.h"
 #include "bayline/v1/control.pb.h"
 #include "bayline/v1/observation.pb.h"
-#include "bayline/v1/publication.pb.h"
 #include "bayline/v1/snapshot.pb.h"
 #include "daemon/pipeline/channel_budget.h"
+#include "daemon/pipeline/counters.h"
+#include "daemon/pipeline/publication_sink.h"
 #include "estimators/core/status.h"
 
 namespace bayline::pipeline {
-
-// Where publications go. Topic = "<kind>/<channel>", kind in {estimate, alarm, input_error,
-// prediction}. The publication is only valid during the call (the pipeline reuses it).
-class PublicationSink {
- public:
-  virtual ~PublicationSink() = default;
-  virtual void Publish(const std::string& topic, const bayline::v1::Publication& publication) = 0;
-};
-
-// Stable 64-bit FNV-1a hash of a channel name, used to partition channels over workers and shards.
-uint64_t ChannelHash(std::string_view name);
-
-// Ok, or kInvalidConfig whose message names the field path, e.g.
-// "rules[2].spec.detectors[0].arl0: must be in [2, 1e7], got 1". Checks everything that can be
-// checked without data (threshold calibration runs when a Pipeline is built or reconfigured).
-bayline::est::Status ValidateConfig(const bayline::v1::DaemonConfig& config);
-
-// The embedded default configuration: loopback endpoints from daemon/defaults.h, default limits,
-// and one rule "default": match "**", model "auto", all estimators the model allows, a
-// self-starting CUSUM with arl0 1000 watching the first estimator.
-bayline::v1::DaemonConfig DefaultConfig();
-
-// Digest (16 hex digits) of a configuration, stored in snapshots.
-std::string ConfigDigest(const bayline::v1::DaemonConfig& config);
-
-struct Counters {
-  uint64_t accepted = 0;        // observations absorbed
-  uint64_t rejected_total = 0;  // InputErrors published (frames and observations)
-  uint64_t publications = 0;    // everything handed to a sink
-  uint64_t seq_gaps = 0;
-  uint64_t seq_duplicates = 0;
-  uint64_t seq_reordered = 0;
-  std::map<std::string, uint64_t> rejected_by_reason;
-  uint64_t channels = 0;        // channels currently held
-  uint64_t predictions = 0;     // prediction requests answered
-  uint64_t not_owned = 0;       // observations of another partition's channels (ignored)
-  uint64_t detector_skips = 0;  // detector updates skipped after a numerical failure
-  uint64_t channels_not_restored = 0;  // snapshot channels set aside by RestoreChannels
-};
 
 class PipelineState;  // the implementation (pipeline_state.h)
 
 class Pipeline {
  public:
-  // config must have passed ValidateConfig. Keeps only channels with
-  // ChannelHash(name) % partition_count == partition_index. Empty rules / zero limits mean the
+  // config must have passed ValidateConfig (daemon_config.h). Empty rules / zero limits mean the
   // defaults of DefaultConfig(). Calibrates every detector threshold of every rule (a rule whose
   // calibration fails rejects its channels with reason "invalid_config"; Reconfigure reports it).
   // limits.max_channels counts the channels of every pipeline sharing `channel_budget` (the
   // daemon's workers share one); nullptr: a budget of this pipeline's own. The pipeline sets the
   // budget's limit (here and on Reconfigure) and gives its channels back when destroyed.
-  Pipeline(const bayline::v1::DaemonConfig& config, uint32_t partition_index = 0,
-           uint32_t partition_count = 1, std::shared_ptr<ChannelBudget> channel_budget = nullptr);
+  explicit Pipeline(const bayline::v1::DaemonConfig& config,
+                    std::shared_ptr<ChannelBudget> channel_budget = nullptr);
   ~Pipeline();
   Pipeline(const Pipeline&) = delete;
   Pipeline& operator=(const Pipeline&) = delete;
@@ -133,19 +98,13 @@ class Pipeline {
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
                     std::span<const int64_t> arrival_ns, PublicationSink& sink);
   // The same, for a caller that has hashed the names already (the daemon's ingest thread, to route
-  // them): channel_hashes[i] must be ChannelHash(observations[i].channel()), and is then not
+  // them): channel_hashes[i] must be ChannelHash(observations[i].channel()) (channel_name.h), and
+  // is then not
   // computed again (an empty span: hashed here). Throws std::invalid_argument, processing nothing,
   // when a size differs.
   void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
                     std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
                     PublicationSink& sink);
-
-  // Lookahead hints, for a caller that processes observations one by one but knows the
-  // ChannelHash of the next ones (e.g. computed to route them): PrefetchSlot(hash) two
-  // observations ahead and PrefetchChannel(hash) one ahead start loading the registry slot and the
-  // channel's block (what ProcessBatch does itself). Any hash is safe: no effect on behaviour.
-  void PrefetchSlot(uint64_t channel_hash) const;
-  void PrefetchChannel(uint64_t channel_hash) const;
 
   // Publishes an InputError for a frame that could not be decoded (reason "malformed_frame" or
   // "oversized_frame") and counts it.
@@ -169,7 +128,7 @@ class Pipeline {
   // fails its estimator's or detector's invariants, an inconsistent seq window) is set aside: it is
   // not restored (it restarts from its rule with its next observation), a line naming it and the
   // reason is appended to *not_restored (if given) and counters().channels_not_restored counts it;
-  // every other channel is restored. Channels of other partitions are skipped. A channel whose
+  // every other channel is restored. A channel whose
   // spec digest no longer matches its rule (or that no rule matches any more) is not restored: it
   // restarts from its rule, and its name is appended to *reset_channels (if given). A restored
   // channel replaces a channel of the same name already held. Only a snapshot that cannot be read
@@ -189,9 +148,5 @@ class Pipeline {
  private:
   std::unique_ptr<PipelineState> state_;
 };
-
-// JSON rendering of a publication with protobuf's own JSON mapping (proto field names, snake_case,
-// zero values printed), one line, no trailing newline.
-std::string ToJsonLine(const bayline::v1::Publication& publication);
 
 }  // namespace bayline::pipeline

@@ -7,17 +7,23 @@
 #include <array>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "bayline/v1/config.pb.h"
+#include "bayline/v1/control.pb.h"
+#include "bayline/v1/observation.pb.h"
+#include "bayline/v1/snapshot.pb.h"
 #include "daemon/pipeline/channel.h"
 #include "daemon/pipeline/channel_budget.h"
 #include "daemon/pipeline/channel_name.h"
 #include "daemon/pipeline/channel_registry.h"
-#include "daemon/pipeline/pipeline.h"
-#include "daemon/pipeline/publications.h"
+#include "daemon/pipeline/counters.h"
+#include "daemon/pipeline/publication_builder.h"
+#include "daemon/pipeline/publication_sink.h"
 #include "daemon/pipeline/rule_set.h"
 
 namespace bayline::pipeline {
@@ -33,19 +39,17 @@ EffectiveLimits LimitsOf(const bayline::v1::DaemonConfig& config);
 class PipelineState {
  public:
   // budget: shared with the daemon's other pipelines; nullptr: one of its own.
-  PipelineState(const bayline::v1::DaemonConfig& config, uint32_t partition_index,
-                uint32_t partition_count, std::shared_ptr<ChannelBudget> budget);
+  PipelineState(const bayline::v1::DaemonConfig& config, std::shared_ptr<ChannelBudget> budget);
   ~PipelineState();  // gives its channels back to the budget
 
   void Process(const bayline::v1::Observation& obs, int64_t arrival_ns, PublicationSink& sink) {
     ProcessHashed(obs, arrival_ns, nullptr, sink);
   }
   // channel_hashes: empty (hashed here) or ChannelHash of every observation's name.
-  void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
-                    std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
-                    PublicationSink& sink);
-  void PrefetchSlot(uint64_t channel_hash) const { channels_.PrefetchSlot(channel_hash); }
-  void PrefetchChannel(uint64_t channel_hash) const { channels_.PrefetchChannel(channel_hash); }
+  void ProcessBatch(
+      const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+      std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
+      PublicationSink& sink);
   void RejectFrame(std::string_view reason, std::string_view detail, int64_t arrival_ns,
                    PublicationSink& sink);
   bayline::v1::ChannelList List(std::string_view glob) const;
@@ -64,10 +68,6 @@ class PipelineState {
   // Process with ChannelHash(obs.channel()) already computed (*hash) or not (nullptr).
   void ProcessHashed(const bayline::v1::Observation& obs, int64_t arrival_ns, const uint64_t* hash,
                      PublicationSink& sink);
-  // Whether this partition owns a channel of this ChannelHash.
-  bool Owns(uint64_t hash) const {
-    return partition_count_ <= 1 || hash % partition_count_ == partition_index_;
-  }
   // Publishes the InputError for a name that CheckChannelName refused.
   void RejectName(const bayline::v1::Observation& obs, ChannelNameProblem problem, int64_t time_ns,
                   PublicationSink& sink);
@@ -93,13 +93,11 @@ class PipelineState {
 
   bayline::v1::DaemonConfig config_;
   EffectiveLimits limits_;
-  uint32_t partition_index_;
-  uint32_t partition_count_;
   std::shared_ptr<ChannelBudget> budget_;  // limits.max_channels over every sharing pipeline
   RuleSet rules_;
   ChannelRegistry channels_;
   Counters counters_;
-  Publisher publisher_{&counters_};
+  PublicationBuilder publications_{&counters_};
 
   // Reused scratch of the per-observation path.
   std::vector<double> x_full_;

@@ -8,7 +8,6 @@
 #include <google/protobuf/io/zero_copy_stream_impl_lite.h>
 
 #include "daemon/pipeline/channel_name.h"
-#include "daemon/pipeline/pipeline.h"
 
 namespace bayline::pipeline {
 namespace {

@@ -1,7 +1,7 @@
 #include "daemon/pipeline/rule_set.h"
 
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/glob.h"
-#include "daemon/pipeline/pipeline.h"
 
 namespace bayline::pipeline {
 

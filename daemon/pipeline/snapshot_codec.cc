@@ -6,6 +6,7 @@
 #include <set>
 
 #include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/pipeline_state.h"
 
 namespace bayline::pipeline {
@@ -136,7 +137,6 @@ est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,
       set_aside.push_back(Invalid(name, "appears twice (the first is restored)").message());
       continue;
     }
-    if (!Owns(ChannelHash(name))) continue;
     Model model;
     if (!ParseModel(c.model(), &model)) {
       set_aside.push_back(Invalid(name, "unknown model \"" + c.model() + "\"").message());

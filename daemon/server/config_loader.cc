@@ -1,6 +1,6 @@
 #include "daemon/server/config_loader.h"
 
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/server/config_file.h"
 
 namespace bayline::server {

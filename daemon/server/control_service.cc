@@ -4,6 +4,8 @@
 #include <limits>
 
 #include "daemon/pipeline/glob.h"
+#include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/counters.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/routing.h"
 

@@ -10,7 +10,7 @@
 #include <chrono>
 #include <cstring>
 
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/channel_name.h"
 #include "daemon/server/frame_scan.h"
 #include "daemon/server/routing.h"
 

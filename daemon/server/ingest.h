@@ -11,13 +11,12 @@
 // observation nor a batch, as "malformed_frame". Both are handed to worker 0, whose pipeline
 // publishes the InputError and counts it.
 //
-// Routing: h = pipeline::ChannelHash(channel); the daemon keeps h % shard.count == shard.index and
-// sends it to worker (h / shard.count) % workers (dividing first keeps the workers balanced when
-// shard.count and the worker count share factors). A batch is handed over when it has
-// kMaxBatch observations or kMaxBatchBytes and another observation comes for it, or when no more
-// frames are waiting, so latency stays low at low rates; the workers' queues bound the bytes
-// queued (Worker). Each entry carries its frame's number, and the last entry of a frame for each
-// worker is marked (the worker bounds a frame's input errors). Ingest never estimates: every
+// Routing (routing.h): h = pipeline::ChannelHash(channel); the daemon keeps the observations with
+// InShard(h, shard) and sends each to worker WorkerOf(h, shard, workers). A batch is handed over
+// when it has kMaxBatch observations or kMaxBatchBytes and another observation comes for it, or
+// when no more frames are waiting, so latency stays low at low rates; the workers' queues bound the
+// bytes queued (Worker). Each entry carries its frame's number, and the last entry of a frame for
+// each worker is marked (the worker bounds a frame's input errors). Ingest never estimates: every
 // observation is processed on the worker thread that owns its channel.
 //
 // Journal (journal.h): when set, every frame within the size limit is appended to the journal

@@ -4,6 +4,7 @@
 
 #include <chrono>
 
+#include "daemon/pipeline/channel_name.h"
 #include "daemon/server/config_file.h"
 #include "daemon/server/routing.h"
 
@@ -15,18 +16,18 @@ void RebuildEmpty(const bayline::v1::DaemonConfig& config,
                   std::vector<std::unique_ptr<pipeline::Pipeline>>* pipelines) {
   if (pipelines->empty()) return;
   const std::shared_ptr<pipeline::ChannelBudget> budget = pipelines->front()->channel_budget();
-  for (auto& p : *pipelines) p = std::make_unique<pipeline::Pipeline>(config, 0, 1, budget);
+  for (auto& p : *pipelines) p = std::make_unique<pipeline::Pipeline>(config, budget);
 }
 
 }  // namespace
 
 std::vector<std::unique_ptr<pipeline::Pipeline>> MakeWorkerPipelines(
     const bayline::v1::DaemonConfig& config, size_t workers) {
-  // Every pipeline keeps all it is given (partition 0 of 1): routing and the shard are the
+  // Every pipeline keeps all it is given: routing and the shard are the
   // daemon's job; the budget makes limits.max_channels count the channels of all of them.
   auto budget = std::make_shared<pipeline::ChannelBudget>(0);  // each pipeline sets the limit
   std::vector<std::unique_ptr<pipeline::Pipeline>> pipelines(workers);
-  for (auto& p : pipelines) p = std::make_unique<pipeline::Pipeline>(config, 0, 1, budget);
+  for (auto& p : pipelines) p = std::make_unique<pipeline::Pipeline>(config, budget);
   return pipelines;
 }
 

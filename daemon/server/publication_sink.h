@@ -12,7 +12,7 @@
 #include <string>
 #include <vector>
 
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/publication_sink.h"
 #include "daemon/server/publisher.h"
 #include "daemon/server/rate_limited_log.h"
 

@@ -1,4 +1,5 @@
-// A worker thread: owns one pipeline::Pipeline (a partition of the channels) exclusively and is
+// A worker thread: owns one pipeline::Pipeline (holding the channels routed to it, routing.h)
+// exclusively and is
 // reached only by message passing through its bounded WorkQueue:
 //   * observation batches from the ingest thread (processed in order, so per-channel order holds),
 //     in the queue's ordered lane, bounded by count and by bytes (backpressure to ingest);

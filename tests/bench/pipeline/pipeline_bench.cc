@@ -28,7 +28,9 @@
 
 #include <benchmark/benchmark.h>
 
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/publication_sink.h"
 
 // Counts heap allocations of the whole program (single-threaded benchmark: a plain counter).
 static long g_allocations = 0;

@@ -86,43 +86,6 @@ TEST(BatchTest, CallerHashedBatchPublishesWhatProcessWould) {
   EXPECT_EQ(refused.counters().channels, 0u);
 }
 
-TEST(BatchTest, PartitionedBatchKeepsOnlyOwnChannels) {
-  bayline::v1::ObservationBatch batch;
-  std::vector<int64_t> arrival;
-  for (int i = 0; i < 50; ++i) {
-    *batch.add_observations() = Obs("site/p" + std::to_string(i), 1, 1.0);
-    arrival.push_back(testing::kArrival);
-  }
-  Pipeline a(DefaultConfig(), 1, 2), b(DefaultConfig(), 1, 2);
-  RecordingSink s1, s2;
-  for (const auto& obs : batch.observations()) a.Process(obs, testing::kArrival, s1);
-  b.ProcessBatch(batch.observations(), arrival, s2);
-  EXPECT_EQ(SnapshotBytes(b), SnapshotBytes(a));
-  EXPECT_EQ(b.counters().not_owned, a.counters().not_owned);
-  EXPECT_GT(b.counters().not_owned, 0u);
-}
-
-TEST(BatchTest, PrefetchHintsOfAnyHashChangeNothing) {
-  Pipeline p(DefaultConfig());
-  RecordingSink sink;
-  const std::vector<uint64_t> hashes = {0, ~uint64_t{0}, ChannelHash("site/a"), ChannelHash("nope")};
-  for (uint64_t h : hashes) {  // empty registry
-    p.PrefetchSlot(h);
-    p.PrefetchChannel(h);
-  }
-  for (uint64_t i = 1; i <= 40; ++i) p.Process(Obs("site/p" + std::to_string(i % 13), i, 1.0), testing::kArrival, sink);
-  const std::string before = SnapshotBytes(p);
-  const auto counters = p.counters().publications;
-  for (uint64_t h : hashes) {
-    p.PrefetchSlot(h);
-    p.PrefetchChannel(h);
-  }
-  for (int i = 0; i < 13; ++i) p.PrefetchChannel(ChannelHash("site/p" + std::to_string(i)));
-  EXPECT_EQ(SnapshotBytes(p), before);
-  EXPECT_EQ(p.counters().publications, counters);
-  EXPECT_EQ(p.counters().channels, 13u);
-}
-
 TEST(BatchTest, MismatchedArrivalTimesAreRefusedAndChangeNothing) {
   bayline::v1::ObservationBatch batch;
   *batch.add_observations() = Obs("site/a", 1, 1.0);

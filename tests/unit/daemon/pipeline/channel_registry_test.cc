@@ -10,7 +10,7 @@
 #include <gtest/gtest.h>
 
 #include "daemon/pipeline/channel_registry.h"
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/rule_set.h"
 
 namespace bayline::pipeline {
@@ -59,6 +59,27 @@ TEST(ChannelRegistryTest, EmptyRegistryFindsAndErasesNothing) {
   int visited = 0;
   r.ForEach([&](const Channel&) { ++visited; });
   EXPECT_EQ(visited, 0);
+}
+
+TEST(ChannelRegistryTest, PrefetchHintsOfAnyHashAreSafeAndChangeNothing) {
+  // The hints read the slot array without a name comparison: they must cope with an empty
+  // registry, hashes of absent names and extreme values, and leave every lookup as it was.
+  const std::vector<uint64_t> hashes = {0, ~uint64_t{0}, ChannelHash("s1"), ChannelHash("absent")};
+  ChannelRegistry r;
+  for (uint64_t h : hashes) {
+    r.PrefetchSlot(h);
+    r.PrefetchChannel(h);
+  }
+  std::vector<Channel*> address;
+  for (int i = 0; i < 40; ++i) address.push_back(r.InsertOrReplace(Make(NameOf(i))));
+  for (uint64_t h : hashes) {
+    r.PrefetchSlot(h);
+    r.PrefetchChannel(h);
+  }
+  for (int i = 0; i < 40; ++i) r.PrefetchChannel(ChannelHash(NameOf(i)));
+  EXPECT_EQ(r.size(), 40u);
+  for (int i = 0; i < 40; ++i) EXPECT_EQ(r.Find(NameOf(i)), address[static_cast<std::size_t>(i)]);
+  EXPECT_EQ(r.Find("absent"), nullptr);
 }
 
 TEST(ChannelRegistryTest, FindsEveryNameAndKeepsAddressesThroughGrowth) {

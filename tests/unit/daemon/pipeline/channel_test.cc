@@ -8,8 +8,8 @@
 #include <gtest/gtest.h>
 
 #include "daemon/pipeline/channel.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/inline_variant.h"
-#include "daemon/pipeline/pipeline.h"
 #include "daemon/pipeline/rule_set.h"
 
 namespace bayline::pipeline {

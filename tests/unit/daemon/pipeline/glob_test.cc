@@ -6,7 +6,7 @@
 #include <string>
 
 #include "daemon/pipeline/channel_name.h"
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/glob.h"
 
 namespace bayline::pipeline {
 namespace {

@@ -240,36 +240,5 @@ TEST(ProcessTest, PredictionRequestAnswersAndChangesNothing) {
   EXPECT_EQ(sink.records[0].publication.input_error().reason(), "unknown_channel");
 }
 
-TEST(ProcessTest, JsonLineUsesProtoFieldNames) {
-  Pipeline p(DefaultConfig());
-  RecordingSink sink;
-  p.Process(Obs("site/a", 1, 2.0), kArrival, sink);
-  const std::string json = ToJsonLine(sink.records[0].publication);
-  EXPECT_NE(json.find("\"std_error\""), std::string::npos) << json;
-  EXPECT_NE(json.find("\"effective_n\""), std::string::npos) << json;
-  EXPECT_NE(json.find("\"channel\":\"site/a\""), std::string::npos) << json;
-  EXPECT_EQ(json.find('\n'), std::string::npos);
-}
-
-TEST(ProcessTest, PartitionKeepsOnlyOwnChannels) {
-  Pipeline p0(DefaultConfig(), 0, 2), p1(DefaultConfig(), 1, 2);
-  RecordingSink sink;
-  int expected0 = 0;
-  for (int i = 0; i < 40; ++i) {
-    const std::string name = "site/probe" + std::to_string(i);
-    if (ChannelHash(name) % 2 == 0) ++expected0;
-    p0.Process(Obs(name, 1, 1.0), kArrival, sink);
-    p1.Process(Obs(name, 1, 1.0), kArrival, sink);
-  }
-  EXPECT_EQ(p0.counters().channels, uint64_t(expected0));
-  EXPECT_EQ(p1.counters().channels, uint64_t(40 - expected0));
-  EXPECT_GT(expected0, 0);
-  EXPECT_LT(expected0, 40);
-  const auto list0 = p0.List(""), list1 = p1.List("");
-  for (const auto& c : list0.channels()) EXPECT_EQ(ChannelHash(c.name()) % 2, 0u);
-  for (const auto& c : list1.channels()) EXPECT_EQ(ChannelHash(c.name()) % 2, 1u);
-  EXPECT_EQ(p0.counters().not_owned, uint64_t(40 - expected0));
-}
-
 }  // namespace
 }  // namespace bayline::pipeline

@@ -9,7 +9,10 @@
 
 #include <google/protobuf/text_format.h>
 
+#include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/publication_sink.h"
 
 namespace bayline::pipeline::testing {
 

@@ -1,4 +1,4 @@
-#include "daemon/pipeline/publications.h"
+#include "daemon/pipeline/publication_builder.h"
 
 #include <cmath>
 
@@ -33,15 +33,16 @@ void FillEstimate(std::string_view channel, const ResolvedSpec& spec, EstimatorK
   e->set_accepted(accepted);
 }
 
-const std::string& Publisher::Topic(std::string_view kind, std::string_view channel) {
+const std::string& PublicationBuilder::Topic(std::string_view kind, std::string_view channel) {
   topic_.assign(kind);
   topic_.push_back('/');
   topic_.append(channel);
   return topic_;
 }
 
-void Publisher::InputError(PublicationSink& sink, std::string_view channel, uint64_t seq,
-                           int64_t time_ns, std::string_view reason, std::string_view message) {
+void PublicationBuilder::InputError(PublicationSink& sink, std::string_view channel, uint64_t seq,
+                                    int64_t time_ns, std::string_view reason,
+                                    std::string_view message) {
   auto* e = input_error_.mutable_input_error();
   e->set_channel(channel.data(), channel.size());
   e->set_seq(seq);
@@ -54,18 +55,19 @@ void Publisher::InputError(PublicationSink& sink, std::string_view channel, uint
   sink.Publish(Topic("input_error", channel), input_error_);
 }
 
-void Publisher::Estimate(PublicationSink& sink, std::string_view channel, const ResolvedSpec& spec,
-                         EstimatorKind kind, const est::ParameterReport& report, uint64_t seq,
-                         int64_t time_ns, uint64_t accepted) {
+void PublicationBuilder::Estimate(PublicationSink& sink, std::string_view channel,
+                                  const ResolvedSpec& spec, EstimatorKind kind,
+                                  const est::ParameterReport& report, uint64_t seq, int64_t time_ns,
+                                  uint64_t accepted) {
   FillEstimate(channel, spec, kind, report, seq, time_ns, accepted, estimate_.mutable_estimate());
   ++counters_->publications;
   sink.Publish(Topic("estimate", channel), estimate_);
 }
 
-LastAlarm Publisher::Alarm(PublicationSink& sink, std::string_view channel,
-                           const DetectorSetup& setup, const ResolvedSpec& spec,
-                           const est::DetectorEvent& event, bool raised, uint64_t seq,
-                           int64_t time_ns, double trigger_y) {
+LastAlarm PublicationBuilder::Alarm(PublicationSink& sink, std::string_view channel,
+                                    const DetectorSetup& setup, const ResolvedSpec& spec,
+                                    const est::DetectorEvent& event, bool raised, uint64_t seq,
+                                    int64_t time_ns, double trigger_y) {
   LastAlarm rec;
   rec.seq = seq;
   rec.time_ns = time_ns;
@@ -100,9 +102,10 @@ LastAlarm Publisher::Alarm(PublicationSink& sink, std::string_view channel,
   return rec;
 }
 
-void Publisher::Prediction(PublicationSink& sink, std::string_view channel, EstimatorKind kind,
-                           std::span<const double> x, const est::Prediction& prediction,
-                           uint64_t seq, int64_t time_ns) {
+void PublicationBuilder::Prediction(PublicationSink& sink, std::string_view channel,
+                                    EstimatorKind kind, std::span<const double> x,
+                                    const est::Prediction& prediction, uint64_t seq,
+                                    int64_t time_ns) {
   auto* p = prediction_.mutable_prediction();
   p->set_channel(channel.data(), channel.size());
   p->set_seq(seq);

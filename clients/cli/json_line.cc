@@ -1,19 +1,5 @@
-// ToJsonLine: a direct writer of protobuf's proto3 JSON mapping, walking the message by reflection.
-//
-// Why not google::protobuf::util::MessageToJsonString: it serializes to binary and re-reads the
-// bytes through a type resolver, about 60 us per publication, which capped `follow --json` and
-// `replay` at some 16,000 lines per second. This writer is a single pass (a few us).
-//
-// The mapping written (proto3 JSON, proto field names, zero values printed):
-//   - every singular scalar and string field, default or not; repeated fields as arrays (empty: []);
-//     a message field only when set; of a oneof only the member that is set;
-//   - int32 / uint32 / sint32 / fixed32 as JSON numbers, 64-bit integers as quoted decimal strings;
-//   - double / float: the shortest decimal that reads back to the same value (std::to_chars), -0.0
-//     for negative zero, and the strings "NaN", "Infinity", "-Infinity" for non-finite values;
-//   - bool as true / false, enums by value name (number when unnamed), bytes as base64, strings
-//     escaped per RFC 8259 (", \, and control characters; other UTF-8 passes through);
-//   - map fields as objects keyed by the key's text.
-// The result parses back with protobuf's own JSON parser to an equal message (tests check this).
+#include "clients/cli/json_line.h"
+
 #include <charconv>
 #include <cmath>
 #include <cstdint>
@@ -22,9 +8,7 @@
 #include <google/protobuf/descriptor.h>
 #include <google/protobuf/message.h>
 
-#include "daemon/pipeline/pipeline.h"
-
-namespace bayline::pipeline {
+namespace bayline::cli {
 namespace {
 
 using google::protobuf::FieldDescriptor;
@@ -227,4 +211,4 @@ std::string ToJsonLine(const bayline::v1::Publication& publication) {
   return out;
 }
 
-}  // namespace bayline::pipeline
+}  // namespace bayline::cli

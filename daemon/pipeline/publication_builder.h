@@ -1,6 +1,6 @@
-// Publisher: builds publications into reused protobuf messages and hands them to a sink, counting
-// them. One message object per kind is kept, so publishing reuses their storage (repeated fields
-// keep their capacity) and the topic string.
+// PublicationBuilder: builds the publication messages (Estimate, Alarm, InputError, Prediction)
+// and hands them to a sink, counting them. One message object per kind is kept, so publishing
+// reuses their storage (repeated fields keep their capacity) and the topic string.
 #pragma once
 
 #include <cstdint>
@@ -9,8 +9,10 @@
 #include <string_view>
 
 #include "bayline/v1/publication.pb.h"
+#include "daemon/pipeline/counters.h"
+#include "daemon/pipeline/detector_setup.h"
 #include "daemon/pipeline/detector_slot.h"
-#include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/publication_sink.h"
 #include "daemon/pipeline/resolved_spec.h"
 #include "estimators/core/report.h"
 #include "estimators/detect/alarm.h"
@@ -25,9 +27,9 @@ void FillEstimate(std::string_view channel, const ResolvedSpec& spec, EstimatorK
 // Seconds (detector marks) to nanoseconds; 0 when not finite.
 int64_t SecondsToNs(double seconds);
 
-class Publisher {
+class PublicationBuilder {
  public:
-  explicit Publisher(Counters* counters) : counters_(counters) {}
+  explicit PublicationBuilder(Counters* counters) : counters_(counters) {}
 
   void InputError(PublicationSink& sink, std::string_view channel, uint64_t seq, int64_t time_ns,
                   std::string_view reason, std::string_view message);

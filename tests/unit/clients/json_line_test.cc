@@ -1,7 +1,7 @@
-// ToJsonLine against protobuf's own JSON implementation (libprotobuf from Debian, the reference for
-// the proto3 JSON mapping): what we write parses back with google::protobuf::util's parser to the
-// same message, and where number formatting cannot differ the text is byte-identical to
-// google::protobuf::util::MessageToJsonString with the same options.
+// ToJsonLine (clients/cli/json_line.h) against protobuf's own JSON implementation (libprotobuf
+// from Debian, the reference for the proto3 JSON mapping): what we write parses back with
+// google::protobuf::util's parser to the same message, and where number formatting cannot differ
+// the text is byte-identical to google::protobuf::util::MessageToJsonString with the same options.
 #include <google/protobuf/util/json_util.h>
 #include <gtest/gtest.h>
 
@@ -9,9 +9,12 @@
 #include <limits>
 #include <string>
 
+#include "clients/cli/json_line.h"
+#include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/pipeline.h"
+#include "daemon/pipeline/publication_sink.h"
 
-namespace bayline::pipeline {
+namespace bayline::cli {
 namespace {
 
 constexpr double kInf = std::numeric_limits<double>::infinity();
@@ -76,8 +79,8 @@ TEST(JsonLineTest, ExtremeNumbersRoundTrip) {
   bayline::v1::Publication p = PlainEstimate();
   auto* e = p.mutable_estimate();
   e->clear_value();
-  for (double v : {kNaN, kInf, -kInf, -0.0, 0.1, 1.0 / 3.0, 1e-5, 1e21, 4.9e-324, 2.2250738585072014e-308,
-                   1.7976931348623157e308, -123456789.123456789}) {
+  for (double v : {kNaN, kInf, -kInf, -0.0, 0.1, 1.0 / 3.0, 1e-5, 1e21, 4.9e-324,
+                   2.2250738585072014e-308, 1.7976931348623157e308, -123456789.123456789}) {
     e->add_value(v);
   }
   e->set_seq(std::numeric_limits<uint64_t>::max());
@@ -137,5 +140,31 @@ TEST(JsonLineTest, EveryPublicationKindRoundTrips) {
   ExpectRoundTrip(PlainEstimate());
 }
 
+TEST(JsonLineTest, PipelineEstimateUsesProtoFieldNames) {
+  // A publication as the pipeline builds it (the lines `replay` prints).
+  struct FirstPublication : pipeline::PublicationSink {
+    void Publish(const std::string&, const bayline::v1::Publication& p) override {
+      if (!seen) first = p;
+      seen = true;
+    }
+    bool seen = false;
+    bayline::v1::Publication first;
+  } sink;
+  pipeline::Pipeline p(pipeline::DefaultConfig());
+  bayline::v1::Observation obs;
+  obs.set_channel("site/a");
+  obs.set_seq(1);
+  obs.set_y(2.0);
+  obs.set_time_ns(1'700'000'000'000'000'000);
+  p.Process(obs, obs.time_ns(), sink);
+  ASSERT_TRUE(sink.seen);
+  const std::string json = ToJsonLine(sink.first);
+  EXPECT_NE(json.find("\"std_error\""), std::string::npos) << json;
+  EXPECT_NE(json.find("\"effective_n\""), std::string::npos) << json;
+  EXPECT_NE(json.find("\"channel\":\"site/a\""), std::string::npos) << json;
+  EXPECT_EQ(json.find('\n'), std::string::npos);
+  ExpectRoundTrip(sink.first);
+}
+
 }  // namespace
-}  // namespace bayline::pipeline
+}  // namespace bayline::cli
