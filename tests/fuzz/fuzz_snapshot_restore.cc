@@ -45,7 +45,8 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   bayline::v1::Snapshot saved;
   pipeline.SaveChannels(&saved);
   Drop sink;
-  for (const auto& info : pipeline.List("").channels()) {
+  const bayline::v1::ChannelList listed = pipeline.List("");
+  for (const auto& info : listed.channels()) {
     if (!pipeline.Ask(info.name())) std::abort();  // listed but unknown
     bayline::v1::Observation o;
     o.set_channel(info.name());
