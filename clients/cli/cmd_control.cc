@@ -81,7 +81,8 @@ std::vector<Subcommand> AddControlCommands(CLI::App& app) {
                    });
                  }});
 
-  CLI::App* reset = app.add_subcommand("reset", "forget a channel's state (restarts from its rule)");
+  CLI::App* reset =
+      app.add_subcommand("reset", "forget a channel's state (restarts from its rule)");
   reset->add_option("channel", o->channel, "channel name")->required();
   AddCommonOptions(reset, o.get());
   out.push_back({reset, [o] {

@@ -10,7 +10,6 @@
 #include <iostream>
 #include <memory>
 #include <set>
-
 #include <zmq_addon.hpp>
 
 #include "bayline/v1/publication.pb.h"
@@ -37,11 +36,16 @@ const std::vector<std::string> kAllKinds = {"estimate", "alarm", "input_error", 
 
 std::string ChannelOf(const bayline::v1::Publication& p) {
   switch (p.kind_case()) {
-    case bayline::v1::Publication::kEstimate: return p.estimate().channel();
-    case bayline::v1::Publication::kAlarm: return p.alarm().channel();
-    case bayline::v1::Publication::kInputError: return p.input_error().channel();
-    case bayline::v1::Publication::kPrediction: return p.prediction().channel();
-    default: return {};
+    case bayline::v1::Publication::kEstimate:
+      return p.estimate().channel();
+    case bayline::v1::Publication::kAlarm:
+      return p.alarm().channel();
+    case bayline::v1::Publication::kInputError:
+      return p.input_error().channel();
+    case bayline::v1::Publication::kPrediction:
+      return p.prediction().channel();
+    default:
+      return {};
   }
 }
 

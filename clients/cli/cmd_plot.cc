@@ -47,16 +47,17 @@ std::filesystem::path FindPythonPackageDir() {
 }
 
 int RunPlot(const PlotOptions& o) {
-  std::string python = std::getenv("BAYLINE_PYTHON") ? std::getenv("BAYLINE_PYTHON") : "/usr/bin/python3";
+  std::string python =
+      std::getenv("BAYLINE_PYTHON") ? std::getenv("BAYLINE_PYTHON") : "/usr/bin/python3";
   std::string path = FindPythonPackageDir().string();
   if (const char* old = std::getenv("PYTHONPATH"); old != nullptr && *old != '\0') {
     path += ":" + std::string(old);
   }
   setenv("PYTHONPATH", path.c_str(), 1);
   setenv("MPLBACKEND", "Agg", 1);
-  std::vector<std::string> args = {python, "-m", "bayline.plot", "--input", o.input,
-                                   "--channel", o.channel, "--output", o.output,
-                                   "--x-axis", o.x_axis};
+  std::vector<std::string> args = {python,   "-m",        "bayline.plot", "--input",
+                                   o.input,  "--channel", o.channel,      "--output",
+                                   o.output, "--x-axis",  o.x_axis};
   auto add = [&](const char* flag, const std::string& v) {
     if (!v.empty()) {
       args.push_back(flag);

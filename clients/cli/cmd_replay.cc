@@ -95,9 +95,10 @@ int RunReplay(ReplayOptions& o) {
   bayline::v1::DaemonConfig config;
   if (!o.config_file.empty()) {
     if (spec_flags_given) {
-      throw InputError("--config and the channel-spec flags (--model, --estimators, --forgetting, "
-                       "--half-life, --detect, --arl0, --shift, --target-*, --every, "
-                       "--no-intercept) exclude each other");
+      throw InputError(
+          "--config and the channel-spec flags (--model, --estimators, --forgetting, "
+          "--half-life, --detect, --arl0, --shift, --target-*, --every, "
+          "--no-intercept) exclude each other");
     }
     config = ReadConfigFile(o.config_file);
     CheckConfig(config, o.config_file);
@@ -141,8 +142,9 @@ int RunReplay(ReplayOptions& o) {
 Subcommand AddReplayCommand(CLI::App& app) {
   auto o = std::make_shared<ReplayOptions>();
   CLI::App* sub = app.add_subcommand(
-      "replay", "run the estimation pipeline offline over a file and print publications as JSON "
-                "Lines (no daemon)");
+      "replay",
+      "run the estimation pipeline offline over a file and print publications as JSON "
+      "Lines (no daemon)");
   sub->add_option("--input", o->input, "CSV file with a header row, or .jsonl")->required();
   sub->add_option("--output", o->output, "output file (default stdout)");
   sub->add_option("--config", o->config_file,
@@ -157,8 +159,9 @@ Subcommand AddReplayCommand(CLI::App& app) {
           ->capture_default_str();
   o->spec_options[i++] =
       sub->add_flag("--no-intercept", s.no_intercept, "regression models: no intercept column");
-  o->spec_options[i++] = sub->add_option(
-      "--estimators", s.estimators, "comma-separated subset of ls, ml, map (default: all the model allows)");
+  o->spec_options[i++] =
+      sub->add_option("--estimators", s.estimators,
+                      "comma-separated subset of ls, ml, map (default: all the model allows)");
   o->spec_options[i++] =
       sub->add_option("--forgetting", s.forgetting, "forgetting factor lambda in (0, 1]");
   o->spec_options[i++] = sub->add_option(
@@ -168,12 +171,12 @@ Subcommand AddReplayCommand(CLI::App& app) {
                       "comma-separated detectors: cusum, ewma, page_hinkley, glr, bocpd, "
                       "recursive_cusum, recursive_cusum_sq, band; or none")
           ->capture_default_str();
-  o->spec_options[i++] =
-      sub->add_option("--arl0", s.arl0, "in-control average run length (observations between "
-                                        "false alarms)")
-          ->capture_default_str();
-  o->spec_options[i++] =
-      sub->add_option("--shift", s.shift, "design shift to detect, in sd units")->capture_default_str();
+  o->spec_options[i++] = sub->add_option("--arl0", s.arl0,
+                                         "in-control average run length (observations between "
+                                         "false alarms)")
+                             ->capture_default_str();
+  o->spec_options[i++] = sub->add_option("--shift", s.shift, "design shift to detect, in sd units")
+                             ->capture_default_str();
   CLI::Option* mean = sub->add_option("--target-mean", s.target_mean,
                                       "Phase II: in-control mean of the watched innovations");
   CLI::Option* sd = sub->add_option("--target-sd", s.target_sd, "Phase II: in-control sd");

@@ -35,8 +35,9 @@ struct SendOptions {
 class FrameSender {
  public:
   explicit FrameSender(const SendOptions& o)
-      : o_(o), socket_(ZmqContext(), o.pub_bind.empty() ? zmq::socket_type::push
-                                                        : zmq::socket_type::xpub) {
+      : o_(o),
+        socket_(ZmqContext(),
+                o.pub_bind.empty() ? zmq::socket_type::push : zmq::socket_type::xpub) {
     int timeout_ms = static_cast<int>(o.timeout_s * 1000);
     socket_.set(zmq::sockopt::sndtimeo, timeout_ms);
     socket_.set(zmq::sockopt::linger, timeout_ms);
@@ -65,7 +66,8 @@ class FrameSender {
   void Add(const bayline::v1::Observation& obs) {
     if (o_.rate > 0) {
       auto due = start_ + std::chrono::duration<double>(static_cast<double>(added_) / o_.rate);
-      std::this_thread::sleep_until(std::chrono::time_point_cast<std::chrono::steady_clock::duration>(due));
+      std::this_thread::sleep_until(
+          std::chrono::time_point_cast<std::chrono::steady_clock::duration>(due));
     }
     ++added_;
     if (o_.batch <= 1) {

@@ -1,12 +1,12 @@
 // threshold: from the false-alarm rate a user accepts (--arl0: mean observations between false
 // alarms) and the shift to catch (--shift, sd units), the detector settings (calibration.h), the
 // config lines that set them, and the ARL over a range of shifts (arl.h).
+#include <google/protobuf/struct.pb.h>
+#include <google/protobuf/text_format.h>
+
 #include <cmath>
 #include <iostream>
 #include <memory>
-
-#include <google/protobuf/struct.pb.h>
-#include <google/protobuf/text_format.h>
 
 #include "bayline/v1/config.pb.h"
 #include "clients/cli/command_support.h"

@@ -9,7 +9,6 @@
 #include <atomic>
 #include <stdexcept>
 #include <string>
-
 #include <zmq.hpp>
 
 namespace bayline::cli {

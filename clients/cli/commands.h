@@ -3,10 +3,9 @@
 // the exit status or throws InputError / CommandError (see command_support.h).
 #pragma once
 
+#include <CLI/CLI.hpp>
 #include <functional>
 #include <vector>
-
-#include <CLI/CLI.hpp>
 
 namespace bayline::cli {
 

@@ -86,10 +86,10 @@ std::string FormatChannelReport(const bayline::v1::ChannelReport& report) {
   for (const auto& e : report.estimates()) {
     std::string level = FormatNumber(100 * e.level()) + "%";
     for (int i = 0; i < e.names_size(); ++i) {
-      std::string interval = i < e.lower_size() && i < e.upper_size()
-                                 ? Cat({"[", FormatNumber(e.lower(i)), ", ",
-                                        FormatNumber(e.upper(i)), "] ", level})
-                                 : "-";
+      std::string interval =
+          i < e.lower_size() && i < e.upper_size()
+              ? Cat({"[", FormatNumber(e.lower(i)), ", ", FormatNumber(e.upper(i)), "] ", level})
+              : "-";
       rows.push_back({i == 0 ? e.estimator() : "", e.names(i),
                       i < e.value_size() ? FormatNumber(e.value(i)) : "-",
                       i < e.std_error_size() ? FormatNumber(e.std_error(i)) : "-", interval,

@@ -1,12 +1,12 @@
 #include "clients/cli/json_line.h"
 
+#include <google/protobuf/descriptor.h>
+#include <google/protobuf/message.h>
+
 #include <charconv>
 #include <cmath>
 #include <cstdint>
 #include <string>
-
-#include <google/protobuf/descriptor.h>
-#include <google/protobuf/message.h>
 
 namespace bayline::cli {
 namespace {
@@ -21,13 +21,27 @@ void AppendString(std::string& out, const std::string& s) {
   for (const char ch : s) {
     const auto c = static_cast<unsigned char>(ch);
     switch (c) {
-      case '"': out += "\\\""; break;
-      case '\\': out += "\\\\"; break;
-      case '\n': out += "\\n"; break;
-      case '\r': out += "\\r"; break;
-      case '\t': out += "\\t"; break;
-      case '\b': out += "\\b"; break;
-      case '\f': out += "\\f"; break;
+      case '"':
+        out += "\\\"";
+        break;
+      case '\\':
+        out += "\\\\";
+        break;
+      case '\n':
+        out += "\\n";
+        break;
+      case '\r':
+        out += "\\r";
+        break;
+      case '\t':
+        out += "\\t";
+        break;
+      case '\b':
+        out += "\\b";
+        break;
+      case '\f':
+        out += "\\f";
+        break;
       default:
         if (c < 0x20) {
           out += "\\u00";
@@ -47,8 +61,8 @@ void AppendBase64(std::string& out, const std::string& bytes) {
   out.push_back('"');
   std::size_t i = 0;
   for (; i + 2 < bytes.size(); i += 3) {
-    const uint32_t v = (uint32_t(uint8_t(bytes[i])) << 16) | (uint32_t(uint8_t(bytes[i + 1])) << 8) |
-                       uint32_t(uint8_t(bytes[i + 2]));
+    const uint32_t v = (uint32_t(uint8_t(bytes[i])) << 16) |
+                       (uint32_t(uint8_t(bytes[i + 1])) << 8) | uint32_t(uint8_t(bytes[i + 2]));
     for (int shift = 18; shift >= 0; shift -= 6) out.push_back(kAlphabet[(v >> shift) & 63]);
   }
   const std::size_t rest = bytes.size() - i;

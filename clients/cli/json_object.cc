@@ -105,19 +105,36 @@ class Parser {
       if (i_ >= s_.size()) break;
       char e = s_[i_++];
       switch (e) {
-        case '"': *out += '"'; break;
-        case '\\': *out += '\\'; break;
-        case '/': *out += '/'; break;
-        case 'b': *out += '\b'; break;
-        case 'f': *out += '\f'; break;
-        case 'n': *out += '\n'; break;
-        case 'r': *out += '\r'; break;
-        case 't': *out += '\t'; break;
+        case '"':
+          *out += '"';
+          break;
+        case '\\':
+          *out += '\\';
+          break;
+        case '/':
+          *out += '/';
+          break;
+        case 'b':
+          *out += '\b';
+          break;
+        case 'f':
+          *out += '\f';
+          break;
+        case 'n':
+          *out += '\n';
+          break;
+        case 'r':
+          *out += '\r';
+          break;
+        case 't':
+          *out += '\t';
+          break;
         case 'u': {
           if (auto err = ParseUnicodeEscape(out)) return err;
           break;
         }
-        default: return Fail(std::string("invalid escape \\") + e);
+        default:
+          return Fail(std::string("invalid escape \\") + e);
       }
     }
     return Fail("unterminated string");
@@ -131,10 +148,14 @@ class Parser {
       for (int k = 0; k < 4; ++k) {
         char h = s_[i_++];
         *v <<= 4;
-        if (h >= '0' && h <= '9') *v |= h - '0';
-        else if (h >= 'a' && h <= 'f') *v |= h - 'a' + 10;
-        else if (h >= 'A' && h <= 'F') *v |= h - 'A' + 10;
-        else return false;
+        if (h >= '0' && h <= '9')
+          *v |= h - '0';
+        else if (h >= 'a' && h <= 'f')
+          *v |= h - 'a' + 10;
+        else if (h >= 'A' && h <= 'F')
+          *v |= h - 'A' + 10;
+        else
+          return false;
       }
       return true;
     };

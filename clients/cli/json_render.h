@@ -4,9 +4,9 @@
 // faster writer of the same mapping.
 #pragma once
 
-#include <string>
-
 #include <google/protobuf/message.h>
+
+#include <string>
 
 namespace bayline::cli {
 

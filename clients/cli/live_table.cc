@@ -41,9 +41,10 @@ void LiveTable::Absorb(const bayline::v1::Publication& p) {
       break;
     case bayline::v1::Publication::kInputError:
       ++input_errors_;
-      last_input_error_ = (p.input_error().channel().empty() ? "(frame)" : p.input_error().channel()) +
-                          " #" + std::to_string(p.input_error().seq()) + " " +
-                          p.input_error().reason() + ": " + p.input_error().message();
+      last_input_error_ =
+          (p.input_error().channel().empty() ? "(frame)" : p.input_error().channel()) + " #" +
+          std::to_string(p.input_error().seq()) + " " + p.input_error().reason() + ": " +
+          p.input_error().message();
       break;
     case bayline::v1::Publication::kPrediction: {
       const auto& q = p.prediction();
@@ -85,9 +86,9 @@ std::vector<std::string> LiveTable::Render(const std::string& title, int width, 
     row.push_back(alarm_text);
     rows.push_back(std::move(row));
   }
-  std::vector<std::string> lines = {
-      title + "   publications " + std::to_string(publications_) + "   alarms " +
-      std::to_string(alarms_) + " raised   input errors " + std::to_string(input_errors_)};
+  std::vector<std::string> lines = {title + "   publications " + std::to_string(publications_) +
+                                    "   alarms " + std::to_string(alarms_) +
+                                    " raised   input errors " + std::to_string(input_errors_)};
   std::vector<std::string> table = AlignColumns(rows);
   int footer = (last_input_error_.empty() ? 0 : 1) + (last_prediction_.empty() ? 0 : 1);
   int room = std::max(2, height - 2 - footer);
@@ -107,7 +108,7 @@ void Painter::Paint(const std::vector<std::string>& lines) {
   std::string out;
   if (painted_ > 0) out += "\r\x1b[" + std::to_string(painted_) + "A";  // back to the first line
   for (const auto& l : lines) out += l + "\x1b[K\n";  // rewrite, clear the rest of the line
-  out += "\x1b[J";  // clear below (a previous, longer block)
+  out += "\x1b[J";                                    // clear below (a previous, longer block)
   std::fwrite(out.data(), 1, out.size(), out_);
   std::fflush(out_);
   painted_ = lines.size();

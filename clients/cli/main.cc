@@ -1,9 +1,9 @@
 // bayline: the command line of the bayline daemon: send observations, follow publications, ask
 // the control API, replay files offline, choose alarm thresholds, plot a channel's history.
-#include <iostream>
+#include <google/protobuf/stubs/common.h>
 
 #include <CLI/CLI.hpp>
-#include <google/protobuf/stubs/common.h>
+#include <iostream>
 
 #include "clients/cli/command_support.h"
 #include "clients/cli/commands.h"
@@ -11,8 +11,9 @@
 
 int main(int argc, char** argv) {
   using namespace bayline::cli;
-  CLI::App app{"bayline: feed, follow and query the bayline estimation daemon; replay files "
-               "offline; choose alarm thresholds; plot"};
+  CLI::App app{
+      "bayline: feed, follow and query the bayline estimation daemon; replay files "
+      "offline; choose alarm thresholds; plot"};
   app.require_subcommand(1);
   app.footer(
       "Endpoints default to the daemon's built-in loopback ones. Exit status: 0 ok, 1 bad input "

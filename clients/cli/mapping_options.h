@@ -2,9 +2,8 @@
 // --time, --trials, --exposure, --weight, --format.
 #pragma once
 
-#include <string>
-
 #include <CLI/CLI.hpp>
+#include <string>
 
 #include "clients/cli/observation_mapping.h"
 
@@ -12,8 +11,8 @@ namespace bayline::cli {
 
 struct MappingFlags {
   ColumnMapping mapping;
-  std::string x_list;          // --x, comma-separated
-  std::string channel_name;    // --name: channel for inputs without a channel column
+  std::string x_list;        // --x, comma-separated
+  std::string channel_name;  // --name: channel for inputs without a channel column
   std::string format = "auto";
 };
 

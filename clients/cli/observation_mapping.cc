@@ -58,8 +58,8 @@ void ObservationMapper::CheckHeader(const std::vector<std::string>& header, int6
     std::string columns;
     for (const auto& h : header) columns += (columns.empty() ? "" : ", ") + h;
     ThrowAtLine(source_, header_line,
-                std::string("no column '") + c + "' (" + role + ") in the header (columns: " +
-                    columns + ")");
+                std::string("no column '") + c + "' (" + role +
+                    ") in the header (columns: " + columns + ")");
   };
   channel_decided_ = true;
   channel_from_column_ = has(mapping_.channel);
@@ -85,8 +85,7 @@ double ObservationMapper::Number(const Record& r, const Field& f) const {
   }
   auto v = ParseFiniteDouble(f.value.text);
   if (!v) {
-    ThrowAtColumn(source_, r.line, f.column, f.name,
-                  "not a finite number: '" + f.value.text + "'");
+    ThrowAtColumn(source_, r.line, f.column, f.name, "not a finite number: '" + f.value.text + "'");
   }
   return *v;
 }

@@ -1,10 +1,10 @@
 #include "clients/cli/replay_spec.h"
 
-#include <fstream>
-#include <sstream>
-
 #include <google/protobuf/io/tokenizer.h>
 #include <google/protobuf/text_format.h>
+
+#include <fstream>
+#include <sstream>
 
 #include "clients/cli/input_error.h"
 #include "clients/cli/observation_mapping.h"
@@ -19,8 +19,8 @@ class CollectErrors : public google::protobuf::io::ErrorCollector {
   void AddError(int line, google::protobuf::io::ColumnNumber column,
                 const std::string& message) override {
     if (!text_.empty()) text_ += "\n";
-    text_ += file_ + ":" + std::to_string(line + 1) + ":" + std::to_string(column + 1) + ": " +
-             message;
+    text_ +=
+        file_ + ":" + std::to_string(line + 1) + ":" + std::to_string(column + 1) + ": " + message;
   }
   const std::string& text() const { return text_; }
 

@@ -14,9 +14,9 @@ struct ReplaySpecFlags {
   std::string model = "auto";
   std::vector<std::string> regressors;  // the --x column names
   bool no_intercept = false;
-  std::string estimators;  // comma-separated subset of ls, ml, map; "" = all the model allows
-  double forgetting = 0;   // lambda in (0, 1]; 0 = unset
-  double half_life_s = 0;  // > 0: forget by elapsed time
+  std::string estimators;        // comma-separated subset of ls, ml, map; "" = all the model allows
+  double forgetting = 0;         // lambda in (0, 1]; 0 = unset
+  double half_life_s = 0;        // > 0: forget by elapsed time
   std::string detect = "cusum";  // comma-separated detector kinds, or "none"
   double arl0 = 500;
   double shift = 1;

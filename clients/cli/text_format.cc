@@ -46,7 +46,7 @@ std::string FormatTimeNs(int64_t time_ns) {
   if (time_ns == 0) return "-";
   std::time_t seconds = static_cast<std::time_t>(time_ns / 1000000000);
   int millis = static_cast<int>((time_ns % 1000000000) / 1000000);
-  std::tm tm {};
+  std::tm tm{};
   gmtime_r(&seconds, &tm);
   char buffer[64];
   std::snprintf(buffer, sizeof buffer, "%04d-%02d-%02dT%02d:%02d:%02d.%03dZ", tm.tm_year + 1900,

@@ -34,12 +34,20 @@ class Boxed {
 // Unwrap(slot alternative): the estimator or detector whether it is held inline or boxed, so code
 // visiting a slot variant treats both alike.
 template <typename T>
-T& Unwrap(T& e) { return e; }
+T& Unwrap(T& e) {
+  return e;
+}
 template <typename T>
-T& Unwrap(Boxed<T>& e) { return *e; }
+T& Unwrap(Boxed<T>& e) {
+  return *e;
+}
 template <typename T>
-const T& Unwrap(const T& e) { return e; }
+const T& Unwrap(const T& e) {
+  return e;
+}
 template <typename T>
-const T& Unwrap(const Boxed<T>& e) { return *e; }
+const T& Unwrap(const Boxed<T>& e) {
+  return *e;
+}
 
 }  // namespace bayline::pipeline

@@ -21,7 +21,8 @@ ChannelPtr Channel::Create(std::shared_ptr<const ResolvedSpec> spec, std::string
   const ResolvedSpec& s = *spec;
   const std::size_t n_est = s.estimators.size();
   const std::size_t n_det = s.detectors.size();
-  if (n_est > kMaxEstimatorsPerChannel) throw std::length_error("too many estimators for a channel");
+  if (n_est > kMaxEstimatorsPerChannel)
+    throw std::length_error("too many estimators for a channel");
 
   // Layout (see channel.h): header, name, estimators, detectors.
   std::array<uint32_t, kMaxEstimatorsPerChannel> est_offset{};
@@ -34,7 +35,8 @@ ChannelPtr Channel::Create(std::shared_ptr<const ResolvedSpec> spec, std::string
   const std::size_t det_offset = at;
   at += n_det * sizeof(DetectorSlot);
   const std::size_t total = RoundUp(at, kBlockAlignment);
-  if (total > std::numeric_limits<uint32_t>::max()) throw std::length_error("channel block too large");
+  if (total > std::numeric_limits<uint32_t>::max())
+    throw std::length_error("channel block too large");
 
   void* block = ::operator new(total);
   auto* ch = ::new (block) Channel(std::move(spec));

@@ -22,7 +22,8 @@ std::vector<const Channel*> SortedByName(const ChannelRegistry& channels) {
   std::vector<const Channel*> out;
   out.reserve(channels.size());
   channels.ForEach([&](const Channel& ch) { out.push_back(&ch); });
-  std::sort(out.begin(), out.end(), [](const Channel* a, const Channel* b) { return a->name() < b->name(); });
+  std::sort(out.begin(), out.end(),
+            [](const Channel* a, const Channel* b) { return a->name() < b->name(); });
   return out;
 }
 
@@ -53,7 +54,8 @@ std::optional<bayline::v1::ChannelReport> PipelineState::Ask(std::string_view ch
     const DetectorSlot& slot = detectors[d];
     auto* ds = report.add_detectors();
     ds->set_detector(std::string(DetectorKindName(setup.kind)));
-    ds->set_watched(std::string(EstimatorKindName(spec.estimators[static_cast<std::size_t>(setup.watch)])));
+    ds->set_watched(
+        std::string(EstimatorKindName(spec.estimators[static_cast<std::size_t>(setup.watch)])));
     ds->set_statistic(slot.last_statistic());
     ds->set_threshold(slot.last_threshold());
     ds->set_alarm_active(slot.alarm_active());
@@ -100,8 +102,8 @@ est::Status PipelineState::Reconfigure(const bayline::v1::DaemonConfig& config,
     std::shared_ptr<const ResolvedSpec> spec;
     bool same = false;
     if (rule >= 0) {
-      const Model model = ResolveModel(EffectiveRules(config).Get(rule).spec(),
-                                       ch.spec->regressor_count);
+      const Model model =
+          ResolveModel(EffectiveRules(config).Get(rule).spec(), ch.spec->regressor_count);
       same = rules.Resolve(rule, model, ch.spec->regressor_count, &spec).ok() &&
              spec->digest == ch.spec->digest;
     }

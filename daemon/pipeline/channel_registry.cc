@@ -77,9 +77,7 @@ void ChannelRegistry::Clear() {
   size_ = 0;
 }
 
-void ChannelRegistry::Grow() {
-  Rehash(slots_ == nullptr ? kMinCapacity : 2 * (mask_ + 1));
-}
+void ChannelRegistry::Grow() { Rehash(slots_ == nullptr ? kMinCapacity : 2 * (mask_ + 1)); }
 
 void ChannelRegistry::Rehash(std::size_t capacity) {
   std::unique_ptr<Slot[]> old = std::move(slots_);

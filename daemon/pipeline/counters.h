@@ -16,9 +16,9 @@ struct Counters {
   uint64_t seq_duplicates = 0;
   uint64_t seq_reordered = 0;
   std::map<std::string, uint64_t> rejected_by_reason;
-  uint64_t channels = 0;        // channels currently held
-  uint64_t predictions = 0;     // prediction requests answered
-  uint64_t detector_skips = 0;  // detector updates skipped after a numerical failure
+  uint64_t channels = 0;               // channels currently held
+  uint64_t predictions = 0;            // prediction requests answered
+  uint64_t detector_skips = 0;         // detector updates skipped after a numerical failure
   uint64_t channels_not_restored = 0;  // snapshot channels set aside by RestoreChannels
 };
 

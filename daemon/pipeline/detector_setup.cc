@@ -58,10 +58,14 @@ bool ParseDirection(std::string_view name, est::Direction* direction) {
 
 std::string_view DirectionName(est::Direction direction) {
   switch (direction) {
-    case est::Direction::kUp: return "up";
-    case est::Direction::kDown: return "down";
-    case est::Direction::kBoth: return "both";
-    case est::Direction::kNone: return "";
+    case est::Direction::kUp:
+      return "up";
+    case est::Direction::kDown:
+      return "down";
+    case est::Direction::kBoth:
+      return "both";
+    case est::Direction::kNone:
+      return "";
   }
   return "";
 }

@@ -5,9 +5,10 @@
 // reconfigured, never per channel:
 //   cusum        k = shift / 2, h for arl0 (Markov chain). Raw: h (with k, default shift / 2), or k
 //                alone (h solved). head_start is a fraction of h.
-//   ewma         lambda and L for arl0 and shift. Raw: lambda and limit, or lambda alone (L solved).
-//   page_hinkley delta = shift / 2 (or raw delta), threshold by simulation. Raw: threshold.
-//   glr          window (raw or the library's rule), threshold by simulation. Raw: threshold.
+//   ewma         lambda and L for arl0 and shift. Raw: lambda and limit, or lambda alone (L
+//   solved). page_hinkley delta = shift / 2 (or raw delta), threshold by simulation. Raw:
+//   threshold. glr          window (raw or the library's rule), threshold by simulation. Raw:
+//   threshold.
 //                Simulated calibration is limited to arl0 <= kMaxSimulatedArl0 (its cost grows with
 //                arl0); above it a raw threshold is required (ValidateConfig says so).
 //   bocpd        not calibrated: hazard (default 1 / arl0), recent (default 10), threshold (0.5).
@@ -34,7 +35,14 @@
 namespace bayline::pipeline {
 
 enum class DetectorKind : uint8_t {
-  kCusum, kEwma, kPageHinkley, kGlr, kBocpd, kRecursiveCusum, kRecursiveCusumSquares, kBand
+  kCusum,
+  kEwma,
+  kPageHinkley,
+  kGlr,
+  kBocpd,
+  kRecursiveCusum,
+  kRecursiveCusumSquares,
+  kBand
 };
 
 inline constexpr double kDefaultArl0 = 500.0;
@@ -50,9 +58,9 @@ std::string_view DirectionName(est::Direction direction);
 
 struct DetectorSetup {
   DetectorKind kind = DetectorKind::kCusum;
-  std::string watch_name;      // as configured ("" = the first estimator)
-  int watch = 0;               // index into the channel's estimators (bound per channel spec)
-  bool phase2 = false;         // standardize by target_mean / target_sd instead of self-starting
+  std::string watch_name;  // as configured ("" = the first estimator)
+  int watch = 0;           // index into the channel's estimators (bound per channel spec)
+  bool phase2 = false;     // standardize by target_mean / target_sd instead of self-starting
   double target_mean = 0.0;
   double target_sd = 1.0;
   double inflate_on_alarm = 0.0;

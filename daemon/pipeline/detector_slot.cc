@@ -17,26 +17,31 @@ Status BadState(const char* why) { return Status::Error(ErrorCode::kInvalidState
 
 DetectorSlot::Impl DetectorSlot::MakeImpl(const DetectorSetup& d) {
   switch (d.kind) {
-    case DetectorKind::kCusum: return Impl(std::in_place_type<est::Cusum>, d.cusum);
-    case DetectorKind::kEwma: return Impl(std::in_place_type<est::Ewma>, d.ewma);
+    case DetectorKind::kCusum:
+      return Impl(std::in_place_type<est::Cusum>, d.cusum);
+    case DetectorKind::kEwma:
+      return Impl(std::in_place_type<est::Ewma>, d.ewma);
     case DetectorKind::kPageHinkley:
       return Impl(std::in_place_type<est::PageHinkley>, d.page_hinkley);
-    case DetectorKind::kGlr: return Impl(Boxed<est::Glr>(est::Glr(d.glr)));
-    case DetectorKind::kBocpd: return Impl(Boxed<est::Bocpd>(est::Bocpd(d.bocpd)));
+    case DetectorKind::kGlr:
+      return Impl(Boxed<est::Glr>(est::Glr(d.glr)));
+    case DetectorKind::kBocpd:
+      return Impl(Boxed<est::Bocpd>(est::Bocpd(d.bocpd)));
     case DetectorKind::kRecursiveCusum:
       return Impl(std::in_place_type<est::RecursiveCusum>, d.recursive_cusum);
     case DetectorKind::kRecursiveCusumSquares:
-      return Impl(Boxed<est::RecursiveCusumSquares>(
-          est::RecursiveCusumSquares(d.recursive_cusum_squares)));
-    case DetectorKind::kBand: return Impl(std::in_place_type<est::ToleranceBand>, d.band);
+      return Impl(
+          Boxed<est::RecursiveCusumSquares>(est::RecursiveCusumSquares(d.recursive_cusum_squares)));
+    case DetectorKind::kBand:
+      return Impl(std::in_place_type<est::ToleranceBand>, d.band);
   }
   return Impl(std::in_place_type<est::Cusum>, d.cusum);
 }
 
 DetectorSlot::DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind)
     : impl_(MakeImpl(setup)) {
-  raw_counts_ = setup.kind == DetectorKind::kBocpd &&
-                (model == Model::kPoisson || model == Model::kBinomial);
+  raw_counts_ =
+      setup.kind == DetectorKind::kBocpd && (model == Model::kPoisson || model == Model::kBinomial);
   if (setup.phase2) {
     source_ = Source::kPhase2;
   } else if (watched_kind == EstimatorKind::kLs) {
@@ -73,7 +78,8 @@ double DetectorSlot::StandardizedValue(const DetectorSetup& setup, const Detecto
     case Source::kSelfStarting:
     case Source::kSelfStartingLog:
       if (auto* s = std::get_if<est::SelfStartingStandardizer>(&standardizer_)) {
-        const double y = source_ == Source::kSelfStartingLog ? std::log(in.sample->y) : in.sample->y;
+        const double y =
+            source_ == Source::kSelfStartingLog ? std::log(in.sample->y) : in.sample->y;
         if (!s->Update(y, &z).ok()) z = est::kNaN;
       }
       break;
@@ -171,7 +177,8 @@ void DetectorSlot::Pack(std::vector<double>* out) const {
 
   section = BeginSection(out);
   est::StateWriter w(out);
-  if (const auto* s = std::get_if<est::SelfStartingStandardizer>(&standardizer_)) s->state().Pack(w);
+  if (const auto* s = std::get_if<est::SelfStartingStandardizer>(&standardizer_))
+    s->state().Pack(w);
   if (const auto* s = std::get_if<est::RecursiveResidualStandardizer>(&standardizer_)) {
     s->state().Pack(w);
   }
@@ -219,14 +226,14 @@ Status DetectorSlot::Unpack(std::span<const double> values) {
   last_statistic_ = statistic;
   last_threshold_ = threshold;
   const LastAlarm restored{seq,
-                          static_cast<int64_t>(time),
-                          onset_seq,
-                          static_cast<int64_t>(onset_time),
-                          a_stat,
-                          a_thr,
-                          a_shift,
-                          a_y,
-                          static_cast<uint8_t>(a_dir)};
+                           static_cast<int64_t>(time),
+                           onset_seq,
+                           static_cast<int64_t>(onset_time),
+                           a_stat,
+                           a_thr,
+                           a_shift,
+                           a_y,
+                           static_cast<uint8_t>(a_dir)};
   if (raised > 0) {
     if (!last_alarm_) last_alarm_ = std::make_unique<LastAlarm>();
     *last_alarm_ = restored;

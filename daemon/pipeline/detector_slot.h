@@ -2,11 +2,12 @@
 // API reports (last statistic, alarms raised, last alarm).
 //
 // What each detector watches (DetectorSetup::watch is the index of the watched estimator):
-//   charts (cusum, ewma, page_hinkley, glr) and bocpd on gaussian / linear / lognormal / exponential
-//   / gamma / logistic / poisson_regression channels watch a standardized innovation z:
+//   charts (cusum, ewma, page_hinkley, glr) and bocpd on gaussian / linear / lognormal /
+//   exponential / gamma / logistic / poisson_regression channels watch a standardized innovation z:
 //     mode phase2:        z = (y - target_mean) / target_sd;
 //     watched ls:         the recursive residual, standardized by its own running scale
-//                         (RecursiveResidualStandardizer: exactly N(0, 1) in control from the start);
+//                         (RecursiveResidualStandardizer: exactly N(0, 1) in control from the
+//                         start);
 //     watched ml, gaussian / lognormal model: y (log y) through the self-starting standardizer;
 //     otherwise:          the estimator's own standardized innovation (map: the normal score of the
 //                         exact posterior predictive; ml: the plug-in predictive).
@@ -60,7 +61,8 @@ class DetectorSlot {
 
   // Feeds one accepted observation. On ok, *event holds the detector's event (raised / cleared).
   // Fails only on a numerical failure inside the detector; then nothing changed.
-  est::Status Update(const DetectorSetup& setup, const DetectorInput& in, est::DetectorEvent* event);
+  est::Status Update(const DetectorSetup& setup, const DetectorInput& in,
+                     est::DetectorEvent* event);
 
   bool alarm_active() const;
   double last_statistic() const { return last_statistic_; }
@@ -75,10 +77,16 @@ class DetectorSlot {
   est::Status Unpack(std::span<const double> values);  // kInvalidState, nothing changed, on error
 
  private:
-  enum class Source : uint8_t { kPhase2, kLsResidual, kSelfStarting, kSelfStartingLog, kInnovation };
-  using Impl = std::variant<est::Cusum, est::Ewma, est::PageHinkley, Boxed<est::Glr>,
-                            Boxed<est::Bocpd>, est::RecursiveCusum,
-                            Boxed<est::RecursiveCusumSquares>, est::ToleranceBand>;
+  enum class Source : uint8_t {
+    kPhase2,
+    kLsResidual,
+    kSelfStarting,
+    kSelfStartingLog,
+    kInnovation
+  };
+  using Impl =
+      std::variant<est::Cusum, est::Ewma, est::PageHinkley, Boxed<est::Glr>, Boxed<est::Bocpd>,
+                   est::RecursiveCusum, Boxed<est::RecursiveCusumSquares>, est::ToleranceBand>;
   using Standardizer = std::variant<std::monostate, est::SelfStartingStandardizer,
                                     est::RecursiveResidualStandardizer>;
 

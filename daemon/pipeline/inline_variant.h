@@ -9,9 +9,10 @@
 // kAlignment), at an address aligned to kAlignment.
 //
 // Lifetime: `new (storage) InlineVariant(std::in_place_type<T>, factory)` constructs the T
-// returned by factory() after the header; Destroy() ends the T's lifetime (the InlineVariant itself is trivially
-// destructible, so the storage can then be released). Not copyable or movable: its object lives
-// past sizeof(*this). Visit(f) calls f with the object as T& (const T& on a const InlineVariant).
+// returned by factory() after the header; Destroy() ends the T's lifetime (the InlineVariant itself
+// is trivially destructible, so the storage can then be released). Not copyable or movable: its
+// object lives past sizeof(*this). Visit(f) calls f with the object as T& (const T& on a const
+// InlineVariant).
 #pragma once
 
 #include <algorithm>
@@ -100,7 +101,9 @@ class InlineVariant {
 
  private:
   std::byte* payload() { return reinterpret_cast<std::byte*>(this) + kHeaderBytes; }
-  const std::byte* payload() const { return reinterpret_cast<const std::byte*>(this) + kHeaderBytes; }
+  const std::byte* payload() const {
+    return reinterpret_cast<const std::byte*>(this) + kHeaderBytes;
+  }
 
   alignas(kAlignment) uint8_t index_;
 };

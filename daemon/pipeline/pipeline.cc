@@ -27,7 +27,8 @@ PipelineState::PipelineState(const bayline::v1::DaemonConfig& config,
       budget_(budget != nullptr ? std::move(budget)
                                 : std::make_shared<ChannelBudget>(limits_.max_channels)) {
   budget_->set_limit(limits_.max_channels);
-  (void)rules_.Build(config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
+  (void)rules_.Build(
+      config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
   x_full_.reserve(limits_.max_regressors + 1);
 }
 
@@ -35,9 +36,9 @@ PipelineState::~PipelineState() { budget_->Release(channels_.size()); }
 
 void PipelineState::RejectChannelLimit(const bayline::v1::Observation& obs, int64_t time_ns,
                                        PublicationSink& sink) {
-  publisher_.InputError(sink, obs.channel(), obs.seq(), time_ns, "channel_limit",
-                        "channel limit of " + std::to_string(budget_->limit()) +
-                            " reached; new channels are refused");
+  publications_.InputError(sink, obs.channel(), obs.seq(), time_ns, "channel_limit",
+                           "channel limit of " + std::to_string(budget_->limit()) +
+                               " reached; new channels are refused");
 }
 
 est::Sample PipelineState::BuildSample(const ResolvedSpec& spec,
@@ -196,8 +197,8 @@ void PipelineState::ProcessHashed(const bayline::v1::Observation& obs, int64_t a
   }
   if (seq_class == SeqClass::kTooOld || seq_class == SeqClass::kImplausible) {
     if (ch != nullptr) ch->seq.Refuse(seq);  // only the re-synchronisation run changes
-    publisher_.InputError(sink, name, seq, time_ns, SeqRefusalReason(seq_class),
-                          window.Explain(seq));
+    publications_.InputError(sink, name, seq, time_ns, SeqRefusalReason(seq_class),
+                             window.Explain(seq));
     return;
   }
 
@@ -288,7 +289,8 @@ void PipelineState::ApplyPublishPolicy(Channel& ch, uint64_t seq, int64_t time_n
   PublishState& p = ch.publish;
   ++p.since_publish;
   if (p.since_publish < spec.every_n) return;
-  if (spec.min_interval_ns > 0 && p.published && time_ns - p.last_publish_ns < spec.min_interval_ns) {
+  if (spec.min_interval_ns > 0 && p.published &&
+      time_ns - p.last_publish_ns < spec.min_interval_ns) {
     return;
   }
   for (std::size_t i = 0; i < ch.estimator_count(); ++i) {

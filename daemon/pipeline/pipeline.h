@@ -95,16 +95,18 @@ class Pipeline {
   // processed, the lookups of the next ones are started (their names hashed, their registry slots
   // and channel blocks prefetched), hiding most of the memory latency. Throws
   // std::invalid_argument, processing nothing, when the two sizes differ.
-  void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
-                    std::span<const int64_t> arrival_ns, PublicationSink& sink);
+  void ProcessBatch(
+      const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+      std::span<const int64_t> arrival_ns, PublicationSink& sink);
   // The same, for a caller that has hashed the names already (the daemon's ingest thread, to route
   // them): channel_hashes[i] must be ChannelHash(observations[i].channel()) (channel_name.h), and
   // is then not
   // computed again (an empty span: hashed here). Throws std::invalid_argument, processing nothing,
   // when a size differs.
-  void ProcessBatch(const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
-                    std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
-                    PublicationSink& sink);
+  void ProcessBatch(
+      const google::protobuf::RepeatedPtrField<bayline::v1::Observation>& observations,
+      std::span<const int64_t> arrival_ns, std::span<const uint64_t> channel_hashes,
+      PublicationSink& sink);
 
   // Publishes an InputError for a frame that could not be decoded (reason "malformed_frame" or
   // "oversized_frame") and counts it.

@@ -1,11 +1,11 @@
 #include "daemon/pipeline/resolved_spec.h"
 
+#include <google/protobuf/io/coded_stream.h>
+#include <google/protobuf/io/zero_copy_stream_impl_lite.h>
+
 #include <array>
 #include <cstdio>
 #include <utility>
-
-#include <google/protobuf/io/coded_stream.h>
-#include <google/protobuf/io/zero_copy_stream_impl_lite.h>
 
 #include "daemon/pipeline/channel_name.h"
 
@@ -66,23 +66,29 @@ std::string_view ModelName(Model model) {
 }
 
 bool IsRegressionModel(Model model) {
-  return model == Model::kLinear || model == Model::kLogistic ||
-         model == Model::kPoissonRegression;
+  return model == Model::kLinear || model == Model::kLogistic || model == Model::kPoissonRegression;
 }
 
 bool ParseEstimatorKind(std::string_view name, EstimatorKind* kind) {
-  if (name == "ls") *kind = EstimatorKind::kLs;
-  else if (name == "ml") *kind = EstimatorKind::kMl;
-  else if (name == "map") *kind = EstimatorKind::kMap;
-  else return false;
+  if (name == "ls")
+    *kind = EstimatorKind::kLs;
+  else if (name == "ml")
+    *kind = EstimatorKind::kMl;
+  else if (name == "map")
+    *kind = EstimatorKind::kMap;
+  else
+    return false;
   return true;
 }
 
 std::string_view EstimatorKindName(EstimatorKind kind) {
   switch (kind) {
-    case EstimatorKind::kLs: return "ls";
-    case EstimatorKind::kMl: return "ml";
-    case EstimatorKind::kMap: return "map";
+    case EstimatorKind::kLs:
+      return "ls";
+    case EstimatorKind::kMl:
+      return "ml";
+    case EstimatorKind::kMap:
+      return "map";
   }
   return "unknown";
 }
@@ -90,27 +96,36 @@ std::string_view EstimatorKindName(EstimatorKind kind) {
 std::span<const EstimatorKind> AllowedEstimators(Model model) {
   switch (model) {
     case Model::kLinear:
-    case Model::kGaussian: return kAll;
+    case Model::kGaussian:
+      return kAll;
     case Model::kPoisson:
     case Model::kBinomial:
-    case Model::kExponential: return kMlMap;
+    case Model::kExponential:
+      return kMlMap;
     case Model::kLognormal:
     case Model::kGamma:
     case Model::kLogistic:
-    case Model::kPoissonRegression: return kMlOnly;
+    case Model::kPoissonRegression:
+      return kMlOnly;
   }
   return {};
 }
 
 std::span<const std::string_view> ScalarParameterNames(Model model) {
   switch (model) {
-    case Model::kGaussian: return kGaussianNames;
-    case Model::kLognormal: return kLognormalNames;
+    case Model::kGaussian:
+      return kGaussianNames;
+    case Model::kLognormal:
+      return kLognormalNames;
     case Model::kPoisson:
-    case Model::kExponential: return kRateNames;
-    case Model::kBinomial: return kProbabilityNames;
-    case Model::kGamma: return kGammaNames;
-    default: return {};
+    case Model::kExponential:
+      return kRateNames;
+    case Model::kBinomial:
+      return kProbabilityNames;
+    case Model::kGamma:
+      return kGammaNames;
+    default:
+      return {};
   }
 }
 
@@ -138,9 +153,9 @@ est::Status ResolveSpec(const bayline::v1::Rule& rule, const std::string& rule_n
   r->intercept = regression && (!spec.has_intercept() || spec.intercept());
   r->p = regression ? static_cast<int>(r->regressor_count) + (r->intercept ? 1 : 0) : 1;
   if (regression && r->p == 0) {
-    return est::Status::Error(est::ErrorCode::kWrongRegressorCount,
-                              "rule \"" + rule_name +
-                                  "\": a regression model without intercept needs regressors");
+    return est::Status::Error(
+        est::ErrorCode::kWrongRegressorCount,
+        "rule \"" + rule_name + "\": a regression model without intercept needs regressors");
   }
   if (regression && spec.regressors_size() > 0 &&
       static_cast<uint32_t>(spec.regressors_size()) != regressor_count) {
@@ -175,8 +190,10 @@ est::Status ResolveSpec(const bayline::v1::Rule& rule, const std::string& rule_n
   r->level = spec.level() > 0 ? spec.level() : 0.95;
 
   est::ForgettingOptions forgetting;
-  if (spec.forgetting().half_life_s() > 0) forgetting.half_life = spec.forgetting().half_life_s();
-  else if (spec.forgetting().lambda() > 0) forgetting.lambda = spec.forgetting().lambda();
+  if (spec.forgetting().half_life_s() > 0)
+    forgetting.half_life = spec.forgetting().half_life_s();
+  else if (spec.forgetting().lambda() > 0)
+    forgetting.lambda = spec.forgetting().lambda();
   r->rls.forgetting = forgetting;
   r->rls.robust = spec.robust();
   r->rls.extended_precision = spec.extended_precision();
@@ -201,7 +218,8 @@ est::Status ResolveSpec(const bayline::v1::Rule& rule, const std::string& rule_n
       }
       nig.prior_mean.assign(prior.mean().begin(), prior.mean().end());
     }
-    if (scale > 0) nig.prior_precision.assign(static_cast<std::size_t>(r->p), 1.0 / (scale * scale));
+    if (scale > 0)
+      nig.prior_precision.assign(static_cast<std::size_t>(r->p), 1.0 / (scale * scale));
     if (prior.shape() > 0) nig.a0 = prior.shape();
     if (prior.rate() > 0) nig.b0 = prior.rate();
     auto& dlm = r->dlm;
@@ -261,10 +279,11 @@ est::Status ResolveSpec(const bayline::v1::Rule& rule, const std::string& rule_n
                          d.kind != DetectorKind::kRecursiveCusum &&
                          d.kind != DetectorKind::kRecursiveCusumSquares &&
                          !(d.kind == DetectorKind::kBocpd && r->bocpd_needs_unit_weight);
-    const bool self_standardized =
-        watched == EstimatorKind::kLs ||
-        (watched == EstimatorKind::kMl && (model == Model::kGaussian || model == Model::kLognormal));
-    if (reads_z && !self_standardized) r->needs_innovation[static_cast<std::size_t>(d.watch)] = true;
+    const bool self_standardized = watched == EstimatorKind::kLs ||
+                                   (watched == EstimatorKind::kMl &&
+                                    (model == Model::kGaussian || model == Model::kLognormal));
+    if (reads_z && !self_standardized)
+      r->needs_innovation[static_cast<std::size_t>(d.watch)] = true;
     r->detectors.push_back(std::move(d));
   }
 

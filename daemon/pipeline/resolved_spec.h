@@ -18,9 +18,9 @@
 // probability; gamma shape, rate.
 //
 // Option mapping from ChannelSpec: forgetting -> every estimator (ls forgetting, ml forgetting, map
-// discount); robust / extended_precision -> ls; prior -> map (linear: mean, scale = prior sd of each
-// coefficient in units of sigma, shape / rate of the variance; gaussian: mean[0], scale, shape,
-// rate; binomial alpha, beta; poisson / exponential shape, rate of the gamma prior).
+// discount); robust / extended_precision -> ls; prior -> map (linear: mean, scale = prior sd of
+// each coefficient in units of sigma, shape / rate of the variance; gaussian: mean[0], scale,
+// shape, rate; binomial alpha, beta; poisson / exponential shape, rate of the gamma prior).
 // random_walk: drift_variance per observation for every coefficient, and prior.scale is the
 // observation noise sd (default 1), which that tracker takes as known.
 #pragma once
@@ -49,7 +49,14 @@
 namespace bayline::pipeline {
 
 enum class Model : uint8_t {
-  kLinear, kGaussian, kLognormal, kPoisson, kBinomial, kExponential, kGamma, kLogistic,
+  kLinear,
+  kGaussian,
+  kLognormal,
+  kPoisson,
+  kBinomial,
+  kExponential,
+  kGamma,
+  kLogistic,
   kPoissonRegression
 };
 enum class EstimatorKind : uint8_t { kLs, kMl, kMap };

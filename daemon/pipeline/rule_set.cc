@@ -28,8 +28,8 @@ est::Status RuleSet::Build(const bayline::v1::DaemonConfig& config) {
     c.name = RuleDisplayName(c.rule, i);
     for (int d = 0; d < c.rule.spec().detectors_size() && c.calibration.ok(); ++d) {
       DetectorSetup setup;
-      const std::string path = "rules[" + std::to_string(i) + "].spec.detectors[" +
-                               std::to_string(d) + "]";
+      const std::string path =
+          "rules[" + std::to_string(i) + "].spec.detectors[" + std::to_string(d) + "]";
       c.calibration = CalibrateDetector(c.rule.spec().detectors(d), path, &setup);
       if (c.calibration.ok()) c.detectors.push_back(std::move(setup));
     }
@@ -67,7 +67,8 @@ est::Status RuleSet::Resolve(int rule, Model model, uint32_t regressor_count,
 
 est::Status RuleSet::ResolveForObservation(int rule, uint32_t regressor_count,
                                            std::shared_ptr<const ResolvedSpec>* out) {
-  const Model model = ResolveModel(rules_[static_cast<std::size_t>(rule)].rule.spec(), regressor_count);
+  const Model model =
+      ResolveModel(rules_[static_cast<std::size_t>(rule)].rule.spec(), regressor_count);
   return Resolve(rule, model, regressor_count, out);
 }
 

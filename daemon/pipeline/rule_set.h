@@ -27,7 +27,9 @@ class RuleSet {
 
   // Index of the first rule matching `name`, or -1.
   int Match(std::string_view name) const;
-  const std::string& RuleName(int rule) const { return rules_[static_cast<std::size_t>(rule)].name; }
+  const std::string& RuleName(int rule) const {
+    return rules_[static_cast<std::size_t>(rule)].name;
+  }
 
   // The spec of `rule` for a channel of `model` with `regressor_count` wire regressors (cached).
   est::Status Resolve(int rule, Model model, uint32_t regressor_count,

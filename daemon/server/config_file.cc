@@ -1,11 +1,10 @@
 #include "daemon/server/config_file.h"
 
+#include <fcntl.h>
 #include <google/protobuf/descriptor.h>
 #include <google/protobuf/io/coded_stream.h>
 #include <google/protobuf/io/tokenizer.h>
 #include <google/protobuf/io/zero_copy_stream_impl_lite.h>
-
-#include <fcntl.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -35,8 +34,8 @@ class CollectErrors : public google::protobuf::io::ErrorCollector {
  private:
   void Add(int line, int column, const std::string& message) {
     if (!text_.empty()) text_ += '\n';
-    text_ += file_ + ":" + std::to_string(line + 1) + ":" + std::to_string(column + 1) + ": " +
-             message;
+    text_ +=
+        file_ + ":" + std::to_string(line + 1) + ":" + std::to_string(column + 1) + ": " + message;
   }
   std::string file_;
   std::string text_;

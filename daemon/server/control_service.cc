@@ -3,9 +3,9 @@
 #include <algorithm>
 #include <limits>
 
-#include "daemon/pipeline/glob.h"
 #include "daemon/pipeline/channel_name.h"
 #include "daemon/pipeline/counters.h"
+#include "daemon/pipeline/glob.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/routing.h"
 
@@ -112,8 +112,8 @@ bayline::v1::Reply ControlService::Ask(const std::string& channel) {
 
 bayline::v1::Reply ControlService::Reset(const std::string& channel) {
   Worker* owner = OwnerOf(channel);
-  const bool known =
-      owner != nullptr && owner->Call([&channel](pipeline::Pipeline& p) { return p.Reset(channel); });
+  const bool known = owner != nullptr &&
+                     owner->Call([&channel](pipeline::Pipeline& p) { return p.Reset(channel); });
   if (!known) return Error("unknown channel: \"" + channel + "\"");
   bayline::v1::Reply reply;
   reply.set_ok(true);
@@ -131,8 +131,7 @@ bayline::v1::Reply ControlService::Stats() {
   stats->set_observations_received(received);
   for (const auto& worker : workers_) {
     stats->add_worker_queue_depth(worker->queue_depth());
-    const pipeline::Counters c =
-        worker->Call([](pipeline::Pipeline& p) { return p.counters(); });
+    const pipeline::Counters c = worker->Call([](pipeline::Pipeline& p) { return p.counters(); });
     stats->set_observations_accepted(stats->observations_accepted() + c.accepted);
     stats->set_channels(stats->channels() + c.channels);
     stats->set_publications(stats->publications() + c.publications);

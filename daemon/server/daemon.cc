@@ -16,7 +16,7 @@ namespace bayline::server {
 namespace {
 
 constexpr size_t kWorkerQueueCapacity = 64;  // batches of up to Ingest::kMaxBatch observations
-constexpr int kControlReceiveMessages = 64;   // requests queued per control client
+constexpr int kControlReceiveMessages = 64;  // requests queued per control client
 constexpr double kDefaultSnapshotEveryS = 60;
 
 bool JournalPolicyOf(const bayline::v1::Journal& journal, JournalPolicy* policy) {
@@ -79,7 +79,8 @@ bool Daemon::Start() {
   std::vector<std::unique_ptr<pipeline::Pipeline>> pipelines =
       MakeWorkerPipelines(config_, worker_count);
   if (!RestoreAtStart(*store_, config_, shard_, options_.strict_state, &pipelines,
-                      &journal_covered)) return false;
+                      &journal_covered))
+    return false;
 
   publisher_ = std::make_unique<Publisher>(context_);
   std::string publish_endpoint;
@@ -96,9 +97,9 @@ bool Daemon::Start() {
                                                 limits.queued_bytes_per_worker));
     raw_workers.push_back(workers_.back().get());
   }
-  ingest_ = std::make_unique<Ingest>(context_, raw_workers, shard_,
-                                     config_.limits().max_frame_bytes(),
-                                     limits.ingest_message_bytes, limits.ingest_receive_messages);
+  ingest_ =
+      std::make_unique<Ingest>(context_, raw_workers, shard_, config_.limits().max_frame_bytes(),
+                               limits.ingest_message_bytes, limits.ingest_receive_messages);
   IngestEndpoints endpoints;
   for (const auto& e : config_.endpoints().pull_bind()) endpoints.pull_bind.push_back(e);
   for (const auto& e : config_.endpoints().sub_connect()) endpoints.sub_connect.push_back(e);
@@ -207,7 +208,8 @@ void Daemon::HandleControl() {
     bayline::v1::Reply reply = parts.size() == 1
                                    ? control_service_->HandleBytes(parts[0].to_string_view())
                                    : control_service_->RejectMultipart(parts.size());
-    // Errors and messages quote outside bytes (config files, requests): clients parse them as UTF-8.
+    // Errors and messages quote outside bytes (config files, requests): clients parse them as
+    // UTF-8.
     if (!pipeline::IsValidUtf8(reply.error())) {
       reply.set_error(pipeline::ReplaceInvalidUtf8(reply.error()));
     }
@@ -359,7 +361,7 @@ bool Daemon::Reload(std::string* message) {
 }
 
 bool Daemon::Shutdown() {
-  ingest_->Stop();  // hands its partial batches to the workers
+  ingest_->Stop();                      // hands its partial batches to the workers
   for (auto& w : workers_) w->Drain();  // control calls overtake the queues: drain them first
   bayline::v1::SnapshotInfo info;
   std::string error;

@@ -12,8 +12,8 @@
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
 // queues and send their last publications, a snapshot is written, the threads end, the PUB socket
 // lingers (up to 1 s) until connected subscribers have them, exit 0 (kExitFinalSnapshotFailed when
-// the final snapshot could not be written: the state since the last snapshot is lost). A second SIGTERM / SIGINT
-// before that ends the process at once with 128 + the signal's number (signals.h).
+// the final snapshot could not be written: the state since the last snapshot is lost). A second
+// SIGTERM / SIGINT before that ends the process at once with 128 + the signal's number (signals.h).
 #pragma once
 
 #include <chrono>
@@ -48,8 +48,8 @@ class Daemon : public DaemonActions {
   uint64_t snapshots_written() const override { return snapshots_written_; }
 
  private:
-  bool Start();  // everything up to the threads running; false: logged, exit 1
-  void Serve();  // the supervisor loop
+  bool Start();     // everything up to the threads running; false: logged, exit 1
+  void Serve();     // the supervisor loop
   bool Shutdown();  // false: the final snapshot failed (logged)
   // Logs and ends the process at once (SignalWatcher::ForcedExitCode): a second SIGTERM/SIGINT.
   [[noreturn]] static void ForcedExit(int signal);
@@ -74,7 +74,7 @@ class Daemon : public DaemonActions {
   std::unique_ptr<Publisher> publisher_;
   std::vector<std::unique_ptr<Worker>> workers_;
   std::unique_ptr<Ingest> ingest_;
-  uint64_t control_message_bytes_ = 0;       // ZMQ_MAXMSGSIZE of the control socket
+  uint64_t control_message_bytes_ = 0;      // ZMQ_MAXMSGSIZE of the control socket
   std::unique_ptr<JournalWriter> journal_;  // null when the journal is off
   uint64_t journal_next_segment_ = 0;       // first segment no snapshot covers yet
   std::unique_ptr<zmq::socket_t> control_;

@@ -1,7 +1,6 @@
 #include "daemon/server/daemon_options.h"
 
 #include <CLI/CLI.hpp>
-
 #include <charconv>
 #include <cstdlib>
 

@@ -18,12 +18,12 @@ struct DaemonOptions {
   std::string state_dir;          // --state-dir
   std::vector<std::string> pull_bind;    // --pull-bind (repeatable)
   std::vector<std::string> sub_connect;  // --sub-connect (repeatable)
-  std::string publish_bind;       // --publish-bind
-  std::string control_bind;       // --control-bind
-  uint32_t workers = 0;           // --workers; 0 = unset
-  std::string shard;              // --shard i/N
-  std::string log_level;          // --log-level
-  bool strict_state = false;      // --strict-state: refuse to start when no snapshot restores
+  std::string publish_bind;              // --publish-bind
+  std::string control_bind;              // --control-bind
+  uint32_t workers = 0;                  // --workers; 0 = unset
+  std::string shard;                     // --shard i/N
+  std::string log_level;                 // --log-level
+  bool strict_state = false;  // --strict-state: refuse to start when no snapshot restores
 };
 
 // Process exit codes of baylined.

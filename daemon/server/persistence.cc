@@ -56,8 +56,6 @@ bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,
     for (auto& channel : *part.mutable_channels()) all.add_channels()->Swap(&channel);
   }
   all.set_journal_segment(journal_segment);
-  info->set_channels(uint64_t(all.channels_size()));
-  const std::string not_saved = std::to_string(all.channels_size()) + " channels not saved: ";
   all.set_written_time_ns(std::chrono::duration_cast<std::chrono::nanoseconds>(
                               std::chrono::system_clock::now().time_since_epoch())
                               .count());

@@ -13,8 +13,8 @@
 // the daemon refuses to start instead and leaves every file where it is.
 #pragma once
 
-#include <future>
 #include <filesystem>
+#include <future>
 #include <memory>
 #include <string>
 #include <vector>
@@ -44,13 +44,13 @@ std::vector<std::unique_ptr<pipeline::Pipeline>> MakeWorkerPipelines(
     const bayline::v1::DaemonConfig& config, size_t workers);
 
 struct RestoreOutcome {
-  std::string path;                              // file restored; empty when starting empty
-  uint64_t channels = 0;                         // channels restored
-  uint64_t other_shard = 0;                      // channels in the file of other shards
-  std::vector<std::string> skipped;              // newer files not used, each with the reason
-  std::vector<std::filesystem::path> unusable;   // those files, in the same order
-  std::vector<std::string> reset_channels;       // restored as new because their spec changed
-  std::vector<std::string> not_restored;         // channels set aside: "channel \"name\": reason"
+  std::string path;                             // file restored; empty when starting empty
+  uint64_t channels = 0;                        // channels restored
+  uint64_t other_shard = 0;                     // channels in the file of other shards
+  std::vector<std::string> skipped;             // newer files not used, each with the reason
+  std::vector<std::filesystem::path> unusable;  // those files, in the same order
+  std::vector<std::string> reset_channels;      // restored as new because their spec changed
+  std::vector<std::string> not_restored;        // channels set aside: "channel \"name\": reason"
   uint64_t journal_segment = 0;  // first journal segment the restored file does not cover
 };
 

@@ -7,10 +7,9 @@
 // Thread safety: none; owned by one worker thread.
 #pragma once
 
-#include <zmq.hpp>
-
 #include <string>
 #include <vector>
+#include <zmq.hpp>
 
 #include "daemon/pipeline/publication_sink.h"
 #include "daemon/server/publisher.h"

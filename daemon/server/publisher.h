@@ -14,12 +14,11 @@
 // linger lets the last publications reach connected subscribers).
 #pragma once
 
-#include <zmq.hpp>
-
 #include <atomic>
 #include <mutex>
 #include <string>
 #include <vector>
+#include <zmq.hpp>
 
 namespace bayline::server {
 

@@ -16,11 +16,11 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 constexpr double kLogSqrt2Pi = 0.91893853320467274178;  // log(sqrt(2 pi))
 // Beyond these sizes the iterative incomplete functions get slow; the limiting approximations are
 // then accurate to far better than the statistical error of any interval they produce.
-constexpr double kStudentTNormalDof = 1e7;   // t(dof) -> N(0, 1), error O(1/dof)
+constexpr double kStudentTNormalDof = 1e7;         // t(dof) -> N(0, 1), error O(1/dof)
 constexpr double kGammaWilsonHilfertyShape = 1e7;  // cube-root normal approximation
 // StudentTNormalScore uses Hill's expansion for |t| <= max_abs_t at dof >= min_dof: the region
-// where its error in z, measured against 45-digit mpmath (300 t per step, evaluated in double), is below
-// 1.6e-11. The error grows with |t| and falls like dof^-5; the largest at each step's corner:
+// where its error in z, measured against 45-digit mpmath (300 t per step, evaluated in double), is
+// below 1.6e-11. The error grows with |t| and falls like dof^-5; the largest at each step's corner:
 // 1.5e-11 (20, 1), 1.4e-11 (30, 2), 1.6e-12 (50, 3), 1.2e-11 (100, 6), 1.6e-11 (200, 10),
 // 3.9e-14 (1e4, 40). Past a step the error grows fast: 1.7e-10 at dof 20, |t| = 2.5; 7e-7 at dof
 // 200, |t| = 40. See tests/reference/core.
@@ -28,7 +28,7 @@ struct HillRegionStep {
   double min_dof, max_abs_t;
 };
 constexpr HillRegionStep kHillRegion[] = {{1e4, 40.0}, {200.0, 10.0}, {100.0, 6.0},
-                                         {50.0, 3.0},  {30.0, 2.0},   {20.0, 1.0}};
+                                          {50.0, 3.0}, {30.0, 2.0},   {20.0, 1.0}};
 bool InHillRegion(double abs_t, double dof) {
   for (const HillRegionStep& step : kHillRegion) {
     if (dof >= step.min_dof) return abs_t <= step.max_abs_t;
@@ -63,7 +63,10 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf,
   const double target = upper ? 1.0 - p : p;
   auto g = [&](double v) { return upper ? target - sf(v) : cdf(v) - target; };
   double a = lo, b = hi;
-  if (!(x > a && x < b)) x = std::isfinite(a) && std::isfinite(b) ? 0.5 * (a + b) : (std::isfinite(a) ? a + 1.0 : (std::isfinite(b) ? b - 1.0 : 0.0));
+  if (!(x > a && x < b))
+    x = std::isfinite(a) && std::isfinite(b)
+            ? 0.5 * (a + b)
+            : (std::isfinite(a) ? a + 1.0 : (std::isfinite(b) ? b - 1.0 : 0.0));
   // Stopping. With r = |g(x)| / target the relative error of the tail at x, a Halley step leaves
   // r' ~ c r^3, where c is scale-free: 1/12 for a normal-like tail (a t with large dof, a gamma
   // with large shape, whatever their scale), (dof^2 - 1) / (12 dof^2) for the t's power tail,
@@ -83,7 +86,10 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf,
     const double gx = g(x);
     if (std::isnan(gx)) return kNaN;  // the distribution function failed (special_functions.h)
     if (gx == 0.0) return x;
-    if (gx < 0.0) a = x; else b = x;
+    if (gx < 0.0)
+      a = x;
+    else
+      b = x;
     const double density = std::exp(log_pdf(x));
     double step = gx / density;
     const double half_curve = 0.5 * step * dlog_pdf(x);
@@ -98,7 +104,8 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf,
       // beta quantile close to 1) the precision that matters is that of the distance to it.
       last_newton = std::fabs(next - x) / std::min({std::fabs(next), next - lo, hi - next});
       if (last_newton <= kNewtonDone) return next;
-      if (halley && std::fabs(gx) <= kResidualDone * target && last_newton <= kHalleyDone) return next;
+      if (halley && std::fabs(gx) <= kResidualDone * target && last_newton <= kHalleyDone)
+        return next;
     } else {
       if (last_newton <= kNoiseFloor) return x;
       last_newton = kInf;
@@ -106,7 +113,7 @@ double SolveQuantile(double p, Cdf cdf, Sf sf, LogPdf log_pdf, DLogPdf dlog_pdf,
         next = 0.5 * (a + b);
       } else if (std::isfinite(a)) {  // root above x, upper end open
         next = x + std::max(1.0, std::fabs(x));
-      } else {                        // root below x, lower end open
+      } else {  // root below x, lower end open
         next = x - std::max(1.0, std::fabs(x));
       }
     }
@@ -163,7 +170,8 @@ double NormalLowerQuantileFrom(double q, double x) {
     const double u = (NormalCdf(x) - q) / density;
     const double step = u / (1.0 + 0.5 * x * u);
     x -= step;
-    // Halley's error after a step is ~K step^3 with K = x^2 / 12 + 1/6 (up to ~120 for q >= 1e-300).
+    // Halley's error after a step is ~K step^3 with K = x^2 / 12 + 1/6 (up to ~120 for q >=
+    // 1e-300).
     if (std::fabs(step) <= 1e-7 * std::min(1.0, std::fabs(x))) break;
   }
   return x;
@@ -264,10 +272,10 @@ double ComputeStudentTQuantile(double p, double dof) {
     return x0;
   const double log_norm = -special::LogBeta(0.5 * dof, 0.5) - 0.5 * std::log(dof);
   // F(-|v|) for the iteration: as StudentTCdf, but from dof 20 the incomplete beta keeps its
-  // central side I_x(1/2, dof/2), x = v^2 / (dof + v^2), up to twice its usual switch (|v| up to ~2.5,
-  // covering the 0.025 and 0.975 quantiles): ~10 continued-fraction terms there against 20-46 on
-  // the tail side. The two-sided tail 1 - I_x is then >= 0.014 (t = 2.45 at dof -> infinity, 2.51
-  // at dof 20), so I_x's few ulps are below 3e-14 of it.
+  // central side I_x(1/2, dof/2), x = v^2 / (dof + v^2), up to twice its usual switch (|v| up to
+  // ~2.5, covering the 0.025 and 0.975 quantiles): ~10 continued-fraction terms there against 20-46
+  // on the tail side. The two-sided tail 1 - I_x is then >= 0.014 (t = 2.45 at dof ->
+  // infinity, 2.51 at dof 20), so I_x's few ulps are below 3e-14 of it.
   const double side_scale = dof >= 20.0 ? 2.0 : 1.0;
   auto lower_tail = [dof, side_scale](double v) {
     if (std::isinf(v)) return 0.0;
@@ -302,7 +310,8 @@ double GammaLogPdf(double x, double shape, double rate) {
 }
 
 namespace {
-// Wilson-Hilferty: (X / shape)^(1/3) is nearly N(1 - 1/(9 shape), 1/(9 shape)) for X ~ Gamma(shape, 1).
+// Wilson-Hilferty: (X / shape)^(1/3) is nearly N(1 - 1/(9 shape), 1/(9 shape)) for X ~ Gamma(shape,
+// 1).
 double WilsonHilfertyZ(double y, double shape) {
   const double v = 1.0 / (9.0 * shape);
   return (std::cbrt(y / shape) - (1.0 - v)) / std::sqrt(v);

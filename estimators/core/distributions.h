@@ -19,9 +19,9 @@
 namespace bayline::est::dist {
 
 double NormalLogPdf(double x, double mean = 0.0, double sd = 1.0);
-double NormalCdf(double z);          // standard normal
-double NormalSf(double z);           // 1 - NormalCdf(z), accurate in the upper tail
-double NormalQuantile(double p);     // standard normal
+double NormalCdf(double z);       // standard normal
+double NormalSf(double z);        // 1 - NormalCdf(z), accurate in the upper tail
+double NormalQuantile(double p);  // standard normal
 // Phi^{-1}(q) for a lower tail 0 < q <= 1/2 from a caller's start x0 <= 0 near it (say within 1e-3
 // relative): the Halley steps of NormalQuantile, ending after the first step below 1e-7 min(1, |x|)
 // (cubic convergence leaves < 1e-19 after it), so one step when x0 is that good; at most four.
@@ -41,8 +41,8 @@ double StudentTQuantile(double p, double dof);
 double StudentTNormalScore(double t, double dof);
 // The normal score of the smallest positive double is about -38.4: a score whose tail underflows is
 // beyond it. StudentTNormalScoreClamped reports such scores as +-kMaxNormalScore, more extreme than
-// any representable score yet finite, so that a chart fed with scores counts a gross outlier instead
-// of skipping a non-finite value. NaN as StudentTNormalScore.
+// any representable score yet finite, so that a chart fed with scores counts a gross outlier
+// instead of skipping a non-finite value. NaN as StudentTNormalScore.
 inline constexpr double kMaxNormalScore = 38.5;
 double StudentTNormalScoreClamped(double t, double dof);
 

@@ -21,10 +21,14 @@ Status DescribeCommonFieldsProblem(const Sample& s, std::size_t expected_regress
                            "regressor " + std::to_string(i) + " is " + Num(s.x[i]));
     }
   }
-  if (!std::isfinite(s.weight)) return Status::Error(ErrorCode::kNonFinite, "weight is " + Num(s.weight));
-  if (!(s.weight > 0)) return Status::Error(ErrorCode::kInvalidWeight, "weight must be > 0, got " + Num(s.weight));
-  if (!std::isfinite(s.trials)) return Status::Error(ErrorCode::kNonFinite, "trials is " + Num(s.trials));
-  if (!std::isfinite(s.exposure)) return Status::Error(ErrorCode::kNonFinite, "exposure is " + Num(s.exposure));
+  if (!std::isfinite(s.weight))
+    return Status::Error(ErrorCode::kNonFinite, "weight is " + Num(s.weight));
+  if (!(s.weight > 0))
+    return Status::Error(ErrorCode::kInvalidWeight, "weight must be > 0, got " + Num(s.weight));
+  if (!std::isfinite(s.trials))
+    return Status::Error(ErrorCode::kNonFinite, "trials is " + Num(s.trials));
+  if (!std::isfinite(s.exposure))
+    return Status::Error(ErrorCode::kNonFinite, "exposure is " + Num(s.exposure));
   if (std::isinf(s.time)) return Status::Error(ErrorCode::kNonFinite, "time is " + Num(s.time));
   return Status::Ok();
 }

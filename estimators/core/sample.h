@@ -1,7 +1,8 @@
 // Sample: one observation as the estimators see it (the wire Observation minus routing fields).
 //
 // Field meanings by model (y is always the response):
-//   linear / logistic / poisson_regression : x is the FULL regressor row of length p. An intercept is
+//   linear / logistic / poisson_regression : x is the FULL regressor row of length p. An intercept
+//   is
 //                                            a column of ones that the caller puts in x.
 //   gaussian, lognormal, exponential, gamma: y only (y > 0 for lognormal, exponential, gamma).
 //   poisson  : y = count >= 0 in `exposure` units of exposure (rate = E[y] / exposure).
@@ -49,7 +50,8 @@ Status DescribeCommonFieldsProblem(const Sample& s, std::size_t expected_regress
 // CommonFieldsValid as a Status: inline, since every update of every estimator calls it and the
 // valid case must cost no more than the comparisons.
 inline Status CheckCommonFields(const Sample& s, std::size_t expected_regressors) {
-  if (CommonFieldsValid(s, expected_regressors)) [[likely]] return Status::Ok();
+  if (CommonFieldsValid(s, expected_regressors)) [[likely]]
+    return Status::Ok();
   return DescribeCommonFieldsProblem(s, expected_regressors);
 }
 

@@ -30,7 +30,8 @@ constexpr double kLowerFractionMinA = 2e4;
 constexpr double kStirlingMin = 15.0;
 double StirlingError(double a) {
   const double inv = 1.0 / a, inv2 = inv * inv;
-  return inv * (1.0 / 12 - inv2 * (1.0 / 360 - inv2 * (1.0 / 1260 - inv2 * (1.0 / 1680 - inv2 / 1188))));
+  return inv *
+         (1.0 / 12 - inv2 * (1.0 / 360 - inv2 * (1.0 / 1260 - inv2 * (1.0 / 1680 - inv2 / 1188))));
 }
 
 // log(x^a e^-x / Gamma(a)): the common prefactor of both incomplete gamma representations. For
@@ -100,8 +101,9 @@ double GammaPContinuedFraction(double a, double x) {
 // Legendre fraction); converges fast for x > a + 1.
 double GammaQContinuedFraction(double a, double x) {
   const double b0 = x + 1.0 - a;
-  const double f = EvaluateContinuedFraction(
-      b0, [a, b0](int n) { return std::pair{-n * (n - a), b0 + 2.0 * n}; });
+  const double f = EvaluateContinuedFraction(b0, [a, b0](int n) {
+    return std::pair{-n * (n - a), b0 + 2.0 * n};
+  });
   return std::exp(LogGammaPrefactor(a, x)) / f;
 }
 
@@ -181,8 +183,10 @@ double Digamma(double a) {
   }
   const double inv = 1.0 / a, inv2 = inv * inv;
   // psi(a) ~ ln a - 1/(2a) - sum B_2k / (2k a^2k)
-  result += std::log(a) - 0.5 * inv -
-            inv2 * (1.0 / 12 - inv2 * (1.0 / 120 - inv2 * (1.0 / 252 - inv2 * (1.0 / 240 - inv2 * (1.0 / 132)))));
+  result +=
+      std::log(a) - 0.5 * inv -
+      inv2 * (1.0 / 12 -
+              inv2 * (1.0 / 120 - inv2 * (1.0 / 252 - inv2 * (1.0 / 240 - inv2 * (1.0 / 132)))));
   return result;
 }
 
@@ -195,8 +199,10 @@ double Trigamma(double a) {
   }
   const double inv = 1.0 / a, inv2 = inv * inv;
   // psi'(a) ~ 1/a + 1/(2a^2) + sum B_2k / a^(2k+1)
-  result += inv + 0.5 * inv2 +
-            inv * inv2 * (1.0 / 6 - inv2 * (1.0 / 30 - inv2 * (1.0 / 42 - inv2 * (1.0 / 30 - inv2 * (5.0 / 66)))));
+  result +=
+      inv + 0.5 * inv2 +
+      inv * inv2 *
+          (1.0 / 6 - inv2 * (1.0 / 30 - inv2 * (1.0 / 42 - inv2 * (1.0 / 30 - inv2 * (5.0 / 66)))));
   return result;
 }
 

@@ -9,12 +9,11 @@
 // failed; Unpack then returns kInvalidState and the caller keeps its previous state.
 #pragma once
 
+#include <Eigen/Core>
 #include <cstddef>
 #include <span>
 #include <string>
 #include <vector>
-
-#include <Eigen/Core>
 
 #include "estimators/core/status.h"
 
@@ -67,7 +66,8 @@ class StateReader {
   // Ok only if every Get succeeded and, when require_end, the input was consumed exactly.
   Status status(bool require_end = true) const {
     if (!ok_) return Status::Error(ErrorCode::kInvalidState, error_);
-    if (require_end && !done()) return Status::Error(ErrorCode::kInvalidState, "state has trailing values");
+    if (require_end && !done())
+      return Status::Error(ErrorCode::kInvalidState, "state has trailing values");
     return Status::Ok();
   }
 

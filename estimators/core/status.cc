@@ -4,14 +4,22 @@ namespace bayline::est {
 
 std::string_view ErrorCodeName(ErrorCode code) {
   switch (code) {
-    case ErrorCode::kOk: return "ok";
-    case ErrorCode::kNonFinite: return "non_finite";
-    case ErrorCode::kWrongRegressorCount: return "wrong_regressor_count";
-    case ErrorCode::kOutOfDomain: return "out_of_domain";
-    case ErrorCode::kInvalidWeight: return "invalid_weight";
-    case ErrorCode::kInvalidConfig: return "invalid_config";
-    case ErrorCode::kInvalidState: return "invalid_state";
-    case ErrorCode::kNumericalFailure: return "numerical_failure";
+    case ErrorCode::kOk:
+      return "ok";
+    case ErrorCode::kNonFinite:
+      return "non_finite";
+    case ErrorCode::kWrongRegressorCount:
+      return "wrong_regressor_count";
+    case ErrorCode::kOutOfDomain:
+      return "out_of_domain";
+    case ErrorCode::kInvalidWeight:
+      return "invalid_weight";
+    case ErrorCode::kInvalidConfig:
+      return "invalid_config";
+    case ErrorCode::kInvalidState:
+      return "invalid_state";
+    case ErrorCode::kNumericalFailure:
+      return "numerical_failure";
   }
   return "unknown";
 }

@@ -22,11 +22,11 @@ enum class ErrorCode {
   kOk = 0,
   kNonFinite,            // y, a regressor, weight, trials, exposure or time is NaN or infinite
   kWrongRegressorCount,  // the regressor row does not have the model's length
-  kOutOfDomain,          // a value outside the model's support (negative count, y <= 0 for gamma...)
-  kInvalidWeight,        // weight <= 0
-  kInvalidConfig,        // an option outside its documented range
-  kInvalidState,         // a captured state failed validation on Restore / Unpack
-  kNumericalFailure,     // the update would produce a non-finite or indefinite result
+  kOutOfDomain,       // a value outside the model's support (negative count, y <= 0 for gamma...)
+  kInvalidWeight,     // weight <= 0
+  kInvalidConfig,     // an option outside its documented range
+  kInvalidState,      // a captured state failed validation on Restore / Unpack
+  kNumericalFailure,  // the update would produce a non-finite or indefinite result
 };
 
 // Stable snake_case name of a code, e.g. "non_finite".

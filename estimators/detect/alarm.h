@@ -8,7 +8,8 @@
 // Alarm life cycle, shared by all detectors:
 //   * `raised` is true on the observation whose statistic crosses the threshold. The detector then
 //     restarts its statistic and ignores `holdoff` observations (configurable per detector).
-//   * `cleared` is true on the first observation after the hold-off at which the restarted statistic
+//   * `cleared` is true on the first observation after the hold-off at which the restarted
+//   statistic
 //     is back in control; a raised alarm is always followed by exactly one clear.
 #pragma once
 

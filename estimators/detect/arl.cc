@@ -1,10 +1,9 @@
 #include "estimators/detect/arl.h"
 
+#include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
 #include <random>
-
-#include <Eigen/Dense>
 
 #include "estimators/core/distributions.h"
 
@@ -133,8 +132,8 @@ double EwmaArl(const EwmaOptions& o, double shift, const ArlAccuracy& acc) {
   // are spaced about pi (hi - lo) / (2 n) apart mid-region: keep that below lambda / 2.
   double lo = 0, hi = 0;
   Region(o, sd_inf, &lo, &hi);
-  const int n = std::min(400, std::max(acc.ewma_nodes,
-                                       static_cast<int>(std::ceil(3.1416 * (hi - lo) / lambda))));
+  const int n = std::min(
+      400, std::max(acc.ewma_nodes, static_cast<int>(std::ceil(3.1416 * (hi - lo) / lambda))));
   std::vector<double> gx, gw;
   GaussLegendre(n, &gx, &gw);
   const Grid fixed = MakeGrid(gx, gw, lo, hi);
@@ -208,7 +207,8 @@ double SimulateArl(const Options& o, double shift, const SimulationBudget& b) {
 
 }  // namespace
 
-double SimulatePageHinkleyArl(const PageHinkleyOptions& o, double shift, const SimulationBudget& b) {
+double SimulatePageHinkleyArl(const PageHinkleyOptions& o, double shift,
+                              const SimulationBudget& b) {
   return SimulateArl<PageHinkley>(o, shift, b);
 }
 double SimulateGlrArl(const GlrOptions& o, double shift, const SimulationBudget& b) {

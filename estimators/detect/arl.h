@@ -22,8 +22,8 @@
 //     what R spc's xewma.arl(l, L, mu, sided = "two", limits = "fix") computes.
 //   exact (time-varying) limits: the density of the not-yet-stopped Z_i is propagated over the
 //     nodes of [-L sigma_i, L sigma_i] step by step until (1 - lambda)^(2 i) < 1e-6, then
-//     ARL = sum_{i<T} P(no alarm by i) + int f_T(v) a(v) dv with a() the fixed-limit solution. R spc
-//     calls these limits "vacl" (xewma.arl(..., limits = "vacl")).
+//     ARL = sum_{i<T} P(no alarm by i) + int f_T(v) a(v) dv with a() the fixed-limit solution. R
+//     spc calls these limits "vacl" (xewma.arl(..., limits = "vacl")).
 // A one-sided EWMA (kUp / kDown) is solved on [-(L + 4) sigma, L sigma]: the EWMA below the
 // lower end (probability < 1e-9 per step) is counted as an alarm, a negligible bias.
 //
@@ -54,7 +54,8 @@ struct ArlAccuracy {
 double CusumArl(const CusumOptions& o, double shift, const ArlAccuracy& acc = {});
 
 // ARL of the upper side alone (C+ only) starting at `start` in [0, h].
-double OneSidedCusumArl(double k, double h, double shift, double start, const ArlAccuracy& acc = {});
+double OneSidedCusumArl(double k, double h, double shift, double start,
+                        const ArlAccuracy& acc = {});
 
 // Zero-state ARL of the EWMA `o` (lambda, L, limits, direction) at mean `shift`.
 double EwmaArl(const EwmaOptions& o, double shift, const ArlAccuracy& acc = {});
@@ -70,7 +71,8 @@ struct SimulationBudget {
 inline constexpr double kMaxSimulatedRunLength = 1e9;
 
 // Monte Carlo ARL (mean of `runs` first alarm times) for any chart in this library at `shift`.
-double SimulatePageHinkleyArl(const PageHinkleyOptions& o, double shift, const SimulationBudget& b = {});
+double SimulatePageHinkleyArl(const PageHinkleyOptions& o, double shift,
+                              const SimulationBudget& b = {});
 double SimulateGlrArl(const GlrOptions& o, double shift, const SimulationBudget& b = {});
 double SimulateCusumArl(const CusumOptions& o, double shift, const SimulationBudget& b = {});
 double SimulateEwmaArl(const EwmaOptions& o, double shift, const SimulationBudget& b = {});

@@ -61,9 +61,9 @@ bool SolveIncreasing(Arl arl, double target, double x0, double* out) {
 template <typename Chart, typename Options>
 bool SimulatedThreshold(const Options& chart_options, double arl0, const SimulationBudget& budget,
                         double guess, double grow, double* out) {
-  const double cap = std::min(
-      budget.max_length > 0 ? std::min(budget.max_length, kMaxSimulatedRunLength) : 1e7,
-      50.0 * arl0);
+  const double cap =
+      std::min(budget.max_length > 0 ? std::min(budget.max_length, kMaxSimulatedRunLength) : 1e7,
+               50.0 * arl0);
   std::vector<double> value, time;       // records of all runs, flat
   std::vector<std::size_t> start(1, 0);  // run r's records are [start[r], start[r + 1])
   auto simulate = [&](int runs, double h_hi) {
@@ -133,7 +133,8 @@ bool SimulatedThreshold(const Options& chart_options, double arl0, const Simulat
 }
 
 Status ValidateArl0(double arl0) {
-  if (!(arl0 >= 2.0 && arl0 <= 1e7)) return Invalid("arl0 must be in [2, 1e7], got " + std::to_string(arl0));
+  if (!(arl0 >= 2.0 && arl0 <= 1e7))
+    return Invalid("arl0 must be in [2, 1e7], got " + std::to_string(arl0));
   return Status::Ok();
 }
 
@@ -150,7 +151,8 @@ Status CalibrateCusumInterval(double arl0, CusumOptions* options, double head_st
                               const ArlAccuracy& acc) {
   if (Status s = ValidateArl0(arl0); !s.ok()) return s;
   if (!(head_start_fraction >= 0.0 && head_start_fraction < 1.0))
-    return Invalid("head start fraction must be in [0, 1), got " + std::to_string(head_start_fraction));
+    return Invalid("head start fraction must be in [0, 1), got " +
+                   std::to_string(head_start_fraction));
   CusumOptions o = *options;
   o.h = 1.0;
   o.head_start = 0.0;
@@ -163,7 +165,8 @@ Status CalibrateCusumInterval(double arl0, CusumOptions* options, double head_st
   };
   double h = 0;
   if (!SolveIncreasing(arl, arl0, 4.0, &h))
-    return Status::Error(ErrorCode::kNumericalFailure, "cusum h: no solution for arl0 " + std::to_string(arl0));
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "cusum h: no solution for arl0 " + std::to_string(arl0));
   o.h = h;
   o.head_start = head_start_fraction * h;
   *options = o;
@@ -175,7 +178,8 @@ Status CalibrateCusum(const AlarmTarget& target, CusumOptions* options, double h
   if (Status s = target.Validate(); !s.ok()) return s;
   CusumOptions o = *options;
   o.k = 0.5 * target.shift;
-  if (Status s = CalibrateCusumInterval(target.arl0, &o, head_start_fraction, acc); !s.ok()) return s;
+  if (Status s = CalibrateCusumInterval(target.arl0, &o, head_start_fraction, acc); !s.ok())
+    return s;
   *options = o;
   return Status::Ok();
 }
@@ -192,7 +196,8 @@ Status CalibrateEwmaWidth(double arl0, EwmaOptions* options, const ArlAccuracy& 
   };
   double L = 0;
   if (!SolveIncreasing(arl, arl0, 2.5, &L))
-    return Status::Error(ErrorCode::kNumericalFailure, "ewma L: no solution for arl0 " + std::to_string(arl0));
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "ewma L: no solution for arl0 " + std::to_string(arl0));
   o.L = L;
   *options = o;
   return Status::Ok();
@@ -257,13 +262,15 @@ Status CalibratePageHinkley(const AlarmTarget& target, PageHinkleyOptions* optio
   if (CalibrateCusumInterval(target.arl0, &c).ok()) guess = 1.1 * c.h;
   double h = 0;
   if (!SimulatedThreshold<PageHinkley>(o, target.arl0, budget, guess, 1.15, &h))
-    return Status::Error(ErrorCode::kNumericalFailure, "page_hinkley: threshold not found by simulation");
+    return Status::Error(ErrorCode::kNumericalFailure,
+                         "page_hinkley: threshold not found by simulation");
   o.threshold = h;
   *options = o;
   return Status::Ok();
 }
 
-Status CalibrateGlr(const AlarmTarget& target, GlrOptions* options, const SimulationBudget& budget) {
+Status CalibrateGlr(const AlarmTarget& target, GlrOptions* options,
+                    const SimulationBudget& budget) {
   if (Status s = target.Validate(); !s.ok()) return s;
   if (budget.runs < 100) return Invalid("simulation runs must be >= 100");
   GlrOptions o = *options;

@@ -30,9 +30,9 @@
 // W, direction and the budget).
 //
 // Every function leaves the fields it does not calibrate (direction, holdoff, restart policy,
-// limits) as the caller set them, returns kInvalidConfig naming the field when the target is out of range
-// (ARL0 in [2, 1e7], D finite and > 0), and on any error leaves *options unchanged.
-// Thread safe (no shared state).
+// limits) as the caller set them, returns kInvalidConfig naming the field when the target is out of
+// range (ARL0 in [2, 1e7], D finite and > 0), and on any error leaves *options unchanged. Thread
+// safe (no shared state).
 #pragma once
 
 #include <span>

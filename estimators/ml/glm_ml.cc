@@ -4,7 +4,6 @@
 #include <cmath>
 #include <string>
 
-
 #include "estimators/core/special_functions.h"
 #include "estimators/ml/ml_common.h"
 
@@ -24,7 +23,8 @@ void AddRow(Eigen::MatrixXd& r, Eigen::VectorXd& row) {
     if (b == 0.0) continue;
     const double a = r(i, i);
     double h = std::sqrt(a * a + b * b);  // std::hypot is several times slower; it is only
-    if (!std::isfinite(h) || h == 0.0) h = std::hypot(a, b);  // needed when the squares over/underflow
+    if (!std::isfinite(h) || h == 0.0)
+      h = std::hypot(a, b);  // needed when the squares over/underflow
     const double c = a / h, s = b / h;
     r(i, i) = h;
     for (Eigen::Index j = i + 1; j < p; ++j) {
@@ -54,21 +54,27 @@ struct LogitFamily {
   }
   // log P(y | eta) without the binomial coefficient.
   // y log p + (m - y) log(1 - p) with log p = -softplus(-eta), log(1 - p) = -eta - softplus(-eta).
-  static double LogKernel(double y, double eta, double m) { return -m * Softplus(-eta) - (m - y) * eta; }
+  static double LogKernel(double y, double eta, double m) {
+    return -m * Softplus(-eta) - (m - y) * eta;
+  }
   static double LogConst(double y, double m) {
     if (y == 0.0 || y == m) return 0.0;
-    return ml_internal::LogFactorial(m) - ml_internal::LogFactorial(y) - ml_internal::LogFactorial(m - y);
+    return ml_internal::LogFactorial(m) - ml_internal::LogFactorial(y) -
+           ml_internal::LogFactorial(m - y);
   }
   static Status CheckDomain(const Sample& s) {
     if (!(s.trials >= 1) || !ml_internal::IsWholeNumber(s.trials)) {
-      return Status::Error(ErrorCode::kOutOfDomain, "trials must be a whole number >= 1, got " + std::to_string(s.trials));
+      return Status::Error(ErrorCode::kOutOfDomain,
+                           "trials must be a whole number >= 1, got " + std::to_string(s.trials));
     }
     if (!(s.y >= 0) || !ml_internal::IsWholeNumber(s.y)) {
-      return Status::Error(ErrorCode::kOutOfDomain, "successes must be a whole number >= 0, got " + std::to_string(s.y));
+      return Status::Error(ErrorCode::kOutOfDomain,
+                           "successes must be a whole number >= 0, got " + std::to_string(s.y));
     }
     if (s.y > s.trials) {
-      return Status::Error(ErrorCode::kOutOfDomain,
-                           "successes " + std::to_string(s.y) + " exceed trials " + std::to_string(s.trials));
+      return Status::Error(
+          ErrorCode::kOutOfDomain,
+          "successes " + std::to_string(s.y) + " exceed trials " + std::to_string(s.trials));
     }
     return Status::Ok();
   }
@@ -83,14 +89,18 @@ struct PoissonLogFamily {
     *mean = std::exp(eta);
     *var = *mean;
   }
-  static double LogKernel(double y, double eta, double /*e*/) { return (y > 0 ? y * eta : 0.0) - std::exp(eta); }
+  static double LogKernel(double y, double eta, double /*e*/) {
+    return (y > 0 ? y * eta : 0.0) - std::exp(eta);
+  }
   static double LogConst(double y, double /*e*/) { return -ml_internal::LogFactorial(y); }
   static Status CheckDomain(const Sample& s) {
     if (!(s.y >= 0) || !ml_internal::IsWholeNumber(s.y)) {
-      return Status::Error(ErrorCode::kOutOfDomain, "poisson count must be a whole number >= 0, got " + std::to_string(s.y));
+      return Status::Error(ErrorCode::kOutOfDomain,
+                           "poisson count must be a whole number >= 0, got " + std::to_string(s.y));
     }
     if (!(s.exposure > 0)) {
-      return Status::Error(ErrorCode::kOutOfDomain, "exposure must be > 0, got " + std::to_string(s.exposure));
+      return Status::Error(ErrorCode::kOutOfDomain,
+                           "exposure must be > 0, got " + std::to_string(s.exposure));
     }
     return Status::Ok();
   }
@@ -99,20 +109,23 @@ struct PoissonLogFamily {
 
 Status GlmMlOptions::Validate() const {
   if (num_regressors < 1 || num_regressors > kMaxRegressors) {
-    return Status::Error(ErrorCode::kInvalidConfig, "num_regressors must be in 1..64, got " + std::to_string(num_regressors));
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "num_regressors must be in 1..64, got " + std::to_string(num_regressors));
   }
   if (!(prior_precision > 0) || !std::isfinite(prior_precision)) {
     return Status::Error(ErrorCode::kInvalidConfig, "prior_precision must be finite and > 0");
   }
   if (startup_observations != 0 &&
       (startup_observations < num_regressors || startup_observations > kMaxStartupRows)) {
-    return Status::Error(ErrorCode::kInvalidConfig, "startup_observations must be 0 (automatic) or in p..100000");
+    return Status::Error(ErrorCode::kInvalidConfig,
+                         "startup_observations must be 0 (automatic) or in p..100000");
   }
   return forgetting.Validate();
 }
 
 std::size_t GlmMlOptions::StartupRows() const {
-  return startup_observations != 0 ? startup_observations : std::max<std::size_t>(20, 10 * num_regressors);
+  return startup_observations != 0 ? startup_observations
+                                   : std::max<std::size_t>(20, 10 * num_regressors);
 }
 
 std::size_t GlmMlOptions::StartupCapacity() const { return kStartupCapacityFactor * StartupRows(); }
@@ -178,9 +191,12 @@ Status GlmMl<Family>::State::Unpack(StateReader& rd) {
 
 template <typename Family>
 Status GlmMl<Family>::State::Validate() const {
-  const auto bad = [](const std::string& why) { return Status::Error(ErrorCode::kInvalidState, why); };
+  const auto bad = [](const std::string& why) {
+    return Status::Error(ErrorCode::kInvalidState, why);
+  };
   const Eigen::Index p = theta.size();
-  if (p < 1 || r.rows() != p || r.cols() != p || startup.rows() != p + 3 || (started != (startup.cols() == 0))) {
+  if (p < 1 || r.rows() != p || r.cols() != p || startup.rows() != p + 3 ||
+      (started != (startup.cols() == 0))) {
     return bad("glm state: inconsistent sizes");
   }
   if (!theta.allFinite() || !r.allFinite()) return bad("glm state: non-finite estimate or factor");
@@ -198,7 +214,8 @@ Status GlmMl<Family>::State::Validate() const {
   if (!(startup_rows >= 0 && startup_rows <= static_cast<double>(startup.cols()))) {
     return bad("glm state: start-up row count out of range");
   }
-  if (started != (startup_rows == 0 && count > 0)) return bad("glm state: start-up flag inconsistent");
+  if (started != (startup_rows == 0 && count > 0))
+    return bad("glm state: start-up flag inconsistent");
   if (determined && !started) return bad("glm state: determined before the start");
   if (!started && startup_rows != count) return bad("glm state: start-up rows and count disagree");
   const auto used = static_cast<Eigen::Index>(startup_rows);
@@ -233,10 +250,11 @@ GlmMl<Family>::GlmMl(const Options& options) : options_(options), p_(options.num
 }
 
 template <typename Family>
-bool GlmMl<Family>::WellDetermined(const Eigen::MatrixXd& r, double prior_weight, Eigen::MatrixXd& work) {
+bool GlmMl<Family>::WellDetermined(const Eigen::MatrixXd& r, double prior_weight,
+                                   Eigen::MatrixXd& work) {
   work.setIdentity();
   r.triangularView<Eigen::Upper>().solveInPlace(work);  // R^{-1}
-  const double trace = work.squaredNorm();                // trace(R^{-1} R^{-T}) = trace(I^{-1})
+  const double trace = work.squaredNorm();              // trace(R^{-1} R^{-T}) = trace(I^{-1})
   return std::isfinite(trace) && trace * prior_weight < 1e-3;
 }
 
@@ -252,7 +270,9 @@ bool GlmMl<Family>::FitStartup(std::size_t columns, double old_scale, double pri
   const auto p = static_cast<Eigen::Index>(p_);
   const auto n = static_cast<Eigen::Index>(columns);
   const auto& buf = state_.startup;
-  const auto weight = [&](Eigen::Index j) { return j + 1 < n ? old_scale * buf(p + 2, j) : buf(p + 2, j); };
+  const auto weight = [&](Eigen::Index j) {
+    return j + 1 < n ? old_scale * buf(p + 2, j) : buf(p + 2, j);
+  };
   // Penalised log-likelihood kernel (no constants).
   const auto objective = [&](const Eigen::VectorXd& th) {
     double q = -0.5 * prior_weight * th.squaredNorm();
@@ -330,7 +350,8 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
   Family::Moments(eta, aux, &mean, &var);
   const double log_mass = Family::LogKernel(s.y, eta, aux) + Family::LogConst(s.y, aux);
   Innovation inn;
-  if (state_.started && state_.determined) ml_internal::FillInnovation(s.y, mean, std::sqrt(var), log_mass, &inn);
+  if (state_.started && state_.determined)
+    ml_internal::FillInnovation(s.y, mean, std::sqrt(var), log_mass, &inn);
 
   const double f = ml_internal::StepFactor(options_.forgetting, s.time, state_.last_time);
   const double prior_weight = f * state_.prior_weight;
@@ -349,7 +370,8 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
       const bool fitted = FitStartup(rows, f, prior_weight) && prior_weight > 0;
       const bool full = j + 1 == state_.startup.cols();
       if (full && !fitted) {
-        return Status::Error(ErrorCode::kNumericalFailure, "start-up fit did not converge to finite values");
+        return Status::Error(ErrorCode::kNumericalFailure,
+                             "start-up fit did not converge to finite values");
       }
       start = full || (fitted && WellDetermined(scratch_r_, prior_weight, scratch_inv_));
     }
@@ -367,7 +389,8 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
     }
   } else {
     if (!std::isfinite(mean) || !std::isfinite(var)) {
-      return Status::Error(ErrorCode::kNumericalFailure, "linear predictor overflows: eta = " + std::to_string(eta));
+      return Status::Error(ErrorCode::kNumericalFailure,
+                           "linear predictor overflows: eta = " + std::to_string(eta));
     }
     scratch_r_ = std::sqrt(f) * state_.r;
     scratch_row_ = std::sqrt(w * var) * x;
@@ -376,18 +399,23 @@ Status GlmMl<Family>::Update(const Sample& s, Innovation* out) {
     scratch_step_ = score * x;
     SolveInformation(scratch_r_, scratch_step_);  // I^{-1} g
     const double eta_step = x.dot(scratch_step_);
-    const double t = std::fabs(eta_step) > GlmMlOptions::kMaxEtaStep ? GlmMlOptions::kMaxEtaStep / std::fabs(eta_step) : 1.0;
+    const double t = std::fabs(eta_step) > GlmMlOptions::kMaxEtaStep
+                         ? GlmMlOptions::kMaxEtaStep / std::fabs(eta_step)
+                         : 1.0;
     scratch_theta_ = state_.theta + t * scratch_step_;
-    const double ll = f * state_.log_likelihood + w * log_mass + (t - 0.5 * t * t) * score * eta_step;
+    const double ll =
+        f * state_.log_likelihood + w * log_mass + (t - 0.5 * t * t) * score * eta_step;
     if (!scratch_theta_.allFinite() || !scratch_r_.allFinite() || !std::isfinite(ll) ||
         !(prior_weight > 0)) {
-      return Status::Error(ErrorCode::kNumericalFailure, "scoring step is not finite at y = " + std::to_string(s.y));
+      return Status::Error(ErrorCode::kNumericalFailure,
+                           "scoring step is not finite at y = " + std::to_string(s.y));
     }
     state_.theta.swap(scratch_theta_);
     state_.r.swap(scratch_r_);
     state_.log_likelihood = ll;
     // O(p^3), but only until the information first passes the test.
-    if (!state_.determined) state_.determined = WellDetermined(state_.r, prior_weight, scratch_inv_);
+    if (!state_.determined)
+      state_.determined = WellDetermined(state_.r, prior_weight, scratch_inv_);
   }
   state_.prior_weight = prior_weight;
   state_.weight_sum = f * state_.weight_sum + w;
@@ -422,7 +450,8 @@ Status GlmMl<Family>::Restore(const State& state) {
   Status s = state.Validate();
   if (!s.ok()) return s;
   if (static_cast<std::size_t>(state.theta.size()) != p_ ||
-      (!state.started && static_cast<std::size_t>(state.startup.cols()) != options_.StartupCapacity())) {
+      (!state.started &&
+       static_cast<std::size_t>(state.startup.cols()) != options_.StartupCapacity())) {
     return Status::Error(ErrorCode::kInvalidState, "glm state sizes do not match the options");
   }
   // Copy into the existing storage (sizes match, so no reallocation of the working state).

@@ -1,8 +1,9 @@
-// Online maximum likelihood for generalized linear models with a canonical link, by recursive Fisher
-// scoring in square-root information form:
+// Online maximum likelihood for generalized linear models with a canonical link, by recursive
+// Fisher scoring in square-root information form:
 //   LogisticRegressionMl : y ~ Binomial(m, p),  logit p = x' theta            (m = Sample.trials)
 //   PoissonRegressionMl  : y ~ Poisson(mu),     log mu  = x' theta + log e    (e = Sample.exposure)
-// x is the full regressor row of length p (an intercept is a column of ones supplied by the caller).
+// x is the full regressor row of length p (an intercept is a column of ones supplied by the
+// caller).
 //
 // Log-likelihood maximised (a_i discounted weights, ml_common.h; delta = options.prior_precision):
 //   l(theta) = sum_i a_i log p(y_i | x_i' theta) - (delta * prod f) / 2 |theta|^2
@@ -59,10 +60,9 @@
 // construction; Update allocates nothing (it frees the buffer once; Restore and Report allocate).
 #pragma once
 
+#include <Eigen/Core>
 #include <cstddef>
 #include <string_view>
-
-#include <Eigen/Core>
 
 #include "estimators/core/forgetting.h"
 #include "estimators/core/report.h"
@@ -97,18 +97,18 @@ class GlmMl {
   using Options = GlmMlOptions;
 
   struct State {
-    Eigen::VectorXd theta;       // p: current estimate
-    Eigen::MatrixXd r;           // p x p upper triangular, R'R = information (prior included)
-    double prior_weight = 0.0;   // delta * prod f: the prior's share of R'R
-    double log_likelihood = 0.0; // surrogate log-likelihood at theta (data part only)
-    double weight_sum = 0.0;     // W = sum a_i
-    double count = 0.0;          // accepted observations, undiscounted
+    Eigen::VectorXd theta;        // p: current estimate
+    Eigen::MatrixXd r;            // p x p upper triangular, R'R = information (prior included)
+    double prior_weight = 0.0;    // delta * prod f: the prior's share of R'R
+    double log_likelihood = 0.0;  // surrogate log-likelihood at theta (data part only)
+    double weight_sum = 0.0;      // W = sum a_i
+    double count = 0.0;           // accepted observations, undiscounted
     double last_time = kNaN;
-    bool started = false;        // start-up fit done; the recursion is running
-    bool determined = false;     // the information has passed the identifiability test (stays set)
-    double startup_rows = 0.0;   // columns of `startup` in use
-    Eigen::MatrixXd startup;     // (p + 3) x capacity before the start, (p + 3) x 0 after;
-                                 // column j = [x_j; y_j; trials or exposure; a_j]
+    bool started = false;       // start-up fit done; the recursion is running
+    bool determined = false;    // the information has passed the identifiability test (stays set)
+    double startup_rows = 0.0;  // columns of `startup` in use
+    Eigen::MatrixXd startup;    // (p + 3) x capacity before the start, (p + 3) x 0 after;
+                                // column j = [x_j; y_j; trials or exposure; a_j]
 
     // Pack writes p and the buffer capacity first, then the fields; only the used start-up columns
     // are written.

@@ -7,11 +7,11 @@
 // The quantile benchmarks cycle the parameter over 65,536 values within 1e-6 relative of D (resp.
 // A), so each call misses the 2,048-slot memo (core/quantile_memo.h) and measures the computation.
 // Run: build-num/tests/bench/core/bayline_bench_distributions --benchmark_min_time=0.5
+#include <benchmark/benchmark.h>
+
 #include <cstdint>
 #include <random>
 #include <vector>
-
-#include <benchmark/benchmark.h>
 
 #include "estimators/core/distributions.h"
 
@@ -49,7 +49,8 @@ BENCHMARK(BM_StudentTNormalScore)->ArgName("dof")->ArgsProduct({kSizes});
 // 65,536 distinct parameters within 1e-6 relative of `center` (more keys than memo slots).
 std::vector<double> NearbyParameters(double center) {
   std::vector<double> v(1 << 16);
-  for (std::size_t i = 0; i < v.size(); ++i) v[i] = center * (1.0 + 1.5e-11 * static_cast<double>(i));
+  for (std::size_t i = 0; i < v.size(); ++i)
+    v[i] = center * (1.0 + 1.5e-11 * static_cast<double>(i));
   return v;
 }
 

@@ -1,9 +1,9 @@
 // Per-observation cost of the control charts and standardizers (ns per update).
 //   build-charts/tests/bench/detect/bayline_bench_charts --benchmark_min_time=0.5
+#include <benchmark/benchmark.h>
+
 #include <random>
 #include <vector>
-
-#include <benchmark/benchmark.h>
 
 #include "estimators/detect/cusum.h"
 #include "estimators/detect/ewma.h"
@@ -33,7 +33,8 @@ void RunChart(benchmark::State& state, const Options& o) {
   const std::size_t mask = z.size() - 1;
   std::size_t i = 0;
   for (auto _ : state) {
-    DetectorEvent e = chart.Update(z[i++ & mask], ObservationMark{static_cast<std::int64_t>(i), 0.0});
+    DetectorEvent e =
+        chart.Update(z[i++ & mask], ObservationMark{static_cast<std::int64_t>(i), 0.0});
     benchmark::DoNotOptimize(e);
   }
   state.SetItemsProcessed(state.iterations());

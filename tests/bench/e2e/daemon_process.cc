@@ -16,10 +16,14 @@ DaemonProcess::DaemonProcess(zmq::context_t& context, const std::string& bayline
                              const std::string& work_dir, const std::vector<std::string>& args)
     : context_(context) {
   std::vector<std::string> argv_strings = {baylined,
-                                           "--pull-bind", "tcp://127.0.0.1:*",
-                                           "--publish-bind", "tcp://127.0.0.1:*",
-                                           "--control-bind", "tcp://127.0.0.1:*",
-                                           "--state-dir", work_dir + "/state"};
+                                           "--pull-bind",
+                                           "tcp://127.0.0.1:*",
+                                           "--publish-bind",
+                                           "tcp://127.0.0.1:*",
+                                           "--control-bind",
+                                           "tcp://127.0.0.1:*",
+                                           "--state-dir",
+                                           work_dir + "/state"};
   argv_strings.insert(argv_strings.end(), args.begin(), args.end());
   std::vector<char*> argv;  // built before fork: the child only calls async-signal-safe functions
   for (auto& s : argv_strings) argv.push_back(s.data());
@@ -99,8 +103,9 @@ bayline::v1::Stats DaemonProcess::WaitAccepted(uint64_t n, double timeout_s) {
     bayline::v1::Stats stats = Stats();
     if (stats.observations_accepted() >= n) return stats;
     if (std::chrono::steady_clock::now() > deadline) {
-      throw std::runtime_error("baylined accepted " + std::to_string(stats.observations_accepted()) +
-                               " of " + std::to_string(n) + " observations in time");
+      throw std::runtime_error("baylined accepted " +
+                               std::to_string(stats.observations_accepted()) + " of " +
+                               std::to_string(n) + " observations in time");
     }
     std::this_thread::sleep_for(std::chrono::milliseconds(2));
   }

@@ -5,12 +5,12 @@
 #pragma once
 
 #include <sys/types.h>
-#include <zmq.hpp>
 
 #include <memory>
 #include <string>
 #include <thread>
 #include <vector>
+#include <zmq.hpp>
 
 #include "bayline/v1/control.pb.h"
 
@@ -20,8 +20,8 @@ class DaemonProcess {
  public:
   // Starts `baylined` with `args` plus loopback binds and a fresh state dir under `work_dir`.
   // Throws std::runtime_error when it does not report ready within 30 s.
-  DaemonProcess(zmq::context_t& context, const std::string& baylined,
-                const std::string& work_dir, const std::vector<std::string>& args);
+  DaemonProcess(zmq::context_t& context, const std::string& baylined, const std::string& work_dir,
+                const std::vector<std::string>& args);
   ~DaemonProcess();  // SIGKILL if still running (benchmarks need no final snapshot)
 
   const std::string& pull_endpoint() const { return pull_; }

@@ -3,13 +3,12 @@
 // latency-measuring subscribers, and percentiles.
 #pragma once
 
-#include <zmq.hpp>
-
 #include <atomic>
 #include <cstdint>
 #include <string>
 #include <thread>
 #include <vector>
+#include <zmq.hpp>
 
 namespace bayline::bench {
 

@@ -9,10 +9,9 @@
 // baylined's latency minus this floor is the cost of baylined's own work.
 #pragma once
 
-#include <zmq.hpp>
-
 #include <functional>
 #include <string>
+#include <zmq.hpp>
 
 #include "tests/bench/e2e/load.h"
 

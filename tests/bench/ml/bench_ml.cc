@@ -1,10 +1,10 @@
 // ns per Update() for each online maximum-likelihood family, on pre-generated samples (the cost of
 // drawing random numbers is outside the timed loop). Innovations are requested, as the daemon does.
+#include <benchmark/benchmark.h>
+
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <benchmark/benchmark.h>
 
 #include "estimators/ml/binomial_ml.h"
 #include "estimators/ml/exponential_ml.h"

@@ -1,21 +1,22 @@
 // Pipeline throughput and footprint.
 //
 // BM_ProcessGaussian/channels:C/every_n:N: ns per Pipeline::Process() call for gaussian channels
-// with the default rule (ls + ml + map + a self-starting CUSUM), publishing every Nth observation of
-// each channel (three estimates) into a sink that only counts; N = 1 is the latency scenario's
-// load, N = 100 the throughput scenarios'. Before timing, channel i has seen 1 + i % 100 observations,
-// so publications happen at the steady rate (1 call in 100) at every channel count. Channels are visited with a large prime stride, so at 1e6
-// channels nearly every call misses the cache, as in a fleet where observations interleave. The
-// observation message is reused (as the daemon reuses its parsed frames); seq is 0 (the pipeline
-// numbers it), time advances by 1 ms per call.
-// Counter bytes_per_channel: growth of the resident set (/proc/self/statm) while the channels were
-// created (each with one observation), divided by the channel count. It reads low (even 0) when a
-// fleet reuses memory that the previous case's larger fleet freed; heap_bytes_per_channel, the
-// growth of the bytes malloc has handed out (mallinfo2, malloc's own headers excluded), does not.
-// Counter allocs_per_call: heap allocations (global operator new, counted by this program) per
+// with the default rule (ls + ml + map + a self-starting CUSUM), publishing every Nth observation
+// of each channel (three estimates) into a sink that only counts; N = 1 is the latency scenario's
+// load, N = 100 the throughput scenarios'. Before timing, channel i has seen 1 + i % 100
+// observations, so publications happen at the steady rate (1 call in 100) at every channel count.
+// Channels are visited with a large prime stride, so at 1e6 channels nearly every call misses the
+// cache, as in a fleet where observations interleave. The observation message is reused (as the
+// daemon reuses its parsed frames); seq is 0 (the pipeline numbers it), time advances by 1 ms per
+// call. Counter bytes_per_channel: growth of the resident set (/proc/self/statm) while the channels
+// were created (each with one observation), divided by the channel count. It reads low (even 0)
+// when a fleet reuses memory that the previous case's larger fleet freed; heap_bytes_per_channel,
+// the growth of the bytes malloc has handed out (mallinfo2, malloc's own headers excluded), does
+// not. Counter allocs_per_call: heap allocations (global operator new, counted by this program) per
 // Process() call in the timed loop, publications included.
 //
 // Run: build-x/tests/bench/pipeline/bayline_bench_pipeline
+#include <benchmark/benchmark.h>
 #include <malloc.h>
 #include <unistd.h>
 
@@ -25,8 +26,6 @@
 #include <new>
 #include <string>
 #include <vector>
-
-#include <benchmark/benchmark.h>
 
 #include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/pipeline.h"
@@ -78,7 +77,8 @@ struct Fleet {
       names.push_back("coldstore/site" + std::to_string(i % 97) + "/probe" + std::to_string(i));
     }
     auto config = DefaultConfig();
-    config.mutable_rules(0)->mutable_spec()->mutable_publish()->set_every_n(static_cast<uint32_t>(every_n));
+    config.mutable_rules(0)->mutable_spec()->mutable_publish()->set_every_n(
+        static_cast<uint32_t>(every_n));
     const long before = ResidentBytes();
     const std::size_t heap_before = HeapBytes();
     pipeline = std::make_unique<Pipeline>(config);
@@ -89,8 +89,8 @@ struct Fleet {
       pipeline->Process(obs, Now(), sink);
     }
     bytes_per_channel = static_cast<double>(ResidentBytes() - before) / static_cast<double>(n);
-    heap_bytes_per_channel =
-        (static_cast<double>(HeapBytes()) - static_cast<double>(heap_before)) / static_cast<double>(n);
+    heap_bytes_per_channel = (static_cast<double>(HeapBytes()) - static_cast<double>(heap_before)) /
+                             static_cast<double>(n);
     // Spread the channels over the publish cycle (channel i has seen 1 + i % 100 observations), so
     // the timed loop publishes at the steady rate of one call in 100 whatever the channel count.
     for (std::size_t i = 0; i < n; ++i) {
@@ -136,8 +136,8 @@ void BM_ProcessGaussian(benchmark::State& state) {
     obs.set_y(-18.0 + y);
     fleet.pipeline->Process(obs, fleet.Now(), fleet.sink);
   }
-  state.counters["allocs_per_call"] =
-      static_cast<double>(g_allocations - allocations_before) / static_cast<double>(state.iterations());
+  state.counters["allocs_per_call"] = static_cast<double>(g_allocations - allocations_before) /
+                                      static_cast<double>(state.iterations());
   state.counters["bytes_per_channel"] = fleet.bytes_per_channel;
   state.counters["heap_bytes_per_channel"] = fleet.heap_bytes_per_channel;
   state.counters["channels"] = static_cast<double>(fleet.pipeline->counters().channels);
@@ -171,7 +171,8 @@ void BM_ProcessGaussianBatch(benchmark::State& state) {
       fleet.pipeline->ProcessBatch(batch.observations(), arrival, fleet.sink);
     } else {
       for (int i = 0; i < kBatch; ++i) {
-        fleet.pipeline->Process(batch.observations(i), arrival[static_cast<std::size_t>(i)], fleet.sink);
+        fleet.pipeline->Process(batch.observations(i), arrival[static_cast<std::size_t>(i)],
+                                fleet.sink);
       }
     }
   }

@@ -1,9 +1,9 @@
 // ARLs of the tabular CUSUM and the EWMA chart against published tables, both from the Markov
 // chain / integral equation (arl.h) and from simulated run lengths of the charts themselves.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstdio>
-
-#include <gtest/gtest.h>
 
 #include "estimators/detect/arl.h"
 
@@ -13,7 +13,8 @@ namespace {
 ::testing::AssertionResult Within(double value, double expected, double rel) {
   std::printf("  %.6g vs %.6g (%.2f%%)\n", value, expected, 100.0 * (value / expected - 1.0));
   if (std::fabs(value / expected - 1.0) <= rel) return ::testing::AssertionSuccess();
-  return ::testing::AssertionFailure() << value << " is not within " << rel * 100 << "% of " << expected;
+  return ::testing::AssertionFailure()
+         << value << " is not within " << rel * 100 << "% of " << expected;
 }
 
 CusumOptions Tabular(double h) {
@@ -49,12 +50,15 @@ TEST(ChartsArlReferenceTest, FastInitialResponseMatchesLucasAndCrosier) {
 TEST(ChartsArlReferenceTest, EwmaMatchesLucasAndSaccucci) {
   // Lucas & Saccucci (1990), Technometrics 32: lambda = 0.1, L = 2.814 gives an in-control ARL of
   // about 500 (R spc xewma.arl gives 499.6); their Table 3 (as quoted in R spc's xewma.arl
-  // documentation): lambda = 0.5, L = 3.071: 500 at 0, 17.5 at 1; lambda = 0.03, L = 2.437: 500 at 0,
-  // 12.6 at 1. Fixed (asymptotic) limits, as in the paper.
+  // documentation): lambda = 0.5, L = 3.071: 500 at 0, 17.5 at 1; lambda = 0.03, L = 2.437: 500 at
+  // 0, 12.6 at 1. Fixed (asymptotic) limits, as in the paper.
   struct Case {
     double lambda, L, shift, arl;
-  } cases[] = {{0.1, 2.814, 0.0, 500}, {0.5, 3.071, 0.0, 500}, {0.5, 3.071, 1.0, 17.5},
-               {0.03, 2.437, 0.0, 500}, {0.03, 2.437, 1.0, 12.6}};
+  } cases[] = {{0.1, 2.814, 0.0, 500},
+               {0.5, 3.071, 0.0, 500},
+               {0.5, 3.071, 1.0, 17.5},
+               {0.03, 2.437, 0.0, 500},
+               {0.03, 2.437, 1.0, 12.6}};
   for (const Case& c : cases) {
     EwmaOptions o;
     o.lambda = c.lambda;

@@ -54,7 +54,8 @@ int Table() {
 // a Markdown table (CUSUM; EWMA with exact and with asymptotic limits), zero-state ARLs.
 int Markdown(double arl0) {
   const std::vector<double> ds = {0.5, 1.0, 1.5, 2.0, 2.5, 3.0};
-  std::printf("| chart | design shift D | settings | ARL0 | ARL at 0.5 | 1 | 1.5 | 2 | 2.5 | 3 |\n");
+  std::printf(
+      "| chart | design shift D | settings | ARL0 | ARL at 0.5 | 1 | 1.5 | 2 | 2.5 | 3 |\n");
   std::printf("|---|---|---|---|---|---|---|---|---|---|\n");
   for (double d : ds) {
     CusumOptions c;
@@ -69,8 +70,8 @@ int Markdown(double arl0) {
     EwmaOptions a = e;
     a.limits = EwmaLimits::kAsymptotic;
     if (!CalibrateEwmaWidth(arl0, &a).ok()) return 1;
-    std::printf("\n| EWMA (asymptotic limits) | %g | lambda = %.2g, L = %.3f | %.0f |", d, a.lambda, a.L,
-                EwmaArl(a, 0.0));
+    std::printf("\n| EWMA (asymptotic limits) | %g | lambda = %.2g, L = %.3f | %.0f |", d, a.lambda,
+                a.L, EwmaArl(a, 0.0));
     for (double mu : ds) std::printf(" %.3g |", EwmaArl(a, mu));
     std::printf("\n");
   }
@@ -99,6 +100,8 @@ int main(int argc, char** argv) {
     std::printf("%.10g\n", EwmaArl(e, std::atof(a[5].c_str())));
     return 0;
   }
-  std::fprintf(stderr, "usage: charts_probe table | markdown arl0 | arl cusum k h hs shift | arl ewma lambda L fix|vacl shift\n");
+  std::fprintf(stderr,
+               "usage: charts_probe table | markdown arl0 | arl cusum k h hs shift | arl ewma "
+               "lambda L fix|vacl shift\n");
   return 2;
 }

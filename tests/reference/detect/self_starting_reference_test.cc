@@ -3,12 +3,12 @@
 // i.i.d. N(0, 1) from the 3rd observation on), counting run lengths from the very first
 // observation. Target: a two-sided CUSUM calibrated to ARL0 = 500 for a 1 sd shift; simulated
 // in-control ARL within 10% of 500.
+#include <gtest/gtest.h>
+
+#include <Eigen/Dense>
 #include <cmath>
 #include <cstdio>
 #include <random>
-
-#include <Eigen/Dense>
-#include <gtest/gtest.h>
 
 #include "estimators/detect/calibration.h"
 #include "estimators/detect/cusum.h"
@@ -89,8 +89,11 @@ TEST(ChartsSelfStartingReferenceTest, RegressionRecursiveResidualsKeepArl0) {
       double z = 0;
       ASSERT_TRUE(s.Update(w, &z).ok());
       if (!std::isnan(w)) {
-        // The stateless helper with the residual scale of the earlier observations gives the same z.
-        if (nu >= 1) max_diff = std::max(max_diff, std::fabs(z - StandardizeRecursiveResidual(w, std::sqrt(rss / nu), nu)));
+        // The stateless helper with the residual scale of the earlier observations gives the same
+        // z.
+        if (nu >= 1)
+          max_diff = std::max(
+              max_diff, std::fabs(z - StandardizeRecursiveResidual(w, std::sqrt(rss / nu), nu)));
         rss += w * w;
         nu += 1;
       }
@@ -129,7 +132,8 @@ TEST(ChartsSelfStartingReferenceTest, PlugInEstimatesFromAShortStartDoNotKeepArl
     }
     total += n;
   }
-  std::printf("plug-in (first 10 observations) CUSUM: simulated ARL0 %.1f (target 500)\n", total / runs);
+  std::printf("plug-in (first 10 observations) CUSUM: simulated ARL0 %.1f (target 500)\n",
+              total / runs);
   EXPECT_GT(std::fabs(total / runs / kTarget - 1.0), 0.10);
 }
 

@@ -1,14 +1,14 @@
 // The self-started regression chart end to end with the project's own recursive least squares
 // (estimators/ls Rls, no forgetting): its recursive residuals, standardized by
 // RecursiveResidualStandardizer, feed a CUSUM calibrated to ARL0 = 500 (1 sd design shift). Hawkins
-// (1987) / Brown, Durbin & Evans (1975): the standardized recursive residuals are i.i.d. N(0, 1), so
-// the in-control ARL counted from the very first observation must be within 10% of 500.
+// (1987) / Brown, Durbin & Evans (1975): the standardized recursive residuals are i.i.d. N(0, 1),
+// so the in-control ARL counted from the very first observation must be within 10% of 500.
+#include <gtest/gtest.h>
+
 #include <array>
 #include <cmath>
 #include <cstdio>
 #include <random>
-
-#include <gtest/gtest.h>
 
 #include "estimators/detect/calibration.h"
 #include "estimators/detect/cusum.h"
@@ -46,7 +46,8 @@ TEST(ChartsSelfStartingRlsReferenceTest, RlsRecursiveResidualsKeepArl0) {
     }
     total += n;
   }
-  std::printf("self-started RLS regression CUSUM: simulated ARL0 %.1f (target 500)\n", total / runs);
+  std::printf("self-started RLS regression CUSUM: simulated ARL0 %.1f (target 500)\n",
+              total / runs);
   EXPECT_NEAR(total / runs, 500, 50);
 }
 

@@ -1,11 +1,11 @@
-// Page-Hinkley and GLR thresholds are calibrated by simulation (calibration.h). Check: the in-control
-// ARL achieved by the calibrated chart, measured by an independent simulation (another seed), is
-// within 10% of the target (no outside source: the calibration's own contract).
+// Page-Hinkley and GLR thresholds are calibrated by simulation (calibration.h). Check: the
+// in-control ARL achieved by the calibrated chart, measured by an independent simulation (another
+// seed), is within 10% of the target (no outside source: the calibration's own contract).
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstdio>
 #include <random>
-
-#include <gtest/gtest.h>
 
 #include "estimators/detect/calibration.h"
 #include "estimators/detect/page_hinkley.h"
@@ -25,8 +25,8 @@ TEST(ChartsSimulatedThresholdTest, PageHinkleyAchievesItsTarget) {
     PageHinkleyOptions o;
     ASSERT_TRUE(CalibratePageHinkley({500, shift}, &o, Budget(4000, 101)).ok());
     const double arl = SimulatePageHinkleyArl(o, 0.0, Budget(4000, 202));
-    std::printf("page_hinkley D=%g: delta %g threshold %.4f, simulated ARL0 %.1f (target 500)\n", shift,
-                o.delta, o.threshold, arl);
+    std::printf("page_hinkley D=%g: delta %g threshold %.4f, simulated ARL0 %.1f (target 500)\n",
+                shift, o.delta, o.threshold, arl);
     EXPECT_NEAR(arl, 500, 50) << "delta " << o.delta << " threshold " << o.threshold;
     // It catches the design shift arriving after 100 in-control observations far sooner than a
     // false alarm (a shift present from the start is absorbed by the running mean, by design).
@@ -37,14 +37,16 @@ TEST(ChartsSimulatedThresholdTest, PageHinkleyAchievesItsTarget) {
     for (int r = 0; r < 500; ++r) {
       PageHinkley chart(o);
       bool early = false;
-      for (int i = 0; i < 100 && !early; ++i) early = chart.Update(normal(rng), ObservationMark{}).raised;
+      for (int i = 0; i < 100 && !early; ++i)
+        early = chart.Update(normal(rng), ObservationMark{}).raised;
       if (early) continue;
       int t = 1;
       while (!chart.Update(normal(rng) + shift, ObservationMark{}).raised) ++t;
       delay += t;
       ++runs;
     }
-    std::printf("page_hinkley D=%g: mean delay %.1f after a change at observation 100\n", shift, delay / runs);
+    std::printf("page_hinkley D=%g: mean delay %.1f after a change at observation 100\n", shift,
+                delay / runs);
     EXPECT_LT(delay / runs, 0.2 * 500) << "mean delay at the design shift " << shift;
   }
 }
@@ -54,7 +56,8 @@ TEST(ChartsSimulatedThresholdTest, GlrAchievesItsTargetForFixedAndAutomaticWindo
   fixed.window = 50;
   ASSERT_TRUE(CalibrateGlr({500, 1.0}, &fixed, Budget(4000, 104)).ok());
   const double arl_fixed = SimulateGlrArl(fixed, 0.0, Budget(4000, 205));
-  std::printf("glr W=50: threshold %.4f, simulated ARL0 %.1f (target 500)\n", fixed.threshold, arl_fixed);
+  std::printf("glr W=50: threshold %.4f, simulated ARL0 %.1f (target 500)\n", fixed.threshold,
+              arl_fixed);
   EXPECT_NEAR(arl_fixed, 500, 50) << fixed.threshold;
   GlrOptions automatic;
   automatic.window = 0;

@@ -3,11 +3,11 @@
 // is 4.5 sd wide. The sample sizes are chosen so the Wald approximation is honest; the exact
 // coverages quoted were computed with scipy.stats 1.10 (python3-scipy) by summing the pmf (or the t
 // distribution for the gaussian mean) over the outcomes whose interval covers the truth.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstdio>
 #include <random>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ml/binomial_ml.h"
 #include "estimators/ml/gaussian_ml.h"
@@ -18,11 +18,13 @@ namespace {
 
 constexpr int kReplicates = 10000;
 
-bool Covers(const ParameterReport& r, double truth) { return r.identifiable && r.lower[0] <= truth && truth <= r.upper[0]; }
+bool Covers(const ParameterReport& r, double truth) {
+  return r.identifiable && r.lower[0] <= truth && truth <= r.upper[0];
+}
 
 TEST(WaldCoverageTest, GaussianMeanAtN200) {
-  // Exact coverage of mean +- z sqrt(variance_ml / n) at n = 200: P(|t_199| <= 1.95996 sqrt(199/200))
-  // = 0.9480 (scipy.stats.t). At n = 50 it would be 0.9419, outside the band.
+  // Exact coverage of mean +- z sqrt(variance_ml / n) at n = 200: P(|t_199| <= 1.95996
+  // sqrt(199/200)) = 0.9480 (scipy.stats.t). At n = 50 it would be 0.9419, outside the band.
   std::mt19937_64 rng(71);
   std::normal_distribution<double> nd(3.0, 2.0);
   int covered = 0;
@@ -41,7 +43,8 @@ TEST(WaldCoverageTest, GaussianMeanAtN200) {
 }
 
 TEST(WaldCoverageTest, PoissonRateAtN200) {
-  // rate 2, 200 unit exposures (expected total count 400). Exact coverage 0.9508 (scipy.stats.poisson).
+  // rate 2, 200 unit exposures (expected total count 400). Exact coverage 0.9508
+  // (scipy.stats.poisson).
   std::mt19937_64 rng(72);
   std::poisson_distribution<int> pd(2.0);
   int covered = 0;

@@ -1,5 +1,5 @@
-// ml_probe: runs one online maximum-likelihood estimator over observations read from stdin and prints
-// its report, so Python reference tests can compare it with scipy / statsmodels.
+// ml_probe: runs one online maximum-likelihood estimator over observations read from stdin and
+// prints its report, so Python reference tests can compare it with scipy / statsmodels.
 //
 // Usage: ml_probe <family> [p] [--innovations]
 //   family: gaussian lognormal poisson binomial exponential gamma logistic poisson_regression
@@ -53,8 +53,8 @@ int Run(Est& est, std::size_t p, bool poisson_aux, bool innovations) {
       return 2;
     }
     if (innovations) {
-      std::printf("innovation %d %.17g %.17g %.17g %.17g\n", inn.valid ? 1 : 0, inn.prediction, inn.predictive_sd,
-                  inn.standardized, inn.log_predictive);
+      std::printf("innovation %d %.17g %.17g %.17g %.17g\n", inn.valid ? 1 : 0, inn.prediction,
+                  inn.predictive_sd, inn.standardized, inn.log_predictive);
     }
   }
   const ParameterReport r = est.Report(0.95);
@@ -62,8 +62,8 @@ int Run(Est& est, std::size_t p, bool poisson_aux, bool innovations) {
   PrintVector("se", r.std_error);
   PrintVector("lower", r.lower);
   PrintVector("upper", r.upper);
-  std::printf("loglik %.17g\nidentifiable %d\neffective_n %.17g\n", r.log_likelihood, r.identifiable ? 1 : 0,
-              r.effective_n);
+  std::printf("loglik %.17g\nidentifiable %d\neffective_n %.17g\n", r.log_likelihood,
+              r.identifiable ? 1 : 0, r.effective_n);
   return 0;
 }
 
@@ -79,15 +79,35 @@ int main(int argc, char** argv) {
   bool innovations = false;
   for (int i = 2; i < argc; ++i) {
     const std::string a = argv[i];
-    if (a == "--innovations") innovations = true;
-    else p = std::stoul(a);
+    if (a == "--innovations")
+      innovations = true;
+    else
+      p = std::stoul(a);
   }
-  if (family == "gaussian") { GaussianMl e; return Run(e, 0, false, innovations); }
-  if (family == "lognormal") { LognormalMl e; return Run(e, 0, false, innovations); }
-  if (family == "poisson") { PoissonMl e; return Run(e, 0, true, innovations); }
-  if (family == "binomial") { BinomialMl e; return Run(e, 0, false, innovations); }
-  if (family == "exponential") { ExponentialMl e; return Run(e, 0, false, innovations); }
-  if (family == "gamma") { GammaMl e; return Run(e, 0, false, innovations); }
+  if (family == "gaussian") {
+    GaussianMl e;
+    return Run(e, 0, false, innovations);
+  }
+  if (family == "lognormal") {
+    LognormalMl e;
+    return Run(e, 0, false, innovations);
+  }
+  if (family == "poisson") {
+    PoissonMl e;
+    return Run(e, 0, true, innovations);
+  }
+  if (family == "binomial") {
+    BinomialMl e;
+    return Run(e, 0, false, innovations);
+  }
+  if (family == "exponential") {
+    ExponentialMl e;
+    return Run(e, 0, false, innovations);
+  }
+  if (family == "gamma") {
+    GammaMl e;
+    return Run(e, 0, false, innovations);
+  }
   if (family == "logistic" || family == "poisson_regression") {
     GlmMlOptions o;
     o.num_regressors = p;
@@ -95,7 +115,10 @@ int main(int argc, char** argv) {
       std::fprintf(stderr, "bad p\n");
       return 1;
     }
-    if (family == "logistic") { LogisticRegressionMl e(o); return Run(e, p, false, innovations); }
+    if (family == "logistic") {
+      LogisticRegressionMl e(o);
+      return Run(e, p, false, innovations);
+    }
     PoissonRegressionMl e(o);
     return Run(e, p, true, innovations);
   }

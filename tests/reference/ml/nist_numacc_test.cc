@@ -1,13 +1,13 @@
 // NIST StRD univariate summary statistics NumAcc1-4 through the streamed GaussianMl.
 // Source: NIST Statistical Reference Datasets, univariate summary statistics (NumAcc1-4); data
-// defined by construction as described in /work/shared/REFERENCES.md; certified values (mean, sample
-// standard deviation) likewise. Accuracy is scored as NIST does: LRE = -log10(|est - cert| / |cert|),
-// capped at the 15 certified digits.
+// defined by construction as described in /work/shared/REFERENCES.md; certified values (mean,
+// sample standard deviation) likewise. Accuracy is scored as NIST does: LRE = -log10(|est - cert| /
+// |cert|), capped at the 15 certified digits.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <cstdio>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ml/gaussian_ml.h"
 
@@ -83,13 +83,14 @@ TEST(NistNumAccTest, NumAcc3ReachesTheDoublePrecisionBound) {
   // Near 1e12 doubles are 2^-13 ~ 1.2e-4 apart, so 0.1, 0.2, 0.3 past 1e12 are stored with errors
   // up to 6e-5 and the stored data's sd is 0.10003...: an LRE bound of about 3.4 for the sd.
   const double bound = Lre(StoredDataSd(y), 0.1);
-  std::printf("NumAcc3 LRE mean %.2f sd %.2f (double-precision bound for sd %.2f)\n", Lre(s.mean, 1000000000000.2),
-              Lre(s.sd, 0.1), bound);
+  std::printf("NumAcc3 LRE mean %.2f sd %.2f (double-precision bound for sd %.2f)\n",
+              Lre(s.mean, 1000000000000.2), Lre(s.sd, 0.1), bound);
   EXPECT_GE(Lre(s.mean, 1000000000000.2), 14.0);
   EXPECT_GT(bound, 3.0);
   EXPECT_LT(bound, 4.0);
   EXPECT_GE(Lre(s.sd, 0.1), bound - 0.01);  // reaches the bound
-  // ... because it matches the stored data's sd to near full precision (common practice, no source).
+  // ... because it matches the stored data's sd to near full precision (common practice, no
+  // source).
   EXPECT_NEAR(s.sd, StoredDataSd(y), 1e-13);
 }
 
@@ -98,8 +99,8 @@ TEST(NistNumAccTest, NumAcc4) {
   const std::vector<double> y = NumAcc(10000000.2, 10000000.1, 10000000.3, 500);
   const Streamed s = Stream(y);
   const double bound = Lre(StoredDataSd(y), 0.1);
-  std::printf("NumAcc4 LRE mean %.2f sd %.2f (double-precision bound for sd %.2f)\n", Lre(s.mean, 10000000.2),
-              Lre(s.sd, 0.1), bound);
+  std::printf("NumAcc4 LRE mean %.2f sd %.2f (double-precision bound for sd %.2f)\n",
+              Lre(s.mean, 10000000.2), Lre(s.sd, 0.1), bound);
   EXPECT_GE(Lre(s.mean, 10000000.2), 14.0);
   EXPECT_GE(Lre(s.sd, 0.1), 8.0);
   EXPECT_GE(Lre(s.sd, 0.1), bound - 0.01);

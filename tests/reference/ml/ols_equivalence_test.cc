@@ -2,19 +2,21 @@
 // normal model equals ordinary least squares on a column of ones (coefficient = mean, ML variance =
 // RSS / n). Common practice, no source (any regression text; see REFERENCES.md "Standard
 // identities").
+#include <gtest/gtest.h>
+
+#include <Eigen/Dense>
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <Eigen/Dense>
-#include <gtest/gtest.h>
 
 #include "estimators/ml/gaussian_ml.h"
 
 namespace bayline::est {
 namespace {
 
-bool Rel(double a, double b, double tol) { return std::fabs(a - b) <= tol * std::fmax(std::fabs(a), std::fabs(b)); }
+bool Rel(double a, double b, double tol) {
+  return std::fabs(a - b) <= tol * std::fmax(std::fabs(a), std::fabs(b));
+}
 
 TEST(OlsEquivalenceTest, GaussianMlMeanEqualsBatchMeanAndInterceptOnlyOls) {
   for (double offset : {0.0, 1e6, -3e8}) {
@@ -40,7 +42,8 @@ TEST(OlsEquivalenceTest, GaussianMlMeanEqualsBatchMeanAndInterceptOnlyOls) {
     const double rss = (y - X * beta).squaredNorm();
     // common practice, no source: ML coefficients of the intercept-only normal model = OLS
     EXPECT_TRUE(Rel(g.mean(), beta(0), 1e-10)) << offset;
-    // The QR residuals lose |offset| / sd digits; compare the variance where that still leaves 1e-10.
+    // The QR residuals lose |offset| / sd digits; compare the variance where that still leaves
+    // 1e-10.
     if (offset == 0.0) {
       EXPECT_TRUE(Rel(g.variance_ml(), rss / count, 1e-10));
     }

@@ -2,6 +2,8 @@
 // from Debian, the reference for the proto3 JSON mapping): what we write parses back with
 // google::protobuf::util's parser to the same message, and where number formatting cannot differ
 // the text is byte-identical to google::protobuf::util::MessageToJsonString with the same options.
+#include "clients/cli/json_line.h"
+
 #include <google/protobuf/util/json_util.h>
 #include <gtest/gtest.h>
 
@@ -9,7 +11,6 @@
 #include <limits>
 #include <string>
 
-#include "clients/cli/json_line.h"
 #include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/pipeline/publication_sink.h"

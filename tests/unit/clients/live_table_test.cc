@@ -9,7 +9,7 @@ namespace bayline::cli {
 namespace {
 
 bayline::v1::Publication EstimateOf(const std::string& channel, const std::string& estimator,
-                                     uint64_t accepted, double gain) {
+                                    uint64_t accepted, double gain) {
   bayline::v1::Publication p;
   auto* e = p.mutable_estimate();
   e->set_channel(channel);

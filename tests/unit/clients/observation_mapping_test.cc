@@ -57,8 +57,8 @@ TEST(ObservationMappingTest, MapsColumnsAndNumbersRowsPerChannel) {
   EXPECT_EQ(obs[0].x_size(), 2);
   EXPECT_DOUBLE_EQ(obs[0].x(1), 12.0);
   EXPECT_EQ(obs[0].time_ns(), 1733130000500000000);
-  EXPECT_EQ(obs[1].seq(), 1u);  // first row of room1/p2
-  EXPECT_EQ(obs[2].seq(), 2u);  // second row of room1/p1
+  EXPECT_EQ(obs[1].seq(), 1u);   // first row of room1/p2
+  EXPECT_EQ(obs[2].seq(), 2u);   // second row of room1/p1
   EXPECT_FALSE(obs[2].has_y());  // empty y with regressors: a prediction request
   EXPECT_EQ(obs[2].time_ns(), 1733130002000000001);  // exact to the nanosecond
 }

@@ -77,15 +77,15 @@ TEST(CsvReaderTest, UnterminatedQuoteAndDuplicateHeaderAreErrors) {
   std::string error = ReadError(dir.Write("q.csv", "a,b\n\"x,1\n"));
   EXPECT_NE(error.find("q.csv:2: unterminated quoted field"), std::string::npos) << error;
   error = ReadError(dir.Write("d.csv", "y,y\n1,2\n"));
-  EXPECT_NE(error.find("d.csv:1: column 2 (y): duplicate column name"), std::string::npos)
-      << error;
+  EXPECT_NE(error.find("d.csv:1: column 2 (y): duplicate column name"), std::string::npos) << error;
 }
 
 TEST(JsonLinesReaderTest, ReadsFlatObjectsKeepingNumberText) {
   TempDir dir;
-  auto path = dir.Write("obs.jsonl",
-                        "{\"channel\": \"site2/door\", \"y\": 3, \"time_ns\": 1733130000123456789}\n"
-                        "{\"channel\":\"caf\\u00e9\",\"x\":[1.5,-2e3],\"y\":null,\"ok\":true}\n");
+  auto path =
+      dir.Write("obs.jsonl",
+                "{\"channel\": \"site2/door\", \"y\": 3, \"time_ns\": 1733130000123456789}\n"
+                "{\"channel\":\"caf\\u00e9\",\"x\":[1.5,-2e3],\"y\":null,\"ok\":true}\n");
   auto rows = ReadAll(path);
   ASSERT_EQ(rows.size(), 2u);
   EXPECT_EQ(rows[0].Find("time_ns")->value.text, "1733130000123456789");

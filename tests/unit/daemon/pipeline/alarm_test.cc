@@ -1,7 +1,7 @@
+#include <gtest/gtest.h>
+
 #include <random>
 #include <string>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/daemon/pipeline/test_util.h"
 
@@ -78,7 +78,8 @@ TEST(AlarmTest, GainChangeOnLinearChannelRaisesAlarmAndInflates) {
   for (uint64_t i = 1; i <= 400; ++i) {
     const double x = ref(rng);
     const double gain = i > change_at ? 1.03 : 1.0;  // the probe's gain drifts by 3%
-    p.Process(Obs("coldstore/probe7/calibration", i, 0.1 + gain * x + noise(rng), {x}), kArrival, sink);
+    p.Process(Obs("coldstore/probe7/calibration", i, 0.1 + gain * x + noise(rng), {x}), kArrival,
+              sink);
   }
   const auto* a = FirstRaised(sink);
   ASSERT_NE(a, nullptr);

@@ -1,10 +1,10 @@
 // Pipeline::ProcessBatch publishes exactly what Process would for each observation in order: the
 // lookahead (hashing and prefetching later observations) must not change anything, including
 // when an observation of the batch creates the channel a later one uses, or is refused.
+#include <gtest/gtest.h>
+
 #include <string>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/daemon/pipeline/test_util.h"
 
@@ -17,7 +17,8 @@ using testing::SnapshotBytes;
 
 std::vector<std::string> Published(const RecordingSink& sink) {
   std::vector<std::string> out;
-  for (const auto& r : sink.records) out.push_back(r.topic + " " + r.publication.SerializeAsString());
+  for (const auto& r : sink.records)
+    out.push_back(r.topic + " " + r.publication.SerializeAsString());
   return out;
 }
 
@@ -29,12 +30,12 @@ TEST(BatchTest, ProcessBatchPublishesWhatProcessWouldInOrder) {
     arrival.push_back(testing::kArrival + static_cast<int64_t>(arrival.size()));
   };
   for (uint64_t i = 1; i <= 30; ++i) {
-    add(Obs("site/a", i, 1.0 + 0.1 * double(i % 4)));                  // created by the first
+    add(Obs("site/a", i, 1.0 + 0.1 * double(i % 4)));  // created by the first
     add(Obs("site/probe" + std::to_string(i % 5), i / 5 + 1, 2.0 + double(i % 3)));
-    if (i % 7 == 0) add(Obs("site/a", i, 1.0));                         // duplicate
-    if (i % 9 == 0) add(Obs("", i, 1.0));                               // empty name
-    if (i % 11 == 0) add(Obs(std::string(300, 'z'), i, 1.0));           // too long: not hashed
-    if (i % 13 == 0) add(Obs("bad\xFF", i, 1.0));                       // invalid UTF-8
+    if (i % 7 == 0) add(Obs("site/a", i, 1.0));                          // duplicate
+    if (i % 9 == 0) add(Obs("", i, 1.0));                                // empty name
+    if (i % 11 == 0) add(Obs(std::string(300, 'z'), i, 1.0));            // too long: not hashed
+    if (i % 13 == 0) add(Obs("bad\xFF", i, 1.0));                        // invalid UTF-8
     if (i % 6 == 0) add(Obs("cal/p", i, 3.0 + double(i), {double(i)}));  // linear channel
   }
   auto o = Obs("site/a", 99, 1.0);

@@ -1,15 +1,16 @@
 // ChannelRegistry (daemon/pipeline/channel_registry.h): open addressing keyed by ChannelHash, with
 // channels that keep their address. Checked against a std::map oracle under many names, random
 // insertions and erasures, growth, replacement and clearing.
+#include "daemon/pipeline/channel_registry.h"
+
+#include <gtest/gtest.h>
+
 #include <map>
 #include <memory>
 #include <random>
 #include <string>
 #include <vector>
 
-#include <gtest/gtest.h>
-
-#include "daemon/pipeline/channel_registry.h"
 #include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/rule_set.h"
 
@@ -34,10 +35,19 @@ std::shared_ptr<const ResolvedSpec> GaussianSpec() {
 std::string NameOf(int i) {
   std::string name;
   switch (i % 4) {
-    case 0: name = "s"; break;
-    case 1: name = "coldstore/site" + std::to_string(i % 7); name += "/probe"; break;
-    case 2: name = std::string(100, 'x'); break;
-    default: name = "k\xC3\xBChlhaus/"; break;
+    case 0:
+      name = "s";
+      break;
+    case 1:
+      name = "coldstore/site" + std::to_string(i % 7);
+      name += "/probe";
+      break;
+    case 2:
+      name = std::string(100, 'x');
+      break;
+    default:
+      name = "k\xC3\xBChlhaus/";
+      break;
   }
   name += std::to_string(i);
   return name;
@@ -87,7 +97,8 @@ TEST(ChannelRegistryTest, FindsEveryNameAndKeepsAddressesThroughGrowth) {
   constexpr int kN = 20000;
   std::vector<Channel*> address(kN);
   for (int i = 0; i < kN; ++i) {
-    address[static_cast<std::size_t>(i)] = r.InsertOrReplace(Make(NameOf(i), static_cast<uint64_t>(i)));
+    address[static_cast<std::size_t>(i)] =
+        r.InsertOrReplace(Make(NameOf(i), static_cast<uint64_t>(i)));
     ASSERT_EQ(r.size(), static_cast<std::size_t>(i + 1));
   }
   EXPECT_GE(r.capacity() * 3, r.size() * 4);  // at most 3/4 full
@@ -148,7 +159,8 @@ TEST(ChannelRegistryTest, ErasedNamesCanComeBackAndOthersStayPut) {
   for (int i = 0; i < 1000; i += 2) ASSERT_TRUE(r.Erase(NameOf(i)));
   for (int i = 0; i < 1000; i += 2) EXPECT_FALSE(r.Erase(NameOf(i)));
   EXPECT_EQ(r.size(), 500u);
-  for (int i = 1; i < 1000; i += 2) EXPECT_EQ(r.Find(NameOf(i)), address[static_cast<std::size_t>(i)]);
+  for (int i = 1; i < 1000; i += 2)
+    EXPECT_EQ(r.Find(NameOf(i)), address[static_cast<std::size_t>(i)]);
   for (int i = 0; i < 1000; i += 2) {
     EXPECT_EQ(r.Find(NameOf(i)), nullptr);
     r.InsertOrReplace(Make(NameOf(i), 7));

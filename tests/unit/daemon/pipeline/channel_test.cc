@@ -1,13 +1,14 @@
 // Channel blocks (daemon/pipeline/channel.h) and the InlineVariant that sizes each estimator slot
 // for its own estimator (daemon/pipeline/inline_variant.h).
+#include "daemon/pipeline/channel.h"
+
+#include <gtest/gtest.h>
+
 #include <cstdint>
 #include <memory>
 #include <string>
 #include <vector>
 
-#include <gtest/gtest.h>
-
-#include "daemon/pipeline/channel.h"
 #include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/inline_variant.h"
 #include "daemon/pipeline/rule_set.h"
@@ -45,7 +46,8 @@ TEST(InlineVariantTest, StorageIsSizedPerAlternative) {
 TEST(InlineVariantTest, VisitsTheHeldAlternativeAndDestroysItOnce) {
   int live = 0;
   alignas(32) std::byte storage[TestVariant::StorageSizeOf<Counted>()];
-  auto* v = ::new (storage) TestVariant(std::in_place_type<Counted>, [&] { return Counted(&live, 41); });
+  auto* v =
+      ::new (storage) TestVariant(std::in_place_type<Counted>, [&] { return Counted(&live, 41); });
   EXPECT_EQ(live, 1);
   EXPECT_EQ(v->index(), 1u);
   EXPECT_EQ(v->get_if<Wide>(), nullptr);
@@ -99,7 +101,8 @@ TEST(ChannelTest, GaussianBlockHoldsEachEstimatorAtItsOwnSize) {
   std::size_t slots = sizeof(DetectorSlot);
   for (EstimatorKind k : spec->estimators) slots += EstimatorSlot::StorageSize(*spec, k);
   EXPECT_GE(ch->block_bytes(), sizeof(Channel) + name.size() + slots);
-  EXPECT_LE(ch->block_bytes(), sizeof(Channel) + name.size() + slots + 2 * alignof(std::max_align_t));
+  EXPECT_LE(ch->block_bytes(),
+            sizeof(Channel) + name.size() + slots + 2 * alignof(std::max_align_t));
   // Smaller than a std::variant of all estimators per slot would make it.
   EXPECT_LT(ch->block_bytes(), sizeof(Channel) + name.size() + sizeof(DetectorSlot) +
                                    3 * sizeof(EstimatorSlot::Backup));
@@ -123,7 +126,8 @@ TEST(ChannelTest, EstimatorSlotsAreIndependentAndRestoreFromABackup) {
     ch->estimator(e).SaveTo(&backup[e]);
   }
   s.y = 100.0;
-  for (std::size_t e = 0; e < 3; ++e) ASSERT_TRUE(ch->estimator(e).Update(s, nullptr, nullptr).ok());
+  for (std::size_t e = 0; e < 3; ++e)
+    ASSERT_TRUE(ch->estimator(e).Update(s, nullptr, nullptr).ok());
   for (std::size_t e = 0; e < 3; ++e) {
     std::vector<double> changed;
     ch->estimator(e).Pack(&changed);

@@ -1,8 +1,8 @@
+#include <gtest/gtest.h>
+
 #include <fstream>
 #include <sstream>
 #include <string>
-
-#include <gtest/gtest.h>
 
 #include "daemon/defaults.h"
 #include "tests/unit/daemon/pipeline/test_util.h"
@@ -46,7 +46,8 @@ TEST(ConfigValidationTest, ErrorsNameTheFieldPath) {
   ExpectRejected(R"(rules { match: "**" spec { model: "gaussian" regressors: "t" } })",
                  "rules[0].spec.regressors");
   ExpectRejected(R"(rules { match: "" })", "rules[0].match");
-  ExpectRejected(R"(rules { name: "x" match: "a" } rules { name: "x" match: "b" })", "rules[1].name");
+  ExpectRejected(R"(rules { name: "x" match: "a" } rules { name: "x" match: "b" })",
+                 "rules[1].name");
   ExpectRejected(R"(rules { match: "**" spec { forgetting { lambda: 1.5 } } })",
                  "rules[0].spec.forgetting.lambda");
   ExpectRejected(R"(rules { match: "**" spec { level: 1 } })", "rules[0].spec.level");
@@ -54,17 +55,21 @@ TEST(ConfigValidationTest, ErrorsNameTheFieldPath) {
                  "rules[0].spec.detectors[0].kind");
   ExpectRejected(R"(rules { match: "**" spec { detectors { kind: "cusum" mode: "phase2" } } })",
                  "rules[0].spec.detectors[0].target_sd");
-  ExpectRejected(R"(rules { match: "**" spec { model: "poisson" detectors { kind: "cusum" watch: "ls" } } })",
-                 "rules[0].spec.detectors[0].watch");
-  ExpectRejected(R"(rules { match: "**" spec { model: "poisson" detectors { kind: "cusum" inflate_on_alarm: 10 } } })",
-                 "rules[0].spec.detectors[0].inflate_on_alarm");
-  ExpectRejected(R"(rules { match: "**" spec { model: "gaussian" detectors { kind: "band" parameter: "gain" band_low: 0 band_high: 1 } } })",
-                 "rules[0].spec.detectors[0].parameter");
+  ExpectRejected(
+      R"(rules { match: "**" spec { model: "poisson" detectors { kind: "cusum" watch: "ls" } } })",
+      "rules[0].spec.detectors[0].watch");
+  ExpectRejected(
+      R"(rules { match: "**" spec { model: "poisson" detectors { kind: "cusum" inflate_on_alarm: 10 } } })",
+      "rules[0].spec.detectors[0].inflate_on_alarm");
+  ExpectRejected(
+      R"(rules { match: "**" spec { model: "gaussian" detectors { kind: "band" parameter: "gain" band_low: 0 band_high: 1 } } })",
+      "rules[0].spec.detectors[0].parameter");
   ExpectRejected(R"(rules { match: "**" spec { detectors { kind: "glr" arl0: 100000 } } })",
                  "rules[0].spec.detectors[0].arl0");
   ExpectRejected(R"(rules { match: "**" spec { model: "linear" regressors: ["a", "a"] } })",
                  "rules[0].spec.regressors[1]");
-  ExpectRejected(R"(rules { match: "**" spec { map_tracker: "particle" } })", "rules[0].spec.map_tracker");
+  ExpectRejected(R"(rules { match: "**" spec { map_tracker: "particle" } })",
+                 "rules[0].spec.map_tracker");
   ExpectRejected(R"(log_level: "loud")", "log_level");
   ExpectRejected(R"(shard: "3/2")", "shard");
   ExpectRejected(R"(endpoints { publish_bind: "localhost" })", "endpoints.publish_bind");
@@ -84,8 +89,11 @@ TEST(ConfigValidationTest, ExampleConfigParsesValidatesAndRuns) {
   Pipeline pipeline(config);
   testing::RecordingSink sink;
   for (uint64_t i = 1; i <= 30; ++i) {
-    pipeline.Process(testing::Obs("coldstore/hall1/probe3/calibration", i, 0.1 + 1.01 * i, {double(i)}), 0, sink);
-    pipeline.Process(testing::Obs("coldstore/hall1/freezer2/temperature", i, -18 + 0.1 * (i % 5)), 0, sink);
+    pipeline.Process(
+        testing::Obs("coldstore/hall1/probe3/calibration", i, 0.1 + 1.01 * i, {double(i)}), 0,
+        sink);
+    pipeline.Process(testing::Obs("coldstore/hall1/freezer2/temperature", i, -18 + 0.1 * (i % 5)),
+                     0, sink);
     pipeline.Process(testing::Obs("coldstore/hall1/door4", i, double(i % 3)), 0, sink);
     pipeline.Process(testing::Obs("packing/line1/weight", i, 500 + 0.5 * ((i % 4) - 1.5)), 0, sink);
   }

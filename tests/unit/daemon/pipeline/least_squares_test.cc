@@ -1,9 +1,9 @@
+#include <gtest/gtest.h>
+
+#include <Eigen/Dense>
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <Eigen/Dense>
-#include <gtest/gtest.h>
 
 #include "tests/unit/daemon/pipeline/test_util.h"
 
@@ -32,8 +32,9 @@ TEST(LeastSquaresTest, LinearChannelLsEqualsBatchOls) {
     const double supply = 230 + 5 * n01(rng);
     X.row(i) << 1.0, ref, ambient, supply;
     y(i) = 0.4 + 1.02 * ref + 0.015 * ambient - 0.002 * supply + 0.05 * n01(rng);
-    p.Process(testing::Obs("coldstore/probe1/calibration", uint64_t(i + 1), y(i), {ref, ambient, supply}),
-              testing::kArrival, sink);
+    p.Process(
+        testing::Obs("coldstore/probe1/calibration", uint64_t(i + 1), y(i), {ref, ambient, supply}),
+        testing::kArrival, sink);
   }
   const Eigen::VectorXd beta = X.colPivHouseholderQr().solve(y);
   const double s2 = (y - X * beta).squaredNorm() / (n - (k + 1));
@@ -73,7 +74,8 @@ TEST(LeastSquaresTest, GaussianChannelLsIsSampleMeanAndVariance) {
   std::vector<double> ys;
   for (uint64_t i = 1; i <= 50; ++i) {
     ys.push_back(temp(rng));
-    p.Process(testing::Obs("coldstore/freezer9/temperature", i, ys.back()), testing::kArrival, sink);
+    p.Process(testing::Obs("coldstore/freezer9/temperature", i, ys.back()), testing::kArrival,
+              sink);
   }
   double mean = 0;
   for (double y : ys) mean += y;

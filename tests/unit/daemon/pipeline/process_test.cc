@@ -1,9 +1,9 @@
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <limits>
 #include <random>
 #include <string>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/daemon/pipeline/test_util.h"
 
@@ -79,7 +79,8 @@ TEST(ProcessTest, EveryBadInputPublishesOneInputErrorAndChangesNothing) {
   cases.push_back({"channel_limit", Obs("site/new", 1, 1.0)});
   cases.push_back({"too_many_regressors", Obs("site/b", 11, 1.0, {1, 2, 3, 4, 5})});
   cases.push_back({"non_finite", Obs("site/a", 11, nan)});
-  cases.push_back({"non_finite", Obs("site/b", 11, 1.0, {std::numeric_limits<double>::infinity()})});
+  cases.push_back(
+      {"non_finite", Obs("site/b", 11, 1.0, {std::numeric_limits<double>::infinity()})});
   cases.push_back({"wrong_regressor_count", Obs("site/a", 11, 1.0, {2.0})});
   cases.push_back({"wrong_regressor_count", Obs("site/b", 11, 1.0, {2.0, 3.0})});
   cases.push_back({"out_of_domain", Obs("counts/doors", 11, -1.0)});
@@ -133,7 +134,8 @@ TEST(ProcessTest, RejectedFirstObservationCreatesNoChannel) {
 TEST(ProcessTest, SeqDuplicatesDroppedGapsAndReorderingCountedTooOldRefused) {
   Pipeline p(DefaultConfig());
   RecordingSink sink;
-  for (uint64_t seq : {1, 2, 3, 3, 5, 4, 4}) p.Process(Obs("site/a", seq, 1.0 + 0.01 * seq), kArrival, sink);
+  for (uint64_t seq : {1, 2, 3, 3, 5, 4, 4})
+    p.Process(Obs("site/a", seq, 1.0 + 0.01 * seq), kArrival, sink);
   p.Process(Obs("site/a", 0, 1.5), kArrival, sink);  // unnumbered: becomes 6
   p.Process(Obs("site/a", 200, 1.2), kArrival, sink);
   p.Process(Obs("site/a", 100, 1.3), kArrival, sink);  // too far back to tell: refused
@@ -190,11 +192,13 @@ TEST(ProcessTest, PublishPolicyMinIntervalByObservationTime) {
   RecordingSink sink;
   const int64_t t0 = 1'700'000'000'000'000'000;
   for (uint64_t i = 0; i < 10; ++i) {
-    p.Process(Obs("site/a", i + 1, double(i % 3), {}, t0 + int64_t(i) * 300'000'000), kArrival, sink);
+    p.Process(Obs("site/a", i + 1, double(i % 3), {}, t0 + int64_t(i) * 300'000'000), kArrival,
+              sink);
   }
   std::vector<uint64_t> seqs;
   for (const auto* r : sink.OfKind(Publication::kEstimate)) {
-    if (r->publication.estimate().estimator() == "ls") seqs.push_back(r->publication.estimate().seq());
+    if (r->publication.estimate().estimator() == "ls")
+      seqs.push_back(r->publication.estimate().seq());
   }
   // t = 0 (first), 1200 ms, 2400 ms: seq 1, 5, 9.
   EXPECT_EQ(seqs, (std::vector<uint64_t>{1, 5, 9}));
@@ -207,7 +211,8 @@ TEST(ProcessTest, PredictionRequestAnswersAndChangesNothing) {
   std::normal_distribution<double> noise(0.0, 0.05);
   for (uint64_t i = 1; i <= 40; ++i) {
     const double x = 0.5 * double(i);
-    p.Process(Obs("coldstore/probe7/calibration", i, 0.2 + 1.5 * x + noise(rng), {x}), kArrival, sink);
+    p.Process(Obs("coldstore/probe7/calibration", i, 0.2 + 1.5 * x + noise(rng), {x}), kArrival,
+              sink);
   }
   const std::string before = SnapshotBytes(p);
   const auto counters_before = p.counters().accepted;

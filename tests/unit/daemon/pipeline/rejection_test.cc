@@ -1,10 +1,10 @@
 // Rejections on the per-observation path that depend on how Process finds channels: names are
 // fully validated only when not registered, estimators are backed up only for rollback, and a new
 // channel is registered only once its first observation is absorbed.
+#include <gtest/gtest.h>
+
 #include <string>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/daemon/pipeline/test_util.h"
 
@@ -37,7 +37,8 @@ TEST(RejectionTest, HeavyObservationIsAbsorbedByLsAndMapAlone) {
   for (const char* kinds : {R"(estimators: "ls")", R"(estimators: "map")"}) {
     Pipeline p(Config(kinds));
     RecordingSink sink;
-    for (uint64_t i = 1; i <= 5; ++i) p.Process(Obs("site/a", i, 1.0 + 0.1 * double(i)), kArrival, sink);
+    for (uint64_t i = 1; i <= 5; ++i)
+      p.Process(Obs("site/a", i, 1.0 + 0.1 * double(i)), kArrival, sink);
     sink.Clear();
     p.Process(HeavyObs("site/a", 6), kArrival, sink);
     EXPECT_TRUE(sink.OfKind(Publication::kInputError).empty()) << kinds;
@@ -55,7 +56,8 @@ TEST(RejectionTest, HeavyObservationIsAbsorbedByLsAndMapAlone) {
 TEST(RejectionTest, NumericalFailureOfALaterEstimatorRollsBackTheEarlierOnes) {
   Pipeline p(Config(R"(estimators: "ls" estimators: "map" estimators: "ml")"));
   RecordingSink sink;
-  for (uint64_t i = 1; i <= 8; ++i) p.Process(Obs("site/a", i, 1.0 + 0.1 * double(i % 3)), kArrival, sink);
+  for (uint64_t i = 1; i <= 8; ++i)
+    p.Process(Obs("site/a", i, 1.0 + 0.1 * double(i % 3)), kArrival, sink);
   const std::string before = SnapshotBytes(p);
   sink.Clear();
   p.Process(HeavyObs("site/a", 9), kArrival, sink);
@@ -66,7 +68,8 @@ TEST(RejectionTest, NumericalFailureOfALaterEstimatorRollsBackTheEarlierOnes) {
 
   // The channel continues exactly as if the heavy observation had never been sent.
   Pipeline q(Config(R"(estimators: "ls" estimators: "map" estimators: "ml")"));
-  for (uint64_t i = 1; i <= 8; ++i) q.Process(Obs("site/a", i, 1.0 + 0.1 * double(i % 3)), kArrival, sink);
+  for (uint64_t i = 1; i <= 8; ++i)
+    q.Process(Obs("site/a", i, 1.0 + 0.1 * double(i % 3)), kArrival, sink);
   for (uint64_t i = 9; i <= 12; ++i) {
     p.Process(Obs("site/a", i, 1.3), kArrival, sink);
     q.Process(Obs("site/a", i, 1.3), kArrival, sink);

@@ -2,12 +2,12 @@
 // and the serialized snapshot of a pipeline (to check that something changed nothing).
 #pragma once
 
+#include <google/protobuf/text_format.h>
+
 #include <cmath>
 #include <initializer_list>
 #include <string>
 #include <vector>
-
-#include <google/protobuf/text_format.h>
 
 #include "daemon/pipeline/channel_name.h"
 #include "daemon/pipeline/daemon_config.h"
@@ -44,7 +44,8 @@ inline bayline::v1::Observation Obs(const std::string& channel, uint64_t seq, do
   o.set_seq(seq);
   o.set_y(y);
   for (double v : x) o.add_x(v);
-  o.set_time_ns(time_ns != 0 ? time_ns : 1'700'000'000'000'000'000 + static_cast<int64_t>(seq) * 1'000'000);
+  o.set_time_ns(time_ns != 0 ? time_ns
+                             : 1'700'000'000'000'000'000 + static_cast<int64_t>(seq) * 1'000'000);
   return o;
 }
 

@@ -1,10 +1,10 @@
 // Unit tests of the shared estimator contracts: Status, Sample checks, forgetting, state codec.
+#include <gtest/gtest.h>
+
+#include <Eigen/Core>
 #include <cmath>
 #include <limits>
 #include <vector>
-
-#include <Eigen/Core>
-#include <gtest/gtest.h>
 
 #include "estimators/core/forgetting.h"
 #include "estimators/core/sample.h"
@@ -27,10 +27,10 @@ TEST(StatusTest, OkHasNoMessageAndErrorNamesItsCode) {
 }
 
 TEST(StatusTest, EveryCodeHasADistinctStableName) {
-  const ErrorCode codes[] = {ErrorCode::kOk,           ErrorCode::kNonFinite,
-                             ErrorCode::kWrongRegressorCount, ErrorCode::kOutOfDomain,
-                             ErrorCode::kInvalidWeight, ErrorCode::kInvalidConfig,
-                             ErrorCode::kInvalidState,  ErrorCode::kNumericalFailure};
+  const ErrorCode codes[] = {
+      ErrorCode::kOk,           ErrorCode::kNonFinite,       ErrorCode::kWrongRegressorCount,
+      ErrorCode::kOutOfDomain,  ErrorCode::kInvalidWeight,   ErrorCode::kInvalidConfig,
+      ErrorCode::kInvalidState, ErrorCode::kNumericalFailure};
   std::vector<std::string_view> names;
   for (ErrorCode c : codes) {
     const std::string_view name = ErrorCodeName(c);

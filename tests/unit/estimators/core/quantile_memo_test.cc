@@ -1,6 +1,8 @@
-// The per-thread quantile memo: it holds exactly what was stored, never answers for an empty slot or
-// another key, and the quantile functions return bit-identical values whatever it holds.
+// The per-thread quantile memo: it holds exactly what was stored, never answers for an empty slot
+// or another key, and the quantile functions return bit-identical values whatever it holds.
 #include "estimators/core/quantile_memo.h"
+
+#include <gtest/gtest.h>
 
 #include <bit>
 #include <cmath>
@@ -8,8 +10,6 @@
 #include <limits>
 #include <thread>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/core/distributions.h"
 
@@ -71,7 +71,8 @@ TEST(QuantileMemoTest, QuantilesDoNotDependOnWhatTheMemoHolds) {
   std::thread b([&] { run(true, &backward); });
   b.join();
   EXPECT_EQ(forward, backward);
-  // Rate scaling is applied after the memo: Gamma(shape, rate) quantile = unit-rate quantile / rate.
+  // Rate scaling is applied after the memo: Gamma(shape, rate) quantile = unit-rate quantile /
+  // rate.
   EXPECT_EQ(GammaQuantile(0.975, 12.5, 4.0), GammaQuantile(0.975, 12.5, 1.0) / 4.0);
 }
 

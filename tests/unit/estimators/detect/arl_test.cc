@@ -1,9 +1,9 @@
 // Internal consistency of the ARL computations (external references live in tests/reference).
 #include "estimators/detect/arl.h"
 
-#include <cmath>
-
 #include <gtest/gtest.h>
+
+#include <cmath>
 
 #include "estimators/core/distributions.h"
 
@@ -43,7 +43,8 @@ TEST(ChartsArlTest, TwoSidedCusumCombinesItsOneSidedChains) {
   o.k = 0.5;
   o.h = 4.5;
   for (double mu : {0.0, 0.3, 1.0}) {
-    const double up = OneSidedCusumArl(o.k, o.h, mu, 0.0), down = OneSidedCusumArl(o.k, o.h, -mu, 0.0);
+    const double up = OneSidedCusumArl(o.k, o.h, mu, 0.0),
+                 down = OneSidedCusumArl(o.k, o.h, -mu, 0.0);
     EXPECT_NEAR(CusumArl(o, mu), 1.0 / (1.0 / up + 1.0 / down), 1e-9 * up);
     o.direction = Direction::kUp;
     EXPECT_DOUBLE_EQ(CusumArl(o, mu), up);
@@ -51,7 +52,8 @@ TEST(ChartsArlTest, TwoSidedCusumCombinesItsOneSidedChains) {
     EXPECT_DOUBLE_EQ(CusumArl(o, -mu), up);
     o.direction = Direction::kBoth;
   }
-  EXPECT_NEAR(CusumArl(o, 0.0), 0.5 * OneSidedCusumArl(o.k, o.h, 0.0, 0.0), 1e-9 * CusumArl(o, 0.0));
+  EXPECT_NEAR(CusumArl(o, 0.0), 0.5 * OneSidedCusumArl(o.k, o.h, 0.0, 0.0),
+              1e-9 * CusumArl(o, 0.0));
 }
 
 TEST(ChartsArlTest, ArlFallsWithShiftAndHeadStartAndExactLimits) {

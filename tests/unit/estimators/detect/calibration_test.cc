@@ -1,9 +1,9 @@
 #include "estimators/detect/calibration.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 namespace bayline::est {
 namespace {

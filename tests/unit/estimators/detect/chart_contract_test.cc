@@ -1,11 +1,11 @@
 // Contract tests every chart shares (alarm.h life cycle, hold-off, non-finite input, directions,
 // capture -> restore -> continue bit-identity), run over CUSUM, EWMA, Page-Hinkley and GLR.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <limits>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/detect/cusum.h"
 #include "estimators/detect/ewma.h"
@@ -21,17 +21,45 @@ using testing::Mark;
 using testing::SameEvent;
 
 // Settings with a short in-control ARL (a few dozen) so alarms are frequent in short streams.
-CusumOptions Frequent(CusumOptions o) { o.k = 0.5; o.h = 2.0; return o; }
-EwmaOptions Frequent(EwmaOptions o) { o.lambda = 0.2; o.L = 2.0; return o; }
-PageHinkleyOptions Frequent(PageHinkleyOptions o) { o.delta = 0.25; o.threshold = 3.0; return o; }
-GlrOptions Frequent(GlrOptions o) { o.window = 20; o.threshold = 2.5; return o; }
+CusumOptions Frequent(CusumOptions o) {
+  o.k = 0.5;
+  o.h = 2.0;
+  return o;
+}
+EwmaOptions Frequent(EwmaOptions o) {
+  o.lambda = 0.2;
+  o.L = 2.0;
+  return o;
+}
+PageHinkleyOptions Frequent(PageHinkleyOptions o) {
+  o.delta = 0.25;
+  o.threshold = 3.0;
+  return o;
+}
+GlrOptions Frequent(GlrOptions o) {
+  o.window = 20;
+  o.threshold = 2.5;
+  return o;
+}
 
 template <typename Chart>
 struct OptionsOf;
-template <> struct OptionsOf<Cusum> { using type = CusumOptions; };
-template <> struct OptionsOf<Ewma> { using type = EwmaOptions; };
-template <> struct OptionsOf<PageHinkley> { using type = PageHinkleyOptions; };
-template <> struct OptionsOf<Glr> { using type = GlrOptions; };
+template <>
+struct OptionsOf<Cusum> {
+  using type = CusumOptions;
+};
+template <>
+struct OptionsOf<Ewma> {
+  using type = EwmaOptions;
+};
+template <>
+struct OptionsOf<PageHinkley> {
+  using type = PageHinkleyOptions;
+};
+template <>
+struct OptionsOf<Glr> {
+  using type = GlrOptions;
+};
 
 template <typename Chart>
 class ChartsContractTest : public ::testing::Test {
@@ -48,7 +76,8 @@ class ChartsContractTest : public ::testing::Test {
     std::mt19937_64 rng(seed);
     std::normal_distribution<double> normal(0.0, 1.0);
     std::vector<double> z(n);
-    for (int i = 0; i < n; ++i) z[i] = normal(rng) + ((i / 150) % 3 == 1 ? 1.5 : (i / 150) % 3 == 2 ? -1.5 : 0.0);
+    for (int i = 0; i < n; ++i)
+      z[i] = normal(rng) + ((i / 150) % 3 == 1 ? 1.5 : (i / 150) % 3 == 2 ? -1.5 : 0.0);
     return z;
   }
 };
@@ -109,7 +138,8 @@ TYPED_TEST(ChartsContractTest, NonFiniteInputChangesNothing) {
   for (int i = 0; i < 800; ++i) {
     if (i % 7 == 0) {
       const DetectorEvent e = a.Update(i % 2 ? std::numeric_limits<double>::quiet_NaN()
-                                             : std::numeric_limits<double>::infinity(), Mark(i));
+                                             : std::numeric_limits<double>::infinity(),
+                                       Mark(i));
       EXPECT_FALSE(e.raised || e.cleared);
     }
     ASSERT_TRUE(SameEvent(a.Update(z[i], Mark(i)), b.Update(z[i], Mark(i)))) << i;

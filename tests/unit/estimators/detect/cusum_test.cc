@@ -1,10 +1,10 @@
 #include "estimators/detect/cusum.h"
 
+#include <gtest/gtest.h>
+
 #include <algorithm>
 #include <cmath>
 #include <random>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/estimators/detect/test_util.h"
 

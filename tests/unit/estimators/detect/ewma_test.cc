@@ -1,9 +1,9 @@
 #include "estimators/detect/ewma.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <random>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/estimators/detect/test_util.h"
 

@@ -1,11 +1,11 @@
 #include "estimators/detect/page_hinkley.h"
 
+#include <gtest/gtest.h>
+
 #include <algorithm>
 #include <cmath>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "tests/unit/estimators/detect/test_util.h"
 

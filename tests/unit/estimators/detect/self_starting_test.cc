@@ -1,11 +1,11 @@
 #include "estimators/detect/self_starting.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <numbers>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/core/distributions.h"
 
@@ -35,7 +35,8 @@ TEST(ChartsSelfStartingTest, ThirdValueMatchesTheCauchyClosedForm) {
     const double sd = std::sqrt(0.5);  // sample sd of {1, 2}
     const double t = (y3 - 1.5) / (sd * std::sqrt(1.5));
     const double p = 0.5 + std::atan(t) / std::numbers::pi;
-    const double expected = t < 0 ? dist::NormalQuantile(p) : -dist::NormalQuantile(std::atan(1 / t) / std::numbers::pi);
+    const double expected = t < 0 ? dist::NormalQuantile(p)
+                                  : -dist::NormalQuantile(std::atan(1 / t) / std::numbers::pi);
     EXPECT_NEAR(z, expected, 1e-9 * (1 + std::fabs(expected))) << y3;
   }
 }
@@ -57,7 +58,8 @@ TEST(ChartsSelfStartingTest, InvariantToLocationAndScale) {
 
 TEST(ChartsSelfStartingTest, ValuesAreStandardNormalAndUncorrelatedAtEveryIndex) {
   // Across 20000 seeded sequences with unknown mean 50 and sd 7, z_n at each n = 3..12 must have
-  // mean 0 and variance 1, and z_3, z_4 no correlation (Hawkins 1987: the values are i.i.d. N(0, 1)).
+  // mean 0 and variance 1, and z_3, z_4 no correlation (Hawkins 1987: the values are i.i.d. N(0,
+  // 1)).
   const int reps = 20000, len = 12;
   std::mt19937_64 rng(2024);
   std::normal_distribution<double> normal(50.0, 7.0);
@@ -79,7 +81,7 @@ TEST(ChartsSelfStartingTest, ValuesAreStandardNormalAndUncorrelatedAtEveryIndex)
   }
   for (int n = 3; n <= len; ++n) {
     const double mean = sum[n] / reps, var = sum2[n] / reps - mean * mean;
-    EXPECT_NEAR(mean, 0.0, 4.0 / std::sqrt(reps)) << n;      // 4 standard errors
+    EXPECT_NEAR(mean, 0.0, 4.0 / std::sqrt(reps)) << n;       // 4 standard errors
     EXPECT_NEAR(var, 1.0, 4.0 * std::sqrt(2.0 / reps)) << n;  // 4 standard errors
   }
   EXPECT_NEAR(cross / reps, 0.0, 4.0 / std::sqrt(reps));
@@ -102,16 +104,22 @@ TEST(ChartsSelfStartingTest, TailsKeepPrecisionAndSymmetry) {
 // 10, 40 at dof >= 20, 30, 50, 100, 200, 1e4, Phi^{-1} of the exact tail elsewhere (from dof 50
 // with one Halley step from Hill's z).
 // Both must agree with the generic NormalQuantile of the same exact tail: on the expansion's side
-// within its bound of 1.6e-11 (tests/reference/core checks it against mpmath), elsewhere to rounding
-// (near z = 0 that is absolute: the tail 1/2 - O(z) holds z only to ~ulp(1/2) / phi(0) = 3e-16).
-// Not beyond dof 1e6: there the incomplete beta behind the generic value is off by up to 1e-10 in z
-// itself (at dof 1e7, t = 1.9), so it is no reference; tests/reference/core checks against mpmath.
+// within its bound of 1.6e-11 (tests/reference/core checks it against mpmath), elsewhere to
+// rounding (near z = 0 that is absolute: the tail 1/2 - O(z) holds z only to ~ulp(1/2) / phi(0) =
+// 3e-16). Not beyond dof 1e6: there the incomplete beta behind the generic value is off by up to
+// 1e-10 in z itself (at dof 1e7, t = 1.9), so it is no reference; tests/reference/core checks
+// against mpmath.
 TEST(ChartsSelfStartingTest, ScoreAgreesWithGenericNormalQuantileOfTheExactTail) {
   for (double dof : {3.0, 20.0, 30.0, 49.0, 50.0, 100.0, 199.0, 200.0, 1e3, 1e4, 3.3e4, 1e5, 1e6}) {
     for (double t : {1e-6, 0.01, 0.3, 1.0, 1.9, 2.9, 4.0, 5.9, 9.0, 10.0, 10.5, 20.0, 37.0}) {
       const double generic = -dist::NormalQuantile(dist::StudentTCdf(-t, dof));
-      const double step = dof >= 1e4 ? 40.0 : dof >= 200.0 ? 10.0 : dof >= 100.0 ? 6.0
-                          : dof >= 50.0 ? 3.0 : dof >= 30.0 ? 2.0 : dof >= 20.0 ? 1.0 : -1.0;
+      const double step = dof >= 1e4     ? 40.0
+                          : dof >= 200.0 ? 10.0
+                          : dof >= 100.0 ? 6.0
+                          : dof >= 50.0  ? 3.0
+                          : dof >= 30.0  ? 2.0
+                          : dof >= 20.0  ? 1.0
+                                         : -1.0;
       const bool expansion = t <= step;
       const double tol = expansion ? 1.6e-11 + 4e-15 * generic : 4e-15 * generic + 4e-16;
       EXPECT_NEAR(dist::StudentTNormalScore(t, dof), generic, tol) << "t " << t << " dof " << dof;

@@ -7,10 +7,10 @@
 #include <vector>
 
 #include "estimators/core/distributions.h"
+#include "estimators/core/t_log_density.h"
 #include "estimators/ls/double_double.h"
 #include "estimators/ls/recursive_least_squares.h"
 #include "estimators/ls/rls.h"
-#include "estimators/core/t_log_density.h"
 #include "tests/unit/estimators/ls/test_util.h"
 
 namespace bayline::est {

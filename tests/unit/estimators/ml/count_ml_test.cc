@@ -1,10 +1,10 @@
 // Poisson, binomial and exponential: closed-form estimators over discounted sums.
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <limits>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ml/binomial_ml.h"
 #include "estimators/ml/exponential_ml.h"
@@ -54,7 +54,8 @@ TEST(PoissonMlTest, RateIsWeightedCountsOverWeightedExposure) {
   const double rate = sy / se;
   EXPECT_TRUE(RelNear(p.rate(), rate, 1e-13));
   double ll = 0;
-  for (const Sample& s : data) ll += s.weight * (s.y * std::log(rate * s.exposure) - rate * s.exposure - LogFactorial(s.y));
+  for (const Sample& s : data)
+    ll += s.weight * (s.y * std::log(rate * s.exposure) - rate * s.exposure - LogFactorial(s.y));
   const ParameterReport r = p.Report();
   ASSERT_TRUE(r.identifiable);
   EXPECT_TRUE(RelNear(r.log_likelihood, ll, 1e-11));
@@ -142,8 +143,8 @@ TEST(BinomialMlTest, ProbabilityIsWeightedSuccessesOverWeightedTrials) {
   EXPECT_TRUE(RelNear(b.probability(), p, 1e-13));
   double ll = 0;
   for (const Sample& s : data) {
-    ll += s.weight * (LogFactorial(s.trials) - LogFactorial(s.y) - LogFactorial(s.trials - s.y) + s.y * std::log(p) +
-                      (s.trials - s.y) * std::log(1 - p));
+    ll += s.weight * (LogFactorial(s.trials) - LogFactorial(s.y) - LogFactorial(s.trials - s.y) +
+                      s.y * std::log(p) + (s.trials - s.y) * std::log(1 - p));
   }
   const ParameterReport r = b.Report();
   ASSERT_TRUE(r.identifiable);
@@ -163,13 +164,14 @@ TEST(BinomialMlTest, BoundaryEstimatesAreNotIdentifiable) {
   ASSERT_TRUE(inn.valid);
   EXPECT_DOUBLE_EQ(inn.prediction, 1.5);
   EXPECT_DOUBLE_EQ(inn.predictive_sd, std::sqrt(4 * 0.375 * 0.625));
-  EXPECT_TRUE(RelNear(inn.log_predictive, std::log(4.0) + std::log(0.375) + 3 * std::log(0.625), 1e-14));
+  EXPECT_TRUE(
+      RelNear(inn.log_predictive, std::log(4.0) + std::log(0.375) + 3 * std::log(0.625), 1e-14));
 }
 
 TEST(BinomialMlTest, RejectsBadInputAndChangesNothing) {
   BinomialMl b;
   ASSERT_TRUE(b.Update(Trials(1, 3)).ok());
-  testing::ExpectRejected(b, Trials(4, 3), ErrorCode::kOutOfDomain);   // successes above trials
+  testing::ExpectRejected(b, Trials(4, 3), ErrorCode::kOutOfDomain);  // successes above trials
   testing::ExpectRejected(b, Trials(-1, 3), ErrorCode::kOutOfDomain);
   testing::ExpectRejected(b, Trials(1.5, 3), ErrorCode::kOutOfDomain);  // non-integer successes
   testing::ExpectRejected(b, Trials(1, 2.5), ErrorCode::kOutOfDomain);  // non-integer trials

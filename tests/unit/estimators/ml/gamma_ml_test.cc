@@ -1,11 +1,11 @@
 #include "estimators/ml/gamma_ml.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <limits>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ml/gamma_shape.h"
 #include "tests/unit/estimators/ml/ml_test_util.h"
@@ -35,7 +35,8 @@ TEST(GammaShapeTest, GAgreesWithAnIndependentDigamma) {
   for (double k : {0.05, 0.5, 1.0, 3.0, 9.99, 10.0, 10.01, 50.0}) {
     EXPECT_NEAR(gamma_shape::G(k), std::log(k) - DigammaByDifference(k), 1e-8 * (1 + 1 / k)) << k;
   }
-  // The large-k series agrees with log k - psi(k) where both are accurate (common practice, no source).
+  // The large-k series agrees with log k - psi(k) where both are accurate (common practice, no
+  // source).
   const double below = std::nextafter(10.0, 0.0);
   EXPECT_TRUE(RelNear(gamma_shape::G(10.0), gamma_shape::G(below), 1e-13));
   EXPECT_TRUE(RelNear(gamma_shape::GPrime(10.0), gamma_shape::GPrime(below), 1e-11));
@@ -74,7 +75,10 @@ TEST(GammaMlTest, ShapeMaximisesTheProfileLikelihood) {
   const double phi = (std::sqrt(5.0) - 1) / 2;
   for (int it = 0; it < 200; ++it) {
     const double c = b - phi * (b - a), d = a + phi * (b - a);
-    if (ProfileLogLik(y, std::exp(c)) > ProfileLogLik(y, std::exp(d))) b = d; else a = c;
+    if (ProfileLogLik(y, std::exp(c)) > ProfileLogLik(y, std::exp(d)))
+      b = d;
+    else
+      a = c;
   }
   const double k_search = std::exp(0.5 * (a + b));
   EXPECT_TRUE(RelNear(g.shape(), k_search, 1e-6));
@@ -88,7 +92,8 @@ TEST(GammaMlTest, ShapeMaximisesTheProfileLikelihood) {
   const double h = 1e-4;
   const double trigamma = (DigammaByDifference(k + h) - DigammaByDifference(k - h)) / (2 * h);
   EXPECT_TRUE(RelNear(r.std_error[0], std::sqrt(k / (n * (k * trigamma - 1))), 1e-4));
-  EXPECT_TRUE(RelNear(r.std_error[1], std::sqrt(trigamma * rate * rate / (n * (k * trigamma - 1))), 1e-4));
+  EXPECT_TRUE(
+      RelNear(r.std_error[1], std::sqrt(trigamma * rate * rate / (n * (k * trigamma - 1))), 1e-4));
 }
 
 TEST(GammaMlTest, ScaleEquivariant) {
@@ -164,7 +169,8 @@ TEST(GammaMlTest, EqualValuesAreNotIdentifiableAndInnovationFollows) {
   ASSERT_TRUE(inn.valid);
   EXPECT_DOUBLE_EQ(inn.prediction, k / r);
   EXPECT_TRUE(RelNear(inn.predictive_sd, std::sqrt(k) / r, 1e-15));
-  EXPECT_TRUE(RelNear(inn.log_predictive, k * std::log(r) + (k - 1) * std::log(4.0) - 4 * r - std::lgamma(k), 1e-12));
+  EXPECT_TRUE(RelNear(inn.log_predictive,
+                      k * std::log(r) + (k - 1) * std::log(4.0) - 4 * r - std::lgamma(k), 1e-12));
 }
 
 TEST(GammaMlTest, RejectsBadInputAndChangesNothing) {

@@ -1,12 +1,12 @@
 #include "estimators/ml/gaussian_ml.h"
 
+#include <gtest/gtest.h>
+
 #include <cmath>
 #include <limits>
 #include <numbers>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ml/lognormal_ml.h"
 #include "tests/unit/estimators/ml/ml_test_util.h"
@@ -51,7 +51,8 @@ TEST(GaussianMlTest, MatchesTwoPassWeightedMomentsFarFromZero) {
   EXPECT_TRUE(RelNear(g.variance_ml(), static_cast<double>(b.m2 / b.w), 1e-12));
   const double n_eff = static_cast<double>(b.w * b.w / b.w2);
   EXPECT_TRUE(RelNear(g.effective_sample_size(), n_eff, 1e-12));
-  EXPECT_TRUE(RelNear(g.variance_unbiased(), static_cast<double>(b.m2 / (b.w - b.w2 / b.w)), 1e-12));
+  EXPECT_TRUE(
+      RelNear(g.variance_unbiased(), static_cast<double>(b.m2 / (b.w - b.w2 / b.w)), 1e-12));
 }
 
 TEST(GaussianMlTest, UnitWeightsGiveTheUsualUnbiasedVariance) {
@@ -76,12 +77,14 @@ TEST(GaussianMlTest, PerObservationForgettingEqualsExplicitDiscounting) {
     ASSERT_TRUE(g.Update(Y(y.back())).ok());
   }
   std::vector<double> a(y.size());
-  for (std::size_t i = 0; i < y.size(); ++i) a[i] = std::pow(0.97, static_cast<double>(y.size() - 1 - i));
+  for (std::size_t i = 0; i < y.size(); ++i)
+    a[i] = std::pow(0.97, static_cast<double>(y.size() - 1 - i));
   const Batch b = TwoPass(y, a);
   EXPECT_TRUE(RelNear(g.mean(), static_cast<double>(b.mean), 1e-13));
   EXPECT_TRUE(RelNear(g.variance_ml(), static_cast<double>(b.m2 / b.w), 1e-11));
   EXPECT_TRUE(RelNear(g.state().weight_sum, static_cast<double>(b.w), 1e-13));
-  EXPECT_TRUE(RelNear(g.variance_unbiased(), static_cast<double>(b.m2 / (b.w - b.w2 / b.w)), 1e-11));
+  EXPECT_TRUE(
+      RelNear(g.variance_unbiased(), static_cast<double>(b.m2 / (b.w - b.w2 / b.w)), 1e-11));
 }
 
 TEST(GaussianMlTest, HalfLifeForgettingDiscountsByElapsedTime) {
@@ -117,7 +120,8 @@ TEST(GaussianMlTest, InnovationUsesTheStateBeforeTheUpdate) {
   EXPECT_DOUBLE_EQ(inn.residual, 6.0 - mean);
   EXPECT_DOUBLE_EQ(inn.predictive_sd, sd);
   EXPECT_DOUBLE_EQ(inn.standardized, (6.0 - mean) / sd);
-  const double log_density = -0.5 * std::log(2 * std::numbers::pi * sd * sd) - 0.5 * std::pow((6.0 - mean) / sd, 2);
+  const double log_density =
+      -0.5 * std::log(2 * std::numbers::pi * sd * sd) - 0.5 * std::pow((6.0 - mean) / sd, 2);
   EXPECT_TRUE(RelNear(inn.log_predictive, log_density, 1e-14));
 }
 
@@ -140,7 +144,8 @@ TEST(GaussianMlTest, ReportGivesFisherStandardErrorsWaldIntervalsAndLogLikelihoo
   EXPECT_TRUE(RelNear(r.value[1] - r.lower[1], z * r.std_error[1], 1e-12));
   EXPECT_EQ(r.effective_n, 300.0);
   double ll = 0;
-  for (double v_i : y) ll += -0.5 * std::log(2 * std::numbers::pi * v) - 0.5 * (v_i - g.mean()) * (v_i - g.mean()) / v;
+  for (double v_i : y)
+    ll += -0.5 * std::log(2 * std::numbers::pi * v) - 0.5 * (v_i - g.mean()) * (v_i - g.mean()) / v;
   EXPECT_TRUE(RelNear(r.log_likelihood, ll, 1e-12));
 }
 
@@ -161,7 +166,8 @@ TEST(GaussianMlTest, RejectsBadInputAndChangesNothing) {
   GaussianMl g;
   ASSERT_TRUE(g.Update(Y(1.0)).ok());
   ASSERT_TRUE(g.Update(Y(2.0)).ok());
-  const double nan = std::numeric_limits<double>::quiet_NaN(), inf = std::numeric_limits<double>::infinity();
+  const double nan = std::numeric_limits<double>::quiet_NaN(),
+               inf = std::numeric_limits<double>::infinity();
   testing::ExpectRejected(g, Y(nan), ErrorCode::kNonFinite);
   testing::ExpectRejected(g, Y(inf), ErrorCode::kNonFinite);
   testing::ExpectRejected(g, Y(1.0, 0.0), ErrorCode::kInvalidWeight);
@@ -245,7 +251,8 @@ TEST(LognormalMlTest, InnovationIsOnTheScaleOfY) {
   ASSERT_TRUE(inn.valid);
   const double ey = std::exp(m + s2 / 2);
   EXPECT_TRUE(RelNear(inn.prediction, ey, 1e-14));
-  EXPECT_TRUE(RelNear(inn.predictive_sd, std::sqrt((std::exp(s2) - 1) * std::exp(2 * m + s2)), 1e-13));
+  EXPECT_TRUE(
+      RelNear(inn.predictive_sd, std::sqrt((std::exp(s2) - 1) * std::exp(2 * m + s2)), 1e-13));
   EXPECT_TRUE(RelNear(inn.standardized, (3.0 - ey) / inn.predictive_sd, 1e-14));
 }
 

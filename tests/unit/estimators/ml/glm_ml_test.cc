@@ -1,13 +1,13 @@
 #include "estimators/ml/glm_ml.h"
 
+#include <gtest/gtest.h>
+
+#include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
 #include <limits>
 #include <random>
 #include <vector>
-
-#include <Eigen/Dense>
-#include <gtest/gtest.h>
 
 #include "tests/unit/estimators/ml/ml_test_util.h"
 
@@ -336,7 +336,8 @@ TEST(GlmMlTest, RejectsBadInputAndChangesNothing) {
   const double row[2] = {1.0, 0.5};
   const double bad_row[2] = {1.0, kNaN};
   const double short_row[1] = {1.0};
-  const auto make = [&](double y, double trials, double exposure, std::span<const double> x, double w = 1.0) {
+  const auto make = [&](double y, double trials, double exposure, std::span<const double> x,
+                        double w = 1.0) {
     Sample s;
     s.y = y;
     s.trials = trials;
@@ -354,15 +355,17 @@ TEST(GlmMlTest, RejectsBadInputAndChangesNothing) {
   ASSERT_TRUE(pois.state().started);
   testing::ExpectRejected(logit, make(1, 1, 1, short_row), ErrorCode::kWrongRegressorCount);
   testing::ExpectRejected(logit, make(1, 1, 1, bad_row), ErrorCode::kNonFinite);
-  testing::ExpectRejected(logit, make(2, 1, 1, row), ErrorCode::kOutOfDomain);    // successes > trials
+  testing::ExpectRejected(logit, make(2, 1, 1, row),
+                          ErrorCode::kOutOfDomain);  // successes > trials
   testing::ExpectRejected(logit, make(-1, 1, 1, row), ErrorCode::kOutOfDomain);
   testing::ExpectRejected(logit, make(0.5, 1, 1, row), ErrorCode::kOutOfDomain);  // non-integer
   testing::ExpectRejected(logit, make(0, 0, 1, row), ErrorCode::kOutOfDomain);    // trials <= 0
-  testing::ExpectRejected(logit, make(1, 2.5, 1, row), ErrorCode::kOutOfDomain);  // non-integer trials
+  testing::ExpectRejected(logit, make(1, 2.5, 1, row),
+                          ErrorCode::kOutOfDomain);  // non-integer trials
   testing::ExpectRejected(logit, make(1, 1, 1, row, 0.0), ErrorCode::kInvalidWeight);
   testing::ExpectRejected(pois, make(-2, 1, 1, row), ErrorCode::kOutOfDomain);
   testing::ExpectRejected(pois, make(2.5, 1, 1, row), ErrorCode::kOutOfDomain);
-  testing::ExpectRejected(pois, make(2, 1, 0.0, row), ErrorCode::kOutOfDomain);   // exposure <= 0
+  testing::ExpectRejected(pois, make(2, 1, 0.0, row), ErrorCode::kOutOfDomain);  // exposure <= 0
   testing::ExpectRejected(pois, make(2, 1, -1.0, row), ErrorCode::kOutOfDomain);
   testing::ExpectRejected(pois, make(kNaN, 1, 1.0, row), ErrorCode::kNonFinite);
   testing::ExpectRejected(pois, make(1, 1, 1, short_row), ErrorCode::kWrongRegressorCount);
@@ -392,14 +395,16 @@ TEST(GlmMlTest, RestoreContinuesBitIdenticallyDuringAndAfterStartUp) {
   o.forgetting.lambda = 0.99;
   const auto make = [&] { return LogisticRegressionMl(o); };
   for (std::size_t cut : {std::size_t{0}, std::size_t{7}, std::size_t{20}, std::size_t{150}}) {
-    std::vector<Sample> first(d.samples.begin(), d.samples.begin() + static_cast<std::ptrdiff_t>(cut));
+    std::vector<Sample> first(d.samples.begin(),
+                              d.samples.begin() + static_cast<std::ptrdiff_t>(cut));
     std::vector<Sample> rest(d.samples.begin() + static_cast<std::ptrdiff_t>(cut), d.samples.end());
     testing::ExpectRoundTripBitIdentical(make, first, rest);
   }
   const Data q = Poisson(100, {0.5, 0.5}, 50);
   GlmMlOptions op;
   op.num_regressors = 2;
-  std::vector<Sample> first(q.samples.begin(), q.samples.begin() + 10), rest(q.samples.begin() + 10, q.samples.end());
+  std::vector<Sample> first(q.samples.begin(), q.samples.begin() + 10),
+      rest(q.samples.begin() + 10, q.samples.end());
   testing::ExpectRoundTripBitIdentical([&] { return PoissonRegressionMl(op); }, first, rest);
 }
 

@@ -1,11 +1,11 @@
 // Helpers shared by the ml unit tests: relative tolerances, packing, and round-trip checks.
 #pragma once
 
+#include <gtest/gtest.h>
+
 #include <algorithm>
 #include <cmath>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/core/report.h"
 #include "estimators/core/sample.h"
@@ -17,8 +17,8 @@ namespace bayline::est::testing {
 inline ::testing::AssertionResult RelNear(double a, double b, double tol) {
   const double scale = std::max({std::fabs(a), std::fabs(b), 1e-300});
   if (std::fabs(a - b) <= tol * scale) return ::testing::AssertionSuccess();
-  return ::testing::AssertionFailure() << a << " vs " << b << " relative difference "
-                                       << std::fabs(a - b) / scale << " > " << tol;
+  return ::testing::AssertionFailure()
+         << a << " vs " << b << " relative difference " << std::fabs(a - b) / scale << " > " << tol;
 }
 
 inline Sample Y(double y, double weight = 1.0) {
@@ -39,7 +39,8 @@ std::vector<double> Packed(const State& st) {
 // Equal bit for bit (NaN == NaN).
 inline bool SameBits(double a, double b) { return (std::isnan(a) && std::isnan(b)) || a == b; }
 inline bool SameBits(const std::vector<double>& a, const std::vector<double>& b) {
-  return a.size() == b.size() && std::equal(a.begin(), a.end(), b.begin(), [](double u, double v) { return SameBits(u, v); });
+  return a.size() == b.size() && std::equal(a.begin(), a.end(), b.begin(),
+                                            [](double u, double v) { return SameBits(u, v); });
 }
 inline void ExpectSameReport(const ParameterReport& a, const ParameterReport& b) {
   ASSERT_EQ(a.value.size(), b.value.size());

@@ -1,11 +1,11 @@
 // The update path allocates nothing (DEVELOPERS.md): every malloc in this test binary is counted by
 // interposing glibc's malloc family (the executable's definitions take precedence over libc's),
 // and the count must not move across a run of updates with innovations.
+#include <gtest/gtest.h>
+
 #include <cstddef>
 #include <random>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "estimators/ml/binomial_ml.h"
 #include "estimators/ml/exponential_ml.h"
