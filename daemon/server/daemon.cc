@@ -277,7 +277,7 @@ bool Daemon::ReplayJournal(uint64_t covered, std::string* error) {
   return true;
 }
 
-bool Daemon::CutAndWriteSnapshot(bayline::v1::SnapshotInfo* info, std::string* error) {
+bool Daemon::CutAndWriteSnapshot(bool prompt, bayline::v1::SnapshotInfo* info, std::string* error) {
   // The cut: every frame before it is in the capture and in journal segments below `covered`.
   SnapshotCapture capture;
   bool rotated = true;
@@ -287,7 +287,9 @@ bool Daemon::CutAndWriteSnapshot(bayline::v1::SnapshotInfo* info, std::string* e
       if (!rotated) return;
       journal_next_segment_ = journal_->segment();
     }
-    capture = PostSnapshotCapture(workers_);
+    // Without a journal nothing depends on the cut, and a prompt capture keeps `snapshot` answered
+    // under load; with one, the capture must hold exactly the frames before the new segment.
+    capture = PostSnapshotCapture(workers_, /*urgent=*/prompt && journal_ == nullptr);
   });
   const uint64_t covered = journal_next_segment_;
   if (!rotated ||
@@ -303,7 +305,7 @@ bool Daemon::CutAndWriteSnapshot(bayline::v1::SnapshotInfo* info, std::string* e
 
 bool Daemon::SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) {
   next_snapshot_ = std::chrono::steady_clock::now() + snapshot_period_;
-  if (!CutAndWriteSnapshot(info, error)) {
+  if (!CutAndWriteSnapshot(/*prompt=*/true, info, error)) {
     spdlog::error("snapshot failed: {}", *error);
     return false;
   }
@@ -366,7 +368,7 @@ bool Daemon::Shutdown() {
   bayline::v1::SnapshotInfo info;
   std::string error;
   // Queued behind every batch: the workers drain first.
-  const bool saved = CutAndWriteSnapshot(&info, &error);
+  const bool saved = CutAndWriteSnapshot(/*prompt=*/false, &info, &error);
   for (auto& w : workers_) w->Stop();  // each sends its last publications before it ends
   if (!saved) {
     spdlog::error(

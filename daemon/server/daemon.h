@@ -62,8 +62,9 @@ class Daemon : public DaemonActions {
   // on.
   bool ReplayJournal(uint64_t covered, std::string* error);
   // Takes a snapshot at an ingest frame boundary (rotating the journal there) and writes it;
-  // removes the journal segments it covers. Logs nothing but journal clean-up failures.
-  bool CutAndWriteSnapshot(bayline::v1::SnapshotInfo* info, std::string* error);
+  // removes the journal segments it covers. `prompt` without a journal: the workers copy their
+  // channels before their queued batches (persistence.h). Logs only journal clean-up failures.
+  bool CutAndWriteSnapshot(bool prompt, bayline::v1::SnapshotInfo* info, std::string* error);
 
   DaemonOptions options_;
   SignalWatcher signals_;  // first member: blocks signals before any thread exists

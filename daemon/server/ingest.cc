@@ -158,8 +158,12 @@ void Ingest::Run() {
       more = false;
       for (size_t i = 0; i < sockets_.size(); ++i) {
         int n = 0;
-        while (n < 256 && HandleMessage(sockets_[i])) ++n;
-        if (n == 256) more = true;
+        // A pending boundary task (a snapshot) ends the burst: each frame may wait for a worker.
+        while (n < 256 && !boundary_requested_.load(std::memory_order_relaxed) &&
+               HandleMessage(sockets_[i])) {
+          ++n;
+        }
+        if (n == 256 || boundary_requested_.load(std::memory_order_relaxed)) more = true;
       }
     }
     FlushAll();  // nothing more is waiting: hand over partial batches now

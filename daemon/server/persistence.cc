@@ -31,16 +31,22 @@ std::vector<std::unique_ptr<pipeline::Pipeline>> MakeWorkerPipelines(
   return pipelines;
 }
 
-SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers) {
+SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers,
+                                    bool urgent) {
   SnapshotCapture capture;
   for (const auto& worker : workers) {
     auto task = std::make_shared<std::promise<bayline::v1::Snapshot>>();
     capture.push_back(task->get_future());
-    worker->Post([task](pipeline::Pipeline& p) {
+    auto capture_task = [task](pipeline::Pipeline& p) {
       bayline::v1::Snapshot s;
       p.SaveChannels(&s);
       task->set_value(std::move(s));
-    });
+    };
+    if (urgent) {
+      worker->PostUrgent(std::move(capture_task));
+    } else {
+      worker->Post(std::move(capture_task));
+    }
   }
   return capture;
 }

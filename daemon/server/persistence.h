@@ -30,11 +30,13 @@ namespace bayline::server {
 
 // Writing a snapshot, in two halves, at a consistent cut (Ingest::RunAtFrameBoundary):
 // PostSnapshotCapture queues, on every worker, a task that copies its channels as they are once
-// everything queued before it is processed, and returns without waiting; WriteCapturedSnapshot
+// everything queued before it is processed (or, `urgent`, once the batch in progress is: prompt
+// under load, but not a cut across workers), and returns without waiting; WriteCapturedSnapshot
 // waits for the copies and writes one file recording `journal_segment` (the first journal
 // segment the snapshot does not cover; 0 without a journal).
 using SnapshotCapture = std::vector<std::future<bayline::v1::Snapshot>>;
-SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers);
+SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers,
+                                    bool urgent);
 bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,
                            const bayline::v1::DaemonConfig& config, uint64_t journal_segment,
                            bayline::v1::SnapshotInfo* info, std::string* error);

@@ -57,6 +57,12 @@ void Worker::Post(Task task) {
   queue_.Push(std::move(item));
 }
 
+void Worker::PostUrgent(Task task) {
+  Item item;
+  item.task = std::move(task);
+  queue_.PushUrgent(std::move(item));
+}
+
 void Worker::Drain() {
   std::promise<void> done;
   std::future<void> drained = done.get_future();

@@ -97,6 +97,9 @@ class Worker {
 
   // Runs `task` on the worker thread after everything queued before it; does not wait.
   void Post(Task task);
+  // Runs `task` on the worker thread before the queued batches (after the one in progress); does
+  // not wait.
+  void PostUrgent(Task task);
   // Waits until everything queued before it has been processed.
   void Drain();
 

@@ -23,6 +23,8 @@ SLOW_RULE = ('rules { name: "slow" match: "slow/**" spec { model: "gaussian" est
 
 def start_with(daemons, tmp_path, config, extra_args=()):
     path = tmp_path / "bounds.conf"
+    if "rules {" not in config:  # a file that sets no rules says it means the default rule
+        config = "use_default_rules: true\n" + config
     path.write_text(config)
     return daemons(extra_args=["--config", str(path), *extra_args]).start()
 
