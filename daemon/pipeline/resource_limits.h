@@ -25,7 +25,7 @@ inline constexpr uint32_t kDefaultMaxFrameBytes = uint32_t(1) << 20;
 inline constexpr uint32_t kDefaultIngestMessageBytes = uint32_t(4) << 20;
 inline constexpr uint32_t kDefaultControlMessageBytes = uint32_t(1) << 20;
 inline constexpr uint32_t kMinControlMessageBytes = uint32_t(16) << 10;
-inline constexpr uint64_t kDefaultIngestQueueBytes = uint64_t(256) << 20;
+
 inline constexpr uint64_t kDefaultMaxQueuedBytes = uint64_t(64) << 20;
 inline constexpr int kMaxIngestReceiveMessages = 100000;
 
@@ -43,10 +43,15 @@ inline ResourceLimits EffectiveResourceLimits(const bayline::v1::Limits& limits,
   r.ingest_message_bytes = limits.max_ingest_message_bytes() > 0
                                ? limits.max_ingest_message_bytes()
                                : std::max(kDefaultIngestMessageBytes, frame);
-  const uint64_t queue =
-      limits.ingest_queue_bytes() > 0 ? limits.ingest_queue_bytes() : kDefaultIngestQueueBytes;
+  // Unset: a receive queue of kMaxIngestReceiveMessages messages. A queue of a few messages costs
+  // frames: when a producer disconnects while ZeroMQ has stopped reading its connection (queue
+  // full), what is still in the kernel's socket buffer is dropped with the connection, so a byte
+  // bound is the operator's explicit choice.
   r.ingest_receive_messages =
-      int(std::clamp<uint64_t>(queue / r.ingest_message_bytes, 1, kMaxIngestReceiveMessages));
+      limits.ingest_queue_bytes() > 0
+          ? int(std::clamp<uint64_t>(limits.ingest_queue_bytes() / r.ingest_message_bytes, 1,
+                                     kMaxIngestReceiveMessages))
+          : kMaxIngestReceiveMessages;
   r.control_message_bytes = limits.max_control_message_bytes() > 0
                                 ? limits.max_control_message_bytes()
                                 : kDefaultControlMessageBytes;

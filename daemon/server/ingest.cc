@@ -168,6 +168,12 @@ void Ingest::Run() {
     }
     FlushAll();  // nothing more is waiting: hand over partial batches now
     RunBoundaryTask();
+    // ZMQ_FD only says that the socket's state may have changed: before sleeping, ask each socket
+    // (ZMQ_EVENTS, which also processes its pending commands) whether a message came meanwhile,
+    // e.g. from a producer that the receive high-water mark had held back.
+    bool readable = false;
+    for (auto& s : sockets_) readable = readable || (s.get(zmq::sockopt::events) & ZMQ_POLLIN);
+    if (readable) continue;
     // The interval policy's timer: wake up to sync what is written but not yet synced.
     int timeout_ms = -1;
     if (journal_ != nullptr && journal_->sync_deadline_ns() >= 0) {
