@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "bayline/v1/observation.pb.h"
+#include "daemon/pipeline/channel_name.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/control_service.h"
 #include "daemon/server/ingest.h"
