@@ -14,6 +14,7 @@ FORMAT_FILES  = $(shell find estimators daemon clients tests -type f \( -name '*
 DEB_PACKAGES := cmake ninja-build g++ make pkg-config \
   libeigen3-dev libzmq3-dev cppzmq-dev protobuf-compiler libprotobuf-dev \
   libspdlog-dev libcli11-dev libgtest-dev libgmock-dev libbenchmark-dev clang-format \
+  clang libclang-rt-14-dev \
   python3 python3-zmq python3-protobuf python3-matplotlib python3-numpy \
   python3-scipy python3-statsmodels python3-mpmath python3-pytest r-base-core r-cran-spc
 
@@ -77,9 +78,8 @@ FUZZ_SECONDS ?= 600
 FUZZ_TARGETS := fuzz_ingest_frame fuzz_control_request fuzz_config_text fuzz_snapshot_restore \
   fuzz_cli_csv fuzz_cli_jsonl
 
+# clang and its sanitizer/libFuzzer runtimes (libclang-rt-14-dev) come with `make deps`.
 fuzz-build: deps
-	@command -v clang++ >/dev/null || { $(SUDO) apt-get update -qq && \
-	  DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq --no-install-recommends clang >/dev/null; }
 	@cmake -S . -B $(FUZZ_BUILD) -G Ninja -DCMAKE_BUILD_TYPE=FuzzO1 -DCMAKE_CXX_FLAGS_FUZZO1=-O1 \
 	  -DCMAKE_CXX_COMPILER=clang++ -DBAYLINE_FUZZ=ON -DBAYLINE_BUILD_TESTS=OFF \
 	  -DBAYLINE_BUILD_BENCH=OFF >/dev/null
