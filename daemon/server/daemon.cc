@@ -267,6 +267,11 @@ bool Daemon::ReplayJournal(uint64_t covered, std::string* error) {
     }
   }
   ingest_->FlushReplayed();
+  // Recovery ends before `ready`: a control request (which overtakes queued batches) then sees
+  // every replayed frame applied.
+  if (frames > 0) {
+    for (auto& worker : workers_) worker->Drain();
+  }
   if (!segments.empty()) {
     spdlog::info("journal: replayed {} frames from {} segments after the snapshot", frames,
                  std::count_if(segments.begin(), segments.end(),
