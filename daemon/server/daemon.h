@@ -7,8 +7,9 @@
 // a thread starts) -> threads started -> "ready" log line with every resolved endpoint.
 // With a journal (journal.h), the segments the restored snapshot does not cover are replayed
 // through the ingest path after the workers start and before ingest does, and applied before the
-// "ready" line; replayed frames publish again. Snapshots are taken at a frame boundary of the ingest thread, which also starts the next
-// journal segment there, so a snapshot holds exactly the segments before it.
+// "ready" line; replayed frames publish again. Snapshots are taken at a frame boundary of the
+// ingest thread, which also starts the next journal segment there, so a snapshot holds exactly
+// the segments before it.
 // Stop (SIGTERM / SIGINT): ingest stops and hands over what it holds, the workers drain their
 // queues and send their last publications, a snapshot is written, the threads end, the PUB socket
 // lingers (up to 1 s) until connected subscribers have them, exit 0 (kExitFinalSnapshotFailed when
