@@ -25,6 +25,7 @@
 #include "estimators/core/status.h"
 #include "estimators/detect/alarm.h"
 #include "estimators/detect/chart_cycle.h"
+#include "estimators/detect/two_sided_excursion.h"
 
 namespace bayline::est {
 
@@ -42,13 +43,8 @@ struct CusumOptions {
 
 class Cusum {
  public:
-  struct State {
-    double upper = 0, lower = 0;              // C+ and C-
-    double upper_count = 0, lower_count = 0;  // N+, N-: observations in the current excursion
-    std::int64_t upper_onset_seq = -1, lower_onset_seq = -1;
-    double upper_onset_time = kNaN, lower_onset_time = kNaN;
-    AlarmCycle cycle;
-
+  // C+ = upper, C- = lower, with their excursions and the alarm cycle.
+  struct State : TwoSidedExcursions {
     void Pack(StateWriter& w) const;
     // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
     // refuse trailing values). kInvalidState on a short input or impossible values; *this may then
@@ -79,7 +75,6 @@ class Cusum {
   // Update without the invariant check (the chart's recursion).
   DetectorEvent Step(double z, const ObservationMark& mark);
   void Restart();
-  double Statistic() const;
 
   CusumOptions options_;
   State state_;

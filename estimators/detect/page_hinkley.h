@@ -24,6 +24,7 @@
 #include "estimators/core/status.h"
 #include "estimators/detect/alarm.h"
 #include "estimators/detect/chart_cycle.h"
+#include "estimators/detect/two_sided_excursion.h"
 
 namespace bayline::est {
 
@@ -39,14 +40,10 @@ struct PageHinkleyOptions {
 
 class PageHinkley {
  public:
-  struct State {
-    double count = 0;                         // n, observations since the restart
-    double mean = 0;                          // zbar_n
-    double upper = 0, lower = 0;              // PH+ and PH-
-    double upper_count = 0, lower_count = 0;  // excursion lengths
-    std::int64_t upper_onset_seq = -1, lower_onset_seq = -1;
-    double upper_onset_time = kNaN, lower_onset_time = kNaN;
-    AlarmCycle cycle;
+  // PH+ = upper, PH- = lower, with their excursions and the alarm cycle.
+  struct State : TwoSidedExcursions {
+    double count = 0;  // n, observations since the restart
+    double mean = 0;   // zbar_n
 
     void Pack(StateWriter& w) const;
     // Reads exactly its own values (a caller owning the whole buffer then checks r.status() to
