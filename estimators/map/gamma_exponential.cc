@@ -26,12 +26,9 @@ Status GammaExponential::Update(const Sample& s, Innovation* out) {
   if (Status st = CheckCommonFields(s, 0); !st.ok()) return st;
   if (!(s.y > 0)) return map_internal::Domain("y must be > 0, got " + std::to_string(s.y));
   const double y = s.y;
-  const double delta = ForgettingFactor(options_.discount, s.time, state_.last_time);
-  double a = state_.a, b = state_.b;
-  if (delta < 1.0) {
-    a = delta * a + (1.0 - delta) * options_.a0;
-    b = delta * b + (1.0 - delta) * options_.b0;
-  }
+  const GammaRatePrior prior =
+      DiscountedGammaRate(state_, options_.discount, options_.a0, options_.b0, s.time);
+  const double a = prior.a, b = prior.b;
   // Lomax(a, b): log S(y) = -a log1p(y / b); density a / b (1 + y / b)^-(a+1).
   const double l1p = std::log1p(y / b);
   const double log_sf = -a * l1p;
@@ -44,21 +41,7 @@ Status GammaExponential::Update(const Sample& s, Innovation* out) {
   inn.standardized = map_internal::NormalScoreFromTails(cdf, sf);
   inn.log_predictive = s.weight * (std::log(a) - std::log(b) - (a + 1) * l1p);
 
-  const double a_new = a + s.weight, b_new = b + s.weight * y;
-  if (!std::isfinite(inn.log_predictive) || !std::isfinite(inn.standardized) ||
-      !std::isfinite(a_new) || !std::isfinite(b_new)) {
-    return map_internal::Numerical("gamma-exponential update not finite");
-  }
-  State next = state_;
-  next.a = a_new, next.b = b_new;
-  next.effective_n = delta * state_.effective_n + s.weight;
-  next.log_marginal += inn.log_predictive;
-  next.count += 1;
-  next.last_time = map_internal::LatestTime(state_.last_time, s.time);
-  if (Status v = ValidateGammaRateState(next); !v.ok()) return map_internal::InvalidNext(v);
-  state_ = next;
-  if (out) *out = inn;
-  return Status::Ok();
+  return AdvanceGammaRate(prior, 1.0, y, s, inn, "gamma-exponential", &state_, out);
 }
 
 ParameterReport GammaExponential::Report(double level) const {

@@ -30,12 +30,9 @@ Status GammaPoisson::Update(const Sample& s, Innovation* out) {
     return map_internal::Domain("exposure must be > 0, got " + std::to_string(s.exposure));
   }
   const double y = std::round(s.y), e = s.exposure;
-  const double delta = ForgettingFactor(options_.discount, s.time, state_.last_time);
-  double a = state_.a, b = state_.b;
-  if (delta < 1.0) {
-    a = delta * a + (1.0 - delta) * options_.a0;
-    b = delta * b + (1.0 - delta) * options_.b0;
-  }
+  const GammaRatePrior prior =
+      DiscountedGammaRate(state_, options_.discount, options_.a0, options_.b0, s.time);
+  const double a = prior.a, b = prior.b;
   // Negative binomial: log P(y) = lgamma(a+y) - lgamma(a) - lgamma(y+1)
   //                               + a log(b/(b+e)) + y log(e/(b+e)).
   const double log_p = special::LogGamma(a + y) - special::LogGamma(a) - special::LogGamma(y + 1) -
@@ -48,22 +45,7 @@ Status GammaPoisson::Update(const Sample& s, Innovation* out) {
   inn.predictive_sd = std::sqrt(var);
   inn.standardized = inn.residual / inn.predictive_sd;
   inn.log_predictive = s.weight * log_p;
-
-  const double a_new = a + s.weight * y, b_new = b + s.weight * e;
-  if (!std::isfinite(inn.log_predictive) || !std::isfinite(inn.standardized) ||
-      !std::isfinite(a_new) || !std::isfinite(b_new)) {
-    return map_internal::Numerical("gamma-poisson update not finite");
-  }
-  State next = state_;
-  next.a = a_new, next.b = b_new;
-  next.effective_n = delta * state_.effective_n + s.weight;
-  next.log_marginal += inn.log_predictive;
-  next.count += 1;
-  next.last_time = map_internal::LatestTime(state_.last_time, s.time);
-  if (Status v = ValidateGammaRateState(next); !v.ok()) return map_internal::InvalidNext(v);
-  state_ = next;
-  if (out) *out = inn;
-  return Status::Ok();
+  return AdvanceGammaRate(prior, y, e, s, inn, "gamma-poisson", &state_, out);
 }
 
 ParameterReport GammaPoisson::Report(double level) const { return GammaRateReport(state_, level); }

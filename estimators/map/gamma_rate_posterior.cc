@@ -1,6 +1,7 @@
 #include "estimators/map/gamma_rate_posterior.h"
 
 #include <cmath>
+#include <string>
 
 #include "estimators/core/distributions.h"
 #include "estimators/map/posterior_util.h"
@@ -36,6 +37,36 @@ Status ValidateGammaRateState(const GammaRateState& s) {
     return map_internal::BadState("gamma parameters must be > 0 and finite");
   }
   return map_internal::CheckBookkeeping(s.effective_n, s.log_marginal, s.count, s.last_time);
+}
+
+GammaRatePrior DiscountedGammaRate(const GammaRateState& s, const ForgettingOptions& discount,
+                                   double a0, double b0, double time) {
+  GammaRatePrior p{s.a, s.b, ForgettingFactor(discount, time, s.last_time)};
+  if (p.delta < 1.0) {
+    p.a = p.delta * p.a + (1.0 - p.delta) * a0;
+    p.b = p.delta * p.b + (1.0 - p.delta) * b0;
+  }
+  return p;
+}
+
+Status AdvanceGammaRate(const GammaRatePrior& prior, double da, double db, const Sample& s,
+                        const Innovation& inn, const char* model, GammaRateState* state,
+                        Innovation* out) {
+  const double a_new = prior.a + s.weight * da, b_new = prior.b + s.weight * db;
+  if (!std::isfinite(inn.log_predictive) || !std::isfinite(inn.standardized) ||
+      !std::isfinite(a_new) || !std::isfinite(b_new)) {
+    return map_internal::Numerical(std::string(model) + " update not finite");
+  }
+  GammaRateState next = *state;
+  next.a = a_new, next.b = b_new;
+  next.effective_n = prior.delta * state->effective_n + s.weight;
+  next.log_marginal += inn.log_predictive;
+  next.count += 1;
+  next.last_time = map_internal::LatestTime(state->last_time, s.time);
+  if (Status v = ValidateGammaRateState(next); !v.ok()) return map_internal::InvalidNext(v);
+  *state = next;
+  if (out) *out = inn;
+  return Status::Ok();
 }
 
 }  // namespace bayline::est
