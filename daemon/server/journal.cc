@@ -9,6 +9,7 @@
 #include <cstring>
 #include <system_error>
 
+#include "daemon/server/binary_file.h"
 #include "daemon/server/crc32.h"
 
 namespace bayline::server {
@@ -19,27 +20,6 @@ constexpr std::string_view kPrefix = "journal-";
 constexpr std::string_view kSuffix = ".blj";
 // A record longer than this is damage, not a frame (the ingest socket's limits are far smaller).
 constexpr uint32_t kMaxRecordPayload = uint32_t(1) << 30;
-
-void PutU32(std::string& out, uint32_t v) {
-  for (int i = 0; i < 4; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
-}
-void PutU64(std::string& out, uint64_t v) {
-  for (int i = 0; i < 8; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
-}
-uint32_t GetU32(const unsigned char* p) {
-  uint32_t v = 0;
-  for (int i = 0; i < 4; ++i) v |= uint32_t(p[i]) << (8 * i);
-  return v;
-}
-uint64_t GetU64(const unsigned char* p) {
-  uint64_t v = 0;
-  for (int i = 0; i < 8; ++i) v |= uint64_t(p[i]) << (8 * i);
-  return v;
-}
-
-std::string ErrnoText(std::string_view step, const std::filesystem::path& path) {
-  return std::string(step) + " " + path.string() + ": " + std::strerror(errno);
-}
 
 // Segment number of a journal file name; false when the name is not one of ours.
 bool SegmentOf(const std::string& name, uint64_t* segment) {
@@ -56,31 +36,6 @@ bool SegmentOf(const std::string& name, uint64_t* segment) {
   }
   *segment = s;
   return true;
-}
-
-bool WriteAll(int fd, const char* data, size_t size) {
-  while (size > 0) {
-    const ssize_t n = ::write(fd, data, size);
-    if (n < 0) {
-      if (errno == EINTR) continue;
-      return false;
-    }
-    data += n;
-    size -= size_t(n);
-  }
-  return true;
-}
-
-bool FsyncDirectory(const std::filesystem::path& dir, std::string* error) {
-  const int fd = ::open(dir.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
-  if (fd < 0) {
-    *error = ErrnoText("open directory", dir);
-    return false;
-  }
-  const bool ok = ::fsync(fd) == 0;
-  if (!ok) *error = ErrnoText("fsync directory", dir);
-  ::close(fd);
-  return ok;
 }
 
 }  // namespace
@@ -122,38 +77,21 @@ bool ReadJournalSegment(const std::filesystem::path& path, uint64_t segment,
                         const std::function<void(int64_t, std::string_view)>& on_record,
                         JournalReadResult* result, std::string* error) {
   *result = JournalReadResult{};
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC | O_NOFOLLOW);
-  if (fd < 0) {
-    *error = ErrnoText("open", path);
-    return false;
-  }
   std::string bytes;
-  char buffer[1 << 16];
-  for (;;) {
-    const ssize_t n = ::read(fd, buffer, sizeof buffer);
-    if (n < 0 && errno == EINTR) continue;
-    if (n < 0) {
-      *error = ErrnoText("read", path);
-      ::close(fd);
-      return false;
-    }
-    if (n == 0) break;
-    bytes.append(buffer, size_t(n));
-  }
-  ::close(fd);
-
-  const auto* data = reinterpret_cast<const unsigned char*>(bytes.data());
-  if (bytes.size() < kJournalHeaderBytes || std::memcmp(data, kMagic, 8) != 0) {
+  if (!ReadRegularFile(path, &bytes, error)) return false;
+  if (bytes.size() < kJournalHeaderBytes || std::memcmp(bytes.data(), kMagic, 8) != 0) {
     *error = path.string() + ": not a journal segment (bad magic or short header)";
     return false;
   }
-  if (GetU32(data + 8) != kJournalFormatVersion) {
-    *error = path.string() + ": journal format version " + std::to_string(GetU32(data + 8)) +
-             " is not " + std::to_string(kJournalFormatVersion);
+  if (GetLittleEndian32(bytes, 8) != kJournalFormatVersion) {
+    *error = path.string() + ": journal format version " +
+             std::to_string(GetLittleEndian32(bytes, 8)) + " is not " +
+             std::to_string(kJournalFormatVersion);
     return false;
   }
-  if (GetU64(data + 16) != segment) {
-    *error = path.string() + ": header names segment " + std::to_string(GetU64(data + 16));
+  if (GetLittleEndian64(bytes, 16) != segment) {
+    *error =
+        path.string() + ": header names segment " + std::to_string(GetLittleEndian64(bytes, 16));
     return false;
   }
   size_t at = kJournalHeaderBytes;
@@ -163,8 +101,8 @@ bool ReadJournalSegment(const std::filesystem::path& path, uint64_t segment,
       result->tail_reason = "incomplete record header at byte " + std::to_string(at);
       break;
     }
-    const uint32_t length = GetU32(data + at);
-    const uint32_t crc = GetU32(data + at + 4);
+    const uint32_t length = GetLittleEndian32(bytes, at);
+    const uint32_t crc = GetLittleEndian32(bytes, at + 4);
     if (length > kMaxRecordPayload || bytes.size() - at - kJournalRecordHeaderBytes < length) {
       result->torn_tail = true;
       result->tail_reason = "incomplete record at byte " + std::to_string(at);
@@ -176,7 +114,7 @@ bool ReadJournalSegment(const std::filesystem::path& path, uint64_t segment,
       result->tail_reason = "checksum mismatch at byte " + std::to_string(at);
       break;
     }
-    const auto arrival_ns = static_cast<int64_t>(GetU64(data + at + 8));
+    const auto arrival_ns = static_cast<int64_t>(GetLittleEndian64(bytes, at + 8));
     on_record(arrival_ns, covered.substr(8));
     ++result->records;
     at += kJournalRecordHeaderBytes + length;
@@ -206,9 +144,9 @@ bool JournalWriter::StartSegment(uint64_t segment, std::string* error) {
     return false;
   }
   std::string header(kMagic, 8);
-  PutU32(header, kJournalFormatVersion);
-  PutU32(header, 0);
-  PutU64(header, segment);
+  PutLittleEndian32(header, kJournalFormatVersion);
+  PutLittleEndian32(header, 0);
+  PutLittleEndian64(header, segment);
   if (!WriteAll(fd, header.data(), header.size()) || ::fdatasync(fd) != 0) {
     *error = ErrnoText("write header of", path);
     ::close(fd);
@@ -244,9 +182,9 @@ bool JournalWriter::Append(int64_t arrival_ns, std::string_view frame, int64_t n
     return false;
   }
   record_.clear();
-  PutU32(record_, uint32_t(frame.size()));
-  PutU32(record_, 0);  // checksum, filled below
-  PutU64(record_, static_cast<uint64_t>(arrival_ns));
+  PutLittleEndian32(record_, uint32_t(frame.size()));
+  PutLittleEndian32(record_, 0);  // checksum, filled below
+  PutLittleEndian64(record_, static_cast<uint64_t>(arrival_ns));
   record_.append(frame);
   const uint32_t crc = Crc32(std::string_view(record_).substr(8));
   for (int i = 0; i < 4; ++i) record_[4 + i] = static_cast<char>((crc >> (8 * i)) & 0xFFu);

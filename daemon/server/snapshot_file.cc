@@ -10,6 +10,7 @@
 #include <ctime>
 #include <system_error>
 
+#include "daemon/server/binary_file.h"
 #include "daemon/server/crc32.h"
 
 namespace bayline::server {
@@ -19,27 +20,6 @@ constexpr char kMagic[8] = {'B', 'A', 'Y', 'L', 'S', 'N', 'A', 'P'};
 constexpr std::string_view kPrefix = "snapshot-";
 constexpr std::string_view kSuffix = ".bls";
 constexpr std::string_view kTempSuffix = ".tmp";
-
-void PutU32(std::string& out, uint32_t v) {
-  for (int i = 0; i < 4; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
-}
-void PutU64(std::string& out, uint64_t v) {
-  for (int i = 0; i < 8; ++i) out.push_back(static_cast<char>((v >> (8 * i)) & 0xFFu));
-}
-uint32_t GetU32(std::string_view in, size_t at) {
-  uint32_t v = 0;
-  for (int i = 0; i < 4; ++i) v |= uint32_t(static_cast<unsigned char>(in[at + i])) << (8 * i);
-  return v;
-}
-uint64_t GetU64(std::string_view in, size_t at) {
-  uint64_t v = 0;
-  for (int i = 0; i < 8; ++i) v |= uint64_t(static_cast<unsigned char>(in[at + i])) << (8 * i);
-  return v;
-}
-
-std::string ErrnoText(std::string_view step, const std::filesystem::path& path) {
-  return std::string(step) + " " + path.string() + ": " + std::strerror(errno);
-}
 
 bool LooksLikeSnapshotName(const std::string& name) {
   return name.size() > kPrefix.size() + kSuffix.size() && name.starts_with(kPrefix) &&
@@ -62,30 +42,18 @@ uint64_t GenerationOf(const std::string& name) {
   return g;
 }
 
-bool FsyncDirectory(const std::filesystem::path& dir, std::string* error) {
-  int fd = ::open(dir.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
-  if (fd < 0) {
-    *error = ErrnoText("open directory", dir);
-    return false;
-  }
-  bool ok = ::fsync(fd) == 0;
-  if (!ok) *error = ErrnoText("fsync directory", dir);
-  ::close(fd);
-  return ok;
-}
-
 }  // namespace
 
 std::string EncodeSnapshotFile(std::string_view payload, uint64_t config_digest) {
   std::string out;
   out.reserve(kSnapshotHeaderBytes + payload.size());
   out.append(kMagic, sizeof kMagic);
-  PutU32(out, kSnapshotFormatVersion);
-  PutU32(out, Crc32(payload));
-  PutU64(out, payload.size());
-  PutU64(out, config_digest);
-  PutU32(out, Crc32(std::string_view(out.data(), 32)));
-  PutU32(out, 0);
+  PutLittleEndian32(out, kSnapshotFormatVersion);
+  PutLittleEndian32(out, Crc32(payload));
+  PutLittleEndian64(out, payload.size());
+  PutLittleEndian64(out, config_digest);
+  PutLittleEndian32(out, Crc32(std::string_view(out.data(), 32)));
+  PutLittleEndian32(out, 0);
   out.append(payload);
   return out;
 }
@@ -99,16 +67,16 @@ bool DecodeSnapshotFile(std::string_view bytes, SnapshotFileContents* out, std::
     *error = "not a snapshot file (bad magic)";
     return false;
   }
-  if (GetU32(bytes, 32) != Crc32(bytes.substr(0, 32))) {
+  if (GetLittleEndian32(bytes, 32) != Crc32(bytes.substr(0, 32))) {
     *error = "header checksum mismatch";
     return false;
   }
-  const uint32_t version = GetU32(bytes, 8);
+  const uint32_t version = GetLittleEndian32(bytes, 8);
   if (version != kSnapshotFormatVersion) {
     *error = "unsupported format version " + std::to_string(version);
     return false;
   }
-  const uint64_t length = GetU64(bytes, 16);
+  const uint64_t length = GetLittleEndian64(bytes, 16);
   const uint64_t present = bytes.size() - kSnapshotHeaderBytes;
   if (present != length) {
     *error = (present < length ? "truncated payload: " : "trailing bytes after payload: ") +
@@ -116,44 +84,19 @@ bool DecodeSnapshotFile(std::string_view bytes, SnapshotFileContents* out, std::
     return false;
   }
   std::string_view payload = bytes.substr(kSnapshotHeaderBytes);
-  if (Crc32(payload) != GetU32(bytes, 12)) {
+  if (Crc32(payload) != GetLittleEndian32(bytes, 12)) {
     *error = "payload checksum mismatch";
     return false;
   }
   out->payload.assign(payload);
-  out->config_digest = GetU64(bytes, 24);
+  out->config_digest = GetLittleEndian64(bytes, 24);
   return true;
 }
 
 bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* out,
                       std::string* error) {
-  // Not through a link, and never blocking on a FIFO: only a regular file is read.
-  const int fd = ::open(path.c_str(), O_RDONLY | O_NOFOLLOW | O_NONBLOCK | O_CLOEXEC);
-  if (fd < 0) {
-    *error = ErrnoText("open", path);
-    return false;
-  }
-  struct stat st {};
-  if (::fstat(fd, &st) != 0 || !S_ISREG(st.st_mode)) {
-    *error = path.string() + ": not a regular file";
-    ::close(fd);
-    return false;
-  }
   std::string bytes;
-  bytes.reserve(size_t(st.st_size));
-  char buffer[1 << 16];
-  for (;;) {
-    const ssize_t n = ::read(fd, buffer, sizeof buffer);
-    if (n < 0 && errno == EINTR) continue;
-    if (n < 0) {
-      *error = ErrnoText("read", path);
-      ::close(fd);
-      return false;
-    }
-    if (n == 0) break;
-    bytes.append(buffer, size_t(n));
-  }
-  ::close(fd);
+  if (!ReadRegularFile(path, &bytes, error)) return false;
   std::string why;
   if (!DecodeSnapshotFile(bytes, out, &why)) {
     *error = path.string() + ": " + why;
