@@ -122,12 +122,13 @@ class Daemon:
         return self.request_raw(req.SerializeToString())
 
     def request_raw(self, data):
+        """Sends `data` (bytes, or a list of message parts) on a plain REQ socket; the Reply."""
         s = self.ctx.socket(zmq.REQ)
         s.setsockopt(zmq.LINGER, 0)
         s.setsockopt(zmq.RCVTIMEO, int(TIMEOUT_S * 1000))
         s.connect(self.control)
         try:
-            s.send(data)
+            s.send_multipart(data if isinstance(data, list) else [data])
             reply = control_pb2.Reply()
             reply.ParseFromString(s.recv())
             return reply

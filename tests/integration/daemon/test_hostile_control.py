@@ -4,22 +4,12 @@ import pytest
 import zmq
 
 from bayline.v1 import control_pb2
-from conftest import TIMEOUT_S, frame, obs
+from conftest import frame, obs
 
 
 def exchange(d, parts):
-    """Sends one request of the given message parts on a plain REQ socket; returns the reply."""
-    s = d.ctx.socket(zmq.REQ)
-    s.setsockopt(zmq.LINGER, 0)
-    s.setsockopt(zmq.RCVTIMEO, int(TIMEOUT_S * 1000))
-    s.connect(d.control)
-    try:
-        s.send_multipart(parts)
-        reply = control_pb2.Reply()
-        reply.ParseFromString(s.recv())
-        return reply
-    finally:
-        s.close()
+    """Sends one request of the given message parts; returns the reply."""
+    return d.request_raw(list(parts))
 
 
 def stats_request():

@@ -5,6 +5,7 @@ SIGTERM and a restart exactly as they were, beside normal channels; and a channe
 state cannot be restored is set aside alone, logged, and counted by stats."""
 import glob
 import os
+import pathlib
 import signal
 import struct
 import zlib
@@ -14,46 +15,9 @@ from conftest import frame, obs
 
 T0 = 1_800_000_000_000_000_000
 
-# One rule per model family with detectors on ls, ml and map (raw thresholds: no simulation at
-# start-up), then the default rule's spec (model auto, calibrated cusum) for "auto/**" and
-# "auto_x/**".
-RULES = """
-rules { name: "linear" match: "linear/**" spec { model: "linear"
-  detectors { kind: "cusum" k: 0.5 h: 5 watch: "ls" }
-  detectors { kind: "recursive_cusum" significance: 0.05 watch: "ls" }
-  detectors { kind: "recursive_cusum_sq" significance: 0.05 watch: "ls" }
-  detectors { kind: "band" parameter: "x1" band_low: -10 band_high: 10 watch: "ls" }
-  detectors { kind: "ewma" lambda: 0.2 limit: 3 watch: "map" }
-  detectors { kind: "glr" threshold: 6 window: 20 watch: "map" } } }
-rules { name: "robust" match: "robust/**" spec { model: "linear" robust: true
-  forgetting { lambda: 0.95 } detectors { kind: "page_hinkley" threshold: 8 delta: 0.1 } } }
-rules { name: "extended" match: "extended/**" spec { model: "linear" extended_precision: true
-  detectors { kind: "cusum" k: 0.5 h: 5 } } }
-rules { name: "drift" match: "drift/**" spec { model: "linear" map_tracker: "random_walk"
-  drift_variance: 1e-4 detectors { kind: "bocpd" hazard: 0.01 threshold: 0.5 watch: "map" } } }
-rules { name: "gaussian" match: "gaussian/**" spec { model: "gaussian"
-  detectors { kind: "cusum" k: 0.5 h: 5 watch: "ml" }
-  detectors { kind: "ewma" lambda: 0.2 limit: 3 watch: "map" }
-  detectors { kind: "page_hinkley" threshold: 8 delta: 0.1 watch: "ml" }
-  detectors { kind: "glr" threshold: 6 window: 20 watch: "map" }
-  detectors { kind: "bocpd" hazard: 0.01 threshold: 0.5 watch: "map" } } }
-rules { name: "forget" match: "forget/**" spec { model: "gaussian"
-  forgetting { half_life_s: 10 } detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } } }
-rules { name: "lognormal" match: "lognormal/**" spec { model: "lognormal"
-  detectors { kind: "cusum" k: 0.5 h: 5 } } }
-rules { name: "poisson" match: "poisson/**" spec { model: "poisson"
-  detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } detectors { kind: "bocpd" threshold: 0.5 } } }
-rules { name: "binomial" match: "binomial/**" spec { model: "binomial"
-  detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } } }
-rules { name: "exponential" match: "exponential/**" spec { model: "exponential"
-  detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } } }
-rules { name: "gamma" match: "gamma/**" spec { model: "gamma" detectors { kind: "cusum" k: 0.5 h: 5 } } }
-rules { name: "logistic" match: "logistic/**" spec { model: "logistic"
-  detectors { kind: "cusum" k: 0.5 h: 5 } } }
-rules { name: "poisson_regression" match: "poisson_regression/**" spec {
-  model: "poisson_regression" detectors { kind: "cusum" k: 0.5 h: 5 } } }
-rules { name: "default" match: "**" spec { model: "auto" detectors { kind: "cusum" arl0: 1000 } } }
-"""
+# tests/data/every_family.conf: one rule per model family and estimator variant.
+RULES = (pathlib.Path(os.environ["BAYLINE_SOURCE_DIR"]) / "tests" / "data" /
+         "every_family.conf").read_text()
 
 FAMILIES = ["auto", "auto_x", "linear", "robust", "extended", "drift", "gaussian", "forget",
             "lognormal", "poisson", "binomial", "exponential", "gamma", "logistic",

@@ -6,7 +6,9 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <fstream>
 #include <optional>
+#include <sstream>
 #include <string>
 #include <vector>
 
@@ -18,48 +20,6 @@ namespace {
 using testing::kArrival;
 using testing::RecordingSink;
 using testing::SnapshotBytes;
-
-// One rule per model family (every estimator it allows) with detectors on ls, ml and map, and
-// variants of the linear and gaussian estimators (robust, extended precision, forgetting, drift).
-// Raw detector thresholds: no simulation at start-up.
-constexpr const char* kRules = R"(
-  rules { name: "linear" match: "linear/**" spec { model: "linear"
-    detectors { kind: "cusum" k: 0.5 h: 5 watch: "ls" }
-    detectors { kind: "recursive_cusum" significance: 0.05 watch: "ls" }
-    detectors { kind: "recursive_cusum_sq" significance: 0.05 watch: "ls" }
-    detectors { kind: "band" parameter: "x1" band_low: -10 band_high: 10 watch: "ls" }
-    detectors { kind: "ewma" lambda: 0.2 limit: 3 watch: "map" }
-    detectors { kind: "glr" threshold: 6 window: 20 watch: "map" } } }
-  rules { name: "robust" match: "robust/**" spec { model: "linear" robust: true
-    forgetting { lambda: 0.95 } detectors { kind: "page_hinkley" threshold: 8 delta: 0.1 } } }
-  rules { name: "extended" match: "extended/**" spec { model: "linear" extended_precision: true
-    detectors { kind: "cusum" k: 0.5 h: 5 } } }
-  rules { name: "drift" match: "drift/**" spec { model: "linear" map_tracker: "random_walk"
-    drift_variance: 1e-4 detectors { kind: "bocpd" hazard: 0.01 threshold: 0.5 watch: "map" } } }
-  rules { name: "gaussian" match: "gaussian/**" spec { model: "gaussian"
-    detectors { kind: "cusum" k: 0.5 h: 5 watch: "ml" }
-    detectors { kind: "ewma" lambda: 0.2 limit: 3 watch: "map" }
-    detectors { kind: "page_hinkley" threshold: 8 delta: 0.1 watch: "ml" }
-    detectors { kind: "glr" threshold: 6 window: 20 watch: "map" }
-    detectors { kind: "bocpd" hazard: 0.01 threshold: 0.5 watch: "map" } } }
-  rules { name: "forget" match: "forget/**" spec { model: "gaussian"
-    forgetting { half_life_s: 10 } detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } } }
-  rules { name: "lognormal" match: "lognormal/**" spec { model: "lognormal"
-    detectors { kind: "cusum" k: 0.5 h: 5 } } }
-  rules { name: "poisson" match: "poisson/**" spec { model: "poisson"
-    detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } detectors { kind: "bocpd" threshold: 0.5 } } }
-  rules { name: "binomial" match: "binomial/**" spec { model: "binomial"
-    detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } } }
-  rules { name: "exponential" match: "exponential/**" spec { model: "exponential"
-    detectors { kind: "cusum" k: 0.5 h: 5 watch: "map" } } }
-  rules { name: "gamma" match: "gamma/**" spec { model: "gamma"
-    detectors { kind: "cusum" k: 0.5 h: 5 } } }
-  rules { name: "logistic" match: "logistic/**" spec { model: "logistic"
-    detectors { kind: "cusum" k: 0.5 h: 5 } } }
-  rules { name: "poisson_regression" match: "poisson_regression/**" spec {
-    model: "poisson_regression" detectors { kind: "cusum" k: 0.5 h: 5 } } }
-  rules { name: "auto" match: "**" spec { model: "auto" detectors { kind: "cusum" k: 0.5 h: 5 } } }
-)";
 
 // "auto/**" falls to the last rule: model auto (gaussian here, no regressors), every estimator.
 const std::vector<std::string> kFamilies = {
@@ -143,7 +103,13 @@ bayline::v1::Observation ToObservation(const std::string& channel, uint64_t seq,
   return o;
 }
 
-bayline::v1::DaemonConfig HostileConfig() { return testing::ParseConfig(kRules); }
+// tests/data/every_family.conf: one rule per model family and estimator variant.
+bayline::v1::DaemonConfig HostileConfig() {
+  std::ifstream in(std::string(BAYLINE_SOURCE_DIR) + "/tests/data/every_family.conf");
+  std::stringstream text;
+  text << in.rdbuf();
+  return testing::ParseConfig(text.str());
+}
 
 // Feeds every hostile case to its own channel of every family, and a plain channel per family.
 void FeedAll(Pipeline& p, RecordingSink& sink, std::vector<std::string>* normal_channels) {
