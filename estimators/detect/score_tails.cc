@@ -55,11 +55,15 @@ PointTails BinomialTails(double y, double n, double p, double q) {
   const double at = std::exp(dist::BinomialLogPmf(y, n, p));
   if (y <= n * p) {  // P(Y <= y - 1) = I_q(n - y + 1, y)
     const double below = y == 0.0 ? 0.0 : special::BetaIWithComplement(n - y + 1.0, y, q, p, false);
-    return FromSmallSide(true, below, at);
+    PointTails t = FromSmallSide(true, below, at);
+    if (y == n) t.above = 0.0;
+    return t;
   }
   // P(Y >= y + 1) = I_p(y + 1, n - y)
   const double above = y == n ? 0.0 : special::BetaIWithComplement(y + 1.0, n - y, p, q, false);
-  return FromSmallSide(false, above, at);
+  PointTails t = FromSmallSide(false, above, at);
+  if (y == 0.0) t.below = 0.0;
+  return t;
 }
 
 PointTails PoissonTails(double y, double mean) {
@@ -102,7 +106,10 @@ PointTails HypergeometricTails(double y, double population, double successes, do
       if (++steps > kMaxHypergeometricTerms) return kNaNTails;
     }
   }
-  return FromSmallSide(lower_side, std::min(1.0, at * sum), at);
+  PointTails t = FromSmallSide(lower_side, std::min(1.0, at * sum), at);
+  if (y == lo) t.below = 0.0;  // ends of the support: exact, whatever the rounding of `at`
+  if (y == hi) t.above = 0.0;
+  return t;
 }
 
 PointTails BetaTails(double x, double xc, double a, double b) {
