@@ -113,8 +113,9 @@ class DetectorSlot {
   using Impl =
       std::variant<est::Cusum, est::Ewma, est::PageHinkley, Boxed<est::Glr>, Boxed<est::Bocpd>,
                    est::RecursiveCusum, Boxed<est::RecursiveCusumSquares>, est::ToleranceBand>;
-  using Standardizer = std::variant<std::monostate, est::SelfStartingStandardizer,
-                                    est::RecursiveResidualStandardizer, est::ExactScoreStandardizer>;
+  using Standardizer =
+      std::variant<std::monostate, est::SelfStartingStandardizer,
+                   est::RecursiveResidualStandardizer, est::ExactScoreStandardizer>;
 
   static Impl MakeImpl(const DetectorSetup& setup);
   static Source SourceFor(const DetectorSetup& setup, Model model, EstimatorKind watched_kind);

@@ -18,8 +18,8 @@ bool IsIndex(double v) { return IsWhole(v) && v < ExactScoreStandardizer::kMaxIn
 Status Domain(const std::string& why) { return Status::Error(ErrorCode::kOutOfDomain, why); }
 
 bool IsCountFamily(ScoreFamily f) {
-  return f == ScoreFamily::kPoisson || f == ScoreFamily::kBinomial ||
-         f == ScoreFamily::kLogistic || f == ScoreFamily::kPoissonRegression;
+  return f == ScoreFamily::kPoisson || f == ScoreFamily::kBinomial || f == ScoreFamily::kLogistic ||
+         f == ScoreFamily::kPoissonRegression;
 }
 bool UsesTrials(ScoreFamily f) {
   return f == ScoreFamily::kBinomial || f == ScoreFamily::kLogistic;
@@ -35,8 +35,8 @@ bool UsesExposure(ScoreFamily f) { return f == ScoreFamily::kPoisson; }
 double ConditionalShape(double spread, double n1) {
   if (!(spread > 0.0) || !std::isfinite(spread) || !(n1 >= 2.0)) return kNaN;
   const double log_n1 = std::log(n1);
-  double k = spread < log_n1 ? (n1 - 1.0) / (2.0 * n1 * spread)
-                             : (n1 - 1.0) / (n1 * (spread + log_n1));
+  double k =
+      spread < log_n1 ? (n1 - 1.0) / (2.0 * n1 * spread) : (n1 - 1.0) / (n1 * (spread + log_n1));
   double lo = 0.0, hi = std::numeric_limits<double>::infinity();
   for (int it = 0; it < 200; ++it) {
     const double h = gamma_shape::G(k) - gamma_shape::G(n1 * k) - spread;
@@ -164,8 +164,8 @@ Status ExactScoreStandardizer::CheckSample(const Sample& s) const {
 }
 
 double ExactScoreStandardizer::NextUniform(State* next) const {
-  const double v = CounterUniform(static_cast<uint64_t>(next->seed),
-                                  static_cast<uint64_t>(next->draws));
+  const double v =
+      CounterUniform(static_cast<uint64_t>(next->seed), static_cast<uint64_t>(next->draws));
   next->draws += 1.0;
   return v;
 }

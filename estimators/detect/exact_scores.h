@@ -2,14 +2,14 @@
 // channel into a score z that is N(0, 1) and independent across observations while the channel is
 // in control, whatever the unknown parameters, from the second observation on (gamma: from the
 // third, approximately, see below); and of a logistic or poisson_regression channel into the
-// randomized normal score of the plug-in predictive. Detectors calibrated for N(0, 1) i.i.d. input then keep their
-// in-control ARL on every family.
+// randomized normal score of the plug-in predictive. Detectors calibrated for N(0, 1) i.i.d. input
+// then keep their in-control ARL on every family.
 //
 // Self-starting (Phase I), by the conditional probability integral transform on the sufficient
 // statistic (O'Reilly and Quesenberry 1973, Ann. Statist. 1, 74-83; Quesenberry's Q charts, J.
-// Qual. Technol. 23, 1991; references from memory): with T_n the statistic of y_1..y_n, the law of y_n given T_n does
-// not depend on the parameters, and u_n = F(y_n | T_n) (randomized when discrete: u = F(y - 1) +
-// V P(y), score_tails.h) are i.i.d. U(0, 1); z_n = Phi^{-1}(u_n).
+// Qual. Technol. 23, 1991; references from memory): with T_n the statistic of y_1..y_n, the law of
+// y_n given T_n does not depend on the parameters, and u_n = F(y_n | T_n) (randomized when
+// discrete: u = F(y - 1) + V P(y), score_tails.h) are i.i.d. U(0, 1); z_n = Phi^{-1}(u_n).
 //   poisson, exposure e_i:  y_n | T_n ~ Binomial(T_n, e_n / (e_1 + ... + e_n)),  T_n = sum y_i.
 //                           (T_n = 0 gives u = V: still exactly uniform, but carries nothing.)
 //   binomial, trials m_i:   y_n | T_n ~ Hypergeometric(population m_1 + ... + m_n, successes T_n,
@@ -35,9 +35,9 @@
 // prediction of GlmMl, valid once the fit is determined; NaN gives no score). Exact given the
 // parameters; with estimated ones asymptotically exact.
 // Known parameters (Phase II, options.known): the same transforms under the given in-control law:
-//   poisson Poisson(mean * exposure); binomial Binomial(trials, mean); exponential with mean `mean`;
-//   gamma with mean `mean` and sd `sd` (shape (mean / sd)^2). logistic / poisson_regression: the
-//   predictive as above (known parameters do not apply).
+//   poisson Poisson(mean * exposure); binomial Binomial(trials, mean); exponential with mean
+//   `mean`; gamma with mean `mean` and sd `sd` (shape (mean / sd)^2). logistic /
+//   poisson_regression: the predictive as above (known parameters do not apply).
 //
 // Sums are plain double sums (counts are exact to 2^53; exposures, y and log y sums carry relative
 // rounding about n * 1e-16). The observation weight is ignored (each observation counts once).

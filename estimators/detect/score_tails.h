@@ -20,11 +20,11 @@
 //   BetaTails      one incomplete beta.
 //   HypergeometricTails  the pmf at y from log-gammas (relative error about 1e-16 times
 //                  log Gamma(population), e.g. 2e-8 at a population of 1e7), then the tail on y's
-//                  side summed outward from y by the term ratio. The law is log-concave, so past the
-//                  mode the ratios shrink and the sum stops once the geometric bound on what is left
-//                  falls below 1e-17 of the sum: about |y - mode| + 9 sd terms, sd <= sqrt(draws)/2
-//                  (O(sqrt(draws)) for an in-control y), never more than draws + 1 and never more
-//                  than kMaxHypergeometricTerms (beyond it: NaN).
+//                  side summed outward from y by the term ratio. The law is log-concave, so past
+//                  the mode the ratios shrink and the sum stops once the geometric bound on what is
+//                  left falls below 1e-17 of the sum: about |y - mode| + 9 sd terms, sd <=
+//                  sqrt(draws)/2 (O(sqrt(draws)) for an in-control y), never more than draws + 1
+//                  and never more than kMaxHypergeometricTerms (beyond it: NaN).
 #pragma once
 
 #include <cstdint>

@@ -1,6 +1,7 @@
 // score_tails_probe: the conditional laws behind the exact scores (score_tails.h, exact_scores.h),
 // for the scipy reference test (test_score_tails_vs_scipy.py). stdin, one query per line:
-//   binom y n p | pois y mean | hyper y population successes draws | beta x a b | gamma y shape rate
+//   binom y n p | pois y mean | hyper y population successes draws | beta x a b | gamma y shape
+//   rate
 //     -> "below at above" (P(Y < y), P(Y = y), P(Y > y))
 //   stream family count  then `count` lines "y aux" (aux: exposure for poisson, trials for
 //   binomial, ignored otherwise; family poisson | binomial | exponential | gamma)
@@ -60,8 +61,8 @@ int main() {
         const double draws = s.state().draws;
         double z = kNaN;
         if (!s.Update(smp, kNaN, &z).ok()) return 3;
-        const double v = s.state().draws > draws ? CounterUniform(seed, static_cast<uint64_t>(draws))
-                                                 : kNaN;
+        const double v =
+            s.state().draws > draws ? CounterUniform(seed, static_cast<uint64_t>(draws)) : kNaN;
         std::printf("%.17g %.17g\n", z, v);
       }
       continue;
