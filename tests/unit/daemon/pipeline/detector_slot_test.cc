@@ -147,13 +147,38 @@ TEST(DetectorSlotTest, RestoredSlotContinuesBitIdenticallyAndOldRecordIsRefused)
   EXPECT_TRUE(BitEqual(after, pa));  // nothing changed
 }
 
+TEST(DetectorSlotTest, LogisticCusumReadsThePredictiveScoreOfTheEstimateBeforeY) {
+  const DetectorSetup setup = Calibrated("kind: 'cusum' arl0: 200");
+  ASSERT_TRUE(DetectorSlot::ReadsInnovation(setup, Model::kLogistic, EstimatorKind::kMl));
+  EXPECT_FALSE(DetectorSlot::ReadsInnovation(setup, Model::kPoisson, EstimatorKind::kMap));
+  DetectorSlot slot(setup, Model::kLogistic, EstimatorKind::kMl, 9);
+  est::ExactScoreStandardizer scores({est::ScoreFamily::kLogistic}, 9);
+  est::Cusum reference(setup.cusum);
+  Feed feed;
+  for (int i = 0; i < 40; ++i) {
+    const est::Sample s = Count(i % 4, 5);
+    feed.innovation.valid = i >= 3;  // as a fit that is determined from the fourth row on
+    feed.innovation.prediction = 5 * 0.3;
+    est::DetectorEvent got;
+    ASSERT_TRUE(feed.Step(slot, setup, s, &got).ok());
+    double z = 0;
+    ASSERT_TRUE(scores.Update(s, i >= 3 ? 1.5 : est::kNaN, &z).ok());
+    EXPECT_EQ(std::isfinite(z), i >= 3);
+    est::ObservationMark mark;
+    mark.seq = feed.seq;
+    const est::DetectorEvent want = reference.Update(z, mark);
+    EXPECT_TRUE(SameBits(got.statistic, want.statistic)) << i;
+  }
+}
+
 // In-control ARL of a cusum calibrated for arl0 200 (N(0, 1) Markov-chain calibration), measured on
 // the families whose plug-in scores missed it (before: poisson rate 2 -> 149.5, rate 0.2 -> 81,
-// binomial 50 trials p 0.02 -> 131, exponential -> 58). 1000 runs each, capped at 20 arl0: the run
+// binomial 50 trials p 0.02 -> 131, exponential -> 58; phase2 poisson read (y - 2) / sqrt(2)).
+// 1000 runs each, capped at 20 arl0: the run
 // length's sd is about the ARL, so the standard error of the mean is about 3.2% of 200; checked
 // within 16% (5 standard errors).
 TEST(DetectorSlotTest, CusumKeepsItsInControlArlOnCountAndSkewedFamilies) {
-  const DetectorSetup setup = Calibrated("kind: 'cusum' arl0: 200");
+  const DetectorSetup cusum = Calibrated("kind: 'cusum' arl0: 200");
   struct Case {
     const char* name;
     Model model;
@@ -170,8 +195,15 @@ TEST(DetectorSlotTest, CusumKeepsItsInControlArlOnCountAndSkewedFamilies) {
        [](std::mt19937_64& r) { return Count(std::exponential_distribution<double>(0.5)(r)); }},
       {"gamma 0.5", Model::kGamma,
        [](std::mt19937_64& r) { return Count(std::gamma_distribution<double>(0.5, 4.0)(r)); }},
+      {"phase2 poisson 2", Model::kPoisson,
+       [](std::mt19937_64& r) { return Count(std::poisson_distribution<int>(2.0)(r)); }},
   };
   for (const Case& c : cases) {
+    DetectorSetup setup = cusum;
+    if (std::string(c.name).rfind("phase2", 0) == 0) {
+      setup.phase2 = true;
+      setup.target_mean = 2.0;
+    }
     std::mt19937_64 rng(4);
     double total = 0;
     const int runs = 1000;
