@@ -5,6 +5,8 @@
 #include <new>
 #include <stdexcept>
 
+#include "daemon/pipeline/channel_name.h"
+
 namespace bayline::pipeline {
 namespace {
 
@@ -51,10 +53,11 @@ ChannelPtr Channel::Create(std::shared_ptr<const ResolvedSpec> spec, std::string
     ch->estimator_count_ = static_cast<uint8_t>(i + 1);
   }
   auto* detectors = reinterpret_cast<DetectorSlot*>(ch->base() + det_offset);
+  const uint64_t score_seed = ChannelHash(name);  // the same randomization for every detector
   for (std::size_t d = 0; d < n_det; ++d) {
     const DetectorSetup& setup = s.detectors[d];
-    ::new (static_cast<void*>(detectors + d))
-        DetectorSlot(setup, s.model, s.estimators[static_cast<std::size_t>(setup.watch)]);
+    ::new (static_cast<void*>(detectors + d)) DetectorSlot(
+        setup, s.model, s.estimators[static_cast<std::size_t>(setup.watch)], score_seed);
     ch->detector_count_ = static_cast<uint32_t>(d + 1);
   }
   return owner;

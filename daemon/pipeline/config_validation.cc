@@ -6,6 +6,7 @@
 
 #include "daemon/pipeline/daemon_config.h"
 #include "daemon/pipeline/detector_setup.h"
+#include "daemon/pipeline/detector_slot.h"
 #include "daemon/pipeline/estimator_slot.h"
 #include "daemon/pipeline/resolved_spec.h"
 #include "daemon/pipeline/resource_limits.h"
@@ -92,6 +93,19 @@ Status ValidateDetector(const DetectorSpec& d, const std::vector<Model>& models,
     if (!(d.target_sd() > 0 && Finite(d.target_sd()))) {
       return Bad(path + ".target_sd",
                  "phase2 needs a finite target_sd > 0, got " + Num(d.target_sd()));
+    }
+    // On the families scored by their own law the target is that law's parameter (exact_scores.h).
+    for (Model m : models) {
+      est::ExactScoreOptions known;
+      if (!DetectorSlot::ExactScoreFamily(m, &known.family) ||
+          known.family == est::ScoreFamily::kLogistic ||
+          known.family == est::ScoreFamily::kPoissonRegression)
+        continue;
+      known.known = true;
+      known.mean = d.target_mean();
+      known.sd = d.target_sd();
+      if (Status v = known.Validate(); !v.ok())
+        return Bad(path + ".target_mean", std::string(ModelName(m)) + ": " + v.message());
     }
   }
   const struct {

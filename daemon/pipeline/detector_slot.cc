@@ -38,29 +38,91 @@ DetectorSlot::Impl DetectorSlot::MakeImpl(const DetectorSetup& d) {
   return Impl(std::in_place_type<est::Cusum>, d.cusum);
 }
 
-DetectorSlot::DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind)
-    : impl_(MakeImpl(setup)) {
-  raw_counts_ =
-      setup.kind == DetectorKind::kBocpd && (model == Model::kPoisson || model == Model::kBinomial);
-  if (setup.phase2) {
-    source_ = Source::kPhase2;
-  } else if (watched_kind == EstimatorKind::kLs) {
-    source_ = Source::kLsResidual;
-    standardizer_.emplace<est::RecursiveResidualStandardizer>();
-  } else if (watched_kind == EstimatorKind::kMl && model == Model::kGaussian) {
-    source_ = Source::kSelfStarting;
-    standardizer_.emplace<est::SelfStartingStandardizer>();
-  } else if (watched_kind == EstimatorKind::kMl && model == Model::kLognormal) {
-    source_ = Source::kSelfStartingLog;
-    standardizer_.emplace<est::SelfStartingStandardizer>();
-  } else {
-    source_ = Source::kInnovation;
+bool DetectorSlot::ExactScoreFamily(Model model, est::ScoreFamily* family) {
+  switch (model) {
+    case Model::kPoisson:
+      *family = est::ScoreFamily::kPoisson;
+      return true;
+    case Model::kBinomial:
+      *family = est::ScoreFamily::kBinomial;
+      return true;
+    case Model::kExponential:
+      *family = est::ScoreFamily::kExponential;
+      return true;
+    case Model::kGamma:
+      *family = est::ScoreFamily::kGamma;
+      return true;
+    case Model::kLogistic:
+      *family = est::ScoreFamily::kLogistic;
+      return true;
+    case Model::kPoissonRegression:
+      *family = est::ScoreFamily::kPoissonRegression;
+      return true;
+    case Model::kLinear:
+    case Model::kGaussian:
+    case Model::kLognormal:
+      break;
   }
-  // Detectors that do not read z keep no standardizer.
-  if (setup.kind == DetectorKind::kRecursiveCusum ||
-      setup.kind == DetectorKind::kRecursiveCusumSquares || setup.kind == DetectorKind::kBand ||
-      raw_counts_) {
-    standardizer_.emplace<std::monostate>();
+  return false;
+}
+
+bool DetectorSlot::ReadsZ(const DetectorSetup& setup) {
+  return setup.kind != DetectorKind::kRecursiveCusum &&
+         setup.kind != DetectorKind::kRecursiveCusumSquares && setup.kind != DetectorKind::kBand;
+}
+
+DetectorSlot::Source DetectorSlot::SourceFor(const DetectorSetup& setup, Model model,
+                                             EstimatorKind watched_kind) {
+  est::ScoreFamily family;
+  const bool exact = ExactScoreFamily(model, &family);
+  const bool regression_family =
+      family == est::ScoreFamily::kLogistic || family == est::ScoreFamily::kPoissonRegression;
+  if (setup.phase2) return exact && !regression_family ? Source::kExactScore : Source::kPhase2;
+  if (exact) return Source::kExactScore;
+  if (watched_kind == EstimatorKind::kLs) return Source::kLsResidual;
+  if (watched_kind == EstimatorKind::kMl && model == Model::kGaussian) return Source::kSelfStarting;
+  if (watched_kind == EstimatorKind::kMl && model == Model::kLognormal)
+    return Source::kSelfStartingLog;
+  return Source::kInnovation;
+}
+
+bool DetectorSlot::ReadsInnovation(const DetectorSetup& setup, Model model,
+                                   EstimatorKind watched_kind) {
+  if (!ReadsZ(setup)) return false;
+  const Source source = SourceFor(setup, model, watched_kind);
+  est::ScoreFamily family;
+  return source == Source::kInnovation ||
+         (source == Source::kExactScore && !setup.phase2 && ExactScoreFamily(model, &family) &&
+          (family == est::ScoreFamily::kLogistic ||
+           family == est::ScoreFamily::kPoissonRegression));
+}
+
+DetectorSlot::DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind,
+                           uint64_t score_seed)
+    : impl_(MakeImpl(setup)), source_(SourceFor(setup, model, watched_kind)) {
+  if (!ReadsZ(setup)) return;  // detectors that do not read z keep no standardizer
+  switch (source_) {
+    case Source::kLsResidual:
+      standardizer_.emplace<est::RecursiveResidualStandardizer>();
+      break;
+    case Source::kSelfStarting:
+    case Source::kSelfStartingLog:
+      standardizer_.emplace<est::SelfStartingStandardizer>();
+      break;
+    case Source::kExactScore: {
+      est::ExactScoreOptions o;
+      ExactScoreFamily(model, &o.family);
+      o.known = setup.phase2;
+      o.mean = setup.target_mean;
+      o.sd = setup.target_sd;
+      // Resolution refuses targets that do not fit the family; should one get here, its scores
+      // are NaN (the detector stays silent) rather than undefined.
+      if (o.Validate().ok()) standardizer_.emplace<est::ExactScoreStandardizer>(o, score_seed);
+      break;
+    }
+    case Source::kPhase2:
+    case Source::kInnovation:
+      break;
   }
 }
 
@@ -86,6 +148,14 @@ double DetectorSlot::StandardizedValue(const DetectorSetup& setup, const Detecto
     case Source::kInnovation:
       if (in.innovation->valid) z = in.innovation->standardized;
       break;
+    case Source::kExactScore:
+      if (auto* s = std::get_if<est::ExactScoreStandardizer>(&standardizer_)) {
+        const double predicted = in.innovation != nullptr && in.innovation->valid
+                                     ? in.innovation->prediction
+                                     : est::kNaN;
+        if (!s->Update(*in.sample, predicted, &z).ok()) z = est::kNaN;
+      }
+      break;
   }
   return z;
 }
@@ -104,7 +174,6 @@ Status DetectorSlot::Update(const DetectorSetup& setup, const DetectorInput& in,
           *event = d.Update(z, in.mark);
           return Status::Ok();
         } else if constexpr (std::is_same_v<T, Boxed<est::Bocpd>>) {
-          if (raw_counts_) return d.Update(*in.sample, in.mark, event);
           if (!std::isfinite(z)) return Status::Ok();
           est::Sample zs;
           zs.y = z;
@@ -182,6 +251,7 @@ void DetectorSlot::Pack(std::vector<double>* out) const {
   if (const auto* s = std::get_if<est::RecursiveResidualStandardizer>(&standardizer_)) {
     s->state().Pack(w);
   }
+  if (const auto* s = std::get_if<est::ExactScoreStandardizer>(&standardizer_)) s->state().Pack(w);
   EndSection(out, section);
 
   std::visit([&](const auto& slot) { Unwrap(slot).state().Pack(w); }, impl_);

@@ -1,18 +1,34 @@
 // DetectorSlot: one detector of a channel with its standardizer and the bookkeeping the control
 // API reports (last statistic, alarms raised, last alarm).
 //
-// What each detector watches (DetectorSetup::watch is the index of the watched estimator):
-//   charts (cusum, ewma, page_hinkley, glr) and bocpd on gaussian / linear / lognormal /
-//   exponential / gamma / logistic / poisson_regression channels watch a standardized innovation z:
-//     mode phase2:        z = (y - target_mean) / target_sd;
-//     watched ls:         the recursive residual, standardized by its own running scale
-//                         (RecursiveResidualStandardizer: exactly N(0, 1) in control from the
-//                         start);
-//     watched ml, gaussian / lognormal model: y (log y) through the self-starting standardizer;
-//     otherwise:          the estimator's own standardized innovation (map: the normal score of the
-//                         exact posterior predictive; ml: the plug-in predictive).
-//     bocpd watches z with a normal-gamma segment model, except on poisson and binomial channels,
-//     where it reads the raw counts (gamma-poisson / beta-binomial).
+// What each detector watches (DetectorSetup::watch is the index of the watched estimator). The
+// charts (cusum, ewma, page_hinkley, glr) and bocpd (normal-gamma segment model) all read one score
+// z per observation, N(0, 1) i.i.d. while the channel is in control:
+//   family                      mode phase2                   otherwise (any watched estimator
+//                                                             unless said)
+//   poisson, binomial,          the same transform under      est::ExactScoreStandardizer: the
+//   exponential, gamma          the target law (exact_scores  conditional PIT on the sufficient
+//                               .h): poisson rate target_mean statistic (exact from the 2nd
+//                               x exposure, binomial p =      observation; gamma from the 3rd,
+//                               target_mean, exponential /    nearly exact), randomized for counts
+//                               gamma mean target_mean (gamma
+//                               sd target_sd)
+//   logistic,                   (y - target_mean) / target_sd randomized normal score of y under
+//   poisson_regression                                        the watched estimator's plug-in
+//                                                             predictive from before y
+//                                                             (Innovation::prediction)
+//   linear, gaussian,           (y - target_mean) / target_sd watched ls: the recursive residual,
+//   lognormal                                                 standardized by its own running
+//                                                             scale (RecursiveResidualStandardizer,
+//                                                             exact); watched ml, gaussian /
+//                                                             lognormal: y (log y) through the
+//                                                             self-starting standardizer (Hawkins,
+//                                                             exact); else the estimator's own
+//                                                             standardized innovation (map: normal
+//                                                             score of the exact posterior
+//                                                             predictive; ml linear: plug-in)
+// The randomization of the count scores is keyed by the channel name (score_seed: the same for
+// every detector of a channel, so they all read the same z) and packed with the detector.
 //   recursive_cusum, recursive_cusum_sq: the raw recursive residual of the watched ls.
 //   band: the watched estimator's parameter report (built per observation: this detector
 //         allocates).
@@ -31,6 +47,7 @@
 #include "estimators/core/report.h"
 #include "estimators/core/sample.h"
 #include "estimators/detect/alarm.h"
+#include "estimators/detect/exact_scores.h"
 #include "estimators/detect/self_starting.h"
 
 namespace bayline::pipeline {
@@ -57,7 +74,15 @@ struct LastAlarm {
 
 class DetectorSlot {
  public:
-  DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind);
+  // score_seed keys the randomization of the exact scores (pipeline: ChannelHash of the name).
+  DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind,
+               uint64_t score_seed);
+
+  // Whether this detector reads the watched estimator's innovation (DetectorInput::innovation must
+  // then be given).
+  static bool ReadsInnovation(const DetectorSetup& setup, Model model, EstimatorKind watched_kind);
+  // The score family of a model, false for linear / gaussian / lognormal (no exact score).
+  static bool ExactScoreFamily(Model model, est::ScoreFamily* family);
 
   // Feeds one accepted observation. On ok, *event holds the detector's event (raised / cleared).
   // Fails only on a numerical failure inside the detector; then nothing changed.
@@ -82,21 +107,24 @@ class DetectorSlot {
     kLsResidual,
     kSelfStarting,
     kSelfStartingLog,
-    kInnovation
+    kInnovation,
+    kExactScore
   };
   using Impl =
       std::variant<est::Cusum, est::Ewma, est::PageHinkley, Boxed<est::Glr>, Boxed<est::Bocpd>,
                    est::RecursiveCusum, Boxed<est::RecursiveCusumSquares>, est::ToleranceBand>;
-  using Standardizer = std::variant<std::monostate, est::SelfStartingStandardizer,
-                                    est::RecursiveResidualStandardizer>;
+  using Standardizer =
+      std::variant<std::monostate, est::SelfStartingStandardizer,
+                   est::RecursiveResidualStandardizer, est::ExactScoreStandardizer>;
 
   static Impl MakeImpl(const DetectorSetup& setup);
+  static Source SourceFor(const DetectorSetup& setup, Model model, EstimatorKind watched_kind);
+  static bool ReadsZ(const DetectorSetup& setup);
   double StandardizedValue(const DetectorSetup& setup, const DetectorInput& in);
 
   Impl impl_;
   Standardizer standardizer_;
   Source source_;
-  bool raw_counts_ = false;  // bocpd on poisson / binomial
   double last_statistic_ = est::kNaN;
   double last_threshold_ = est::kNaN;
   uint64_t alarms_raised_ = 0;

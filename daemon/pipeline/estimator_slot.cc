@@ -199,11 +199,6 @@ Status CheckObservation(const ResolvedSpec& spec, const est::Sample& s) {
     case Model::kGaussian:
       break;
   }
-  if (spec.bocpd_needs_unit_weight && s.weight != 1.0) {
-    return Status::Error(ErrorCode::kInvalidWeight,
-                         "weight must be 1 on a channel with a bocpd detector on counts, got " +
-                             std::to_string(s.weight));
-  }
   return Status::Ok();
 }
 

@@ -49,8 +49,8 @@ namespace bayline::pipeline {
 // Checks an observation against the model of `spec` and every estimator and detector it runs,
 // without touching any state: the common fields (CheckCommonFields on the full row), the model's
 // domain (y > 0 for lognormal / exponential / gamma, whole counts for poisson / binomial /
-// logistic / poisson_regression, trials >= 1, exposure > 0) and a unit weight where a bocpd reads
-// raw counts. Ok means no estimator will reject it except for a numerical failure.
+// logistic / poisson_regression, trials >= 1, exposure > 0). Ok means no estimator will reject it
+// except for a numerical failure.
 est::Status CheckObservation(const ResolvedSpec& spec, const est::Sample& sample);
 
 // The gaussian model's ls estimator: recursive least squares on the intercept alone (Update

@@ -8,6 +8,7 @@
 #include <utility>
 
 #include "daemon/pipeline/channel_name.h"
+#include "daemon/pipeline/detector_slot.h"
 
 namespace bayline::pipeline {
 namespace {
@@ -264,25 +265,25 @@ est::Status ResolveSpec(const bayline::v1::Rule& rule, const std::string& rule_n
                                       d.band_parameter + "\" is not a parameter of this channel");
       }
     }
-    if (d.kind == DetectorKind::kBocpd) {
-      if (model == Model::kPoisson) {
-        d.bocpd.model = est::BocpdModel::kGammaPoisson;
-        r->bocpd_needs_unit_weight = true;
-      } else if (model == Model::kBinomial) {
-        d.bocpd.model = est::BocpdModel::kBetaBinomial;
-        r->bocpd_needs_unit_weight = true;
+    // bocpd reads the same N(0, 1) score as the charts on every family (detector_slot.h).
+    if (d.phase2) {
+      est::ExactScoreOptions known;
+      if (DetectorSlot::ExactScoreFamily(model, &known.family) &&
+          known.family != est::ScoreFamily::kLogistic &&
+          known.family != est::ScoreFamily::kPoissonRegression) {
+        known.known = true;
+        known.mean = d.target_mean;
+        known.sd = d.target_sd;
+        if (est::Status v = known.Validate(); !v.ok()) {
+          return est::Status::Error(est::ErrorCode::kOutOfDomain,
+                                    "rule \"" + rule_name + "\": phase2 on a " +
+                                        std::string(ModelName(model)) + " channel: " + v.message());
+        }
       }
     }
     // Which detectors read the watched estimator's innovation (see detector_slot.h).
     const EstimatorKind watched = r->estimators[static_cast<std::size_t>(d.watch)];
-    const bool reads_z = !d.phase2 && d.kind != DetectorKind::kBand &&
-                         d.kind != DetectorKind::kRecursiveCusum &&
-                         d.kind != DetectorKind::kRecursiveCusumSquares &&
-                         !(d.kind == DetectorKind::kBocpd && r->bocpd_needs_unit_weight);
-    const bool self_standardized = watched == EstimatorKind::kLs ||
-                                   (watched == EstimatorKind::kMl &&
-                                    (model == Model::kGaussian || model == Model::kLognormal));
-    if (reads_z && !self_standardized)
+    if (DetectorSlot::ReadsInnovation(d, model, watched))
       r->needs_innovation[static_cast<std::size_t>(d.watch)] = true;
     r->detectors.push_back(std::move(d));
   }

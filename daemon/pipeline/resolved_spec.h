@@ -98,7 +98,6 @@ struct ResolvedSpec {
   // Per estimator: whether some detector reads its one-step innovation (computing one costs
   // special functions, e.g. a Student-t normal score, so it is only asked for when read).
   std::array<bool, kMaxEstimatorsPerChannel> needs_innovation{};
-  bool bocpd_needs_unit_weight = false;  // a bocpd on raw counts (it has no weighted form)
 
   uint32_t every_n = 1;
   int64_t min_interval_ns = 0;

@@ -55,6 +55,13 @@ TEST(ConfigValidationTest, ErrorsNameTheFieldPath) {
                  "rules[0].spec.detectors[0].kind");
   ExpectRejected(R"(rules { match: "**" spec { detectors { kind: "cusum" mode: "phase2" } } })",
                  "rules[0].spec.detectors[0].target_sd");
+  // phase2 on a family scored by its own law: the target must be a parameter of that law.
+  ExpectRejected(
+      R"(rules { match: "**" spec { model: "binomial" detectors { kind: "cusum" mode: "phase2" target_mean: 3 target_sd: 1 } } })",
+      "rules[0].spec.detectors[0].target_mean");
+  ExpectRejected(
+      R"(rules { match: "**" spec { model: "poisson" detectors { kind: "cusum" mode: "phase2" target_mean: -1 target_sd: 1 } } })",
+      "rules[0].spec.detectors[0].target_mean");
   ExpectRejected(
       R"(rules { match: "**" spec { model: "poisson" detectors { kind: "cusum" watch: "ls" } } })",
       "rules[0].spec.detectors[0].watch");
