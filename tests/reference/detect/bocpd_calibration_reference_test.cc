@@ -5,7 +5,8 @@
 // from the sample sd) is within +-15 % of 1000; the calibration's own standard error is about
 // 3.2 %, so the tolerance is about 3.4 combined standard errors. A 1 sd step after 100 in-control
 // observations is caught far sooner. About 10^6 bocpd updates for the calibration and 1.2 * 10^6
-// for the measurement: a minute on a loaded machine, hence a reference test.
+// for the measurement: about a minute of CPU (2.5 minutes wall on a loaded 2-core machine), hence
+// a reference test. Measured: ARL0 975.9 +- 55.1 (95 %), delay 15.2 at 1 sd.
 #include <gtest/gtest.h>
 
 #include <cmath>

@@ -5,7 +5,7 @@
 // Measurement: 1200 runs; in-control run lengths have sd about 1.04 times their mean (measured),
 // so the 95 % CI half-width is about 5.9 % (asserted below from the sample sd) and the standard
 // error 3 %: combined 5.1 %, the tolerance is 2.9 of them. The arl0 = 1000 case is a reference
-// test (tests/reference/detect/bocpd_calibration_reference_test.cc: a minute of simulation).
+// test (tests/reference/detect/bocpd_calibration_reference_test.cc: about a minute of CPU).
 #include <gtest/gtest.h>
 
 #include <cmath>
