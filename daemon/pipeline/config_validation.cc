@@ -136,8 +136,9 @@ Status ValidateDetector(const DetectorSpec& d, const std::vector<Model>& models,
                "must be > 1 (or 0: off), got " + Num(d.inflate_on_alarm()));
   }
   const double arl0 = d.arl0() > 0 ? d.arl0() : kDefaultArl0;
-  if ((kind == DetectorKind::kPageHinkley || kind == DetectorKind::kGlr) && d.threshold() == 0 &&
-      arl0 > kMaxSimulatedArl0) {
+  if ((kind == DetectorKind::kPageHinkley || kind == DetectorKind::kGlr ||
+       kind == DetectorKind::kBocpd) &&
+      d.threshold() == 0 && arl0 > kMaxSimulatedArl0) {
     return Bad(path + ".arl0", "simulated calibration is limited to arl0 <= " +
                                    Num(kMaxSimulatedArl0) + "; set threshold for a larger arl0");
   }

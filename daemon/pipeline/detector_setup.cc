@@ -1,8 +1,11 @@
 #include "daemon/pipeline/detector_setup.h"
 
+#include <algorithm>
 #include <array>
+#include <cmath>
 #include <utility>
 
+#include "daemon/pipeline/bocpd_calibration_cache.h"
 #include "estimators/detect/calibration.h"
 
 namespace bayline::pipeline {
@@ -68,6 +71,12 @@ std::string_view DirectionName(est::Direction direction) {
       return "";
   }
   return "";
+}
+
+int BocpdSimulationRuns(double arl0) {
+  const double runs = std::round(kBocpdSimulatedObservations / arl0);
+  return static_cast<int>(std::clamp(runs, static_cast<double>(kBocpdMinSimulationRuns),
+                                     static_cast<double>(kSimulationRuns)));
 }
 
 est::Status CalibrateDetector(const bayline::v1::DetectorSpec& spec, const std::string& path,
@@ -159,11 +168,21 @@ est::Status CalibrateDetector(const bayline::v1::DetectorSpec& spec, const std::
     }
     case DetectorKind::kBocpd: {
       auto& o = d.bocpd;
-      o.hazard = spec.hazard() > 0 ? spec.hazard() : 1.0 / target.arl0;
-      if (spec.recent() > 0) o.window = static_cast<int>(spec.recent());
-      if (spec.threshold() > 0) o.threshold = spec.threshold();
       o.holdoff = static_cast<int>(holdoff);
-      s = o.Validate();
+      o.hazard = spec.hazard() > 0 ? spec.hazard() : 1.0 / target.arl0;
+      if (spec.threshold() > 0) {  // raw: recent keeps its old default, 10
+        if (spec.recent() > 0) o.window = static_cast<int>(spec.recent());
+        o.threshold = spec.threshold();
+        s = o.Validate();
+      } else {
+        o.window =
+            spec.recent() > 0 ? static_cast<int>(spec.recent()) : est::BocpdWindowForShift(target);
+        s = o.Validate();
+        if (s.ok()) {
+          const est::SimulationBudget bocpd_budget{.runs = BocpdSimulationRuns(target.arl0)};
+          s = CachedCalibrateBocpdThreshold(target.arl0, &o, bocpd_budget);
+        }
+      }
       break;
     }
     case DetectorKind::kRecursiveCusum: {

@@ -71,10 +71,22 @@ struct SimulationBudget {
 inline constexpr double kMaxSimulatedRunLength = 1e9;
 
 // Monte Carlo ARL (mean of `runs` first alarm times) for any chart in this library at `shift`.
+// *standard_error (when not null) gets the standard error of the mean from the runs' sample sd.
 double SimulatePageHinkleyArl(const PageHinkleyOptions& o, double shift,
-                              const SimulationBudget& b = {});
-double SimulateGlrArl(const GlrOptions& o, double shift, const SimulationBudget& b = {});
-double SimulateCusumArl(const CusumOptions& o, double shift, const SimulationBudget& b = {});
-double SimulateEwmaArl(const EwmaOptions& o, double shift, const SimulationBudget& b = {});
+                              const SimulationBudget& b = {}, double* standard_error = nullptr);
+double SimulateGlrArl(const GlrOptions& o, double shift, const SimulationBudget& b = {},
+                      double* standard_error = nullptr);
+// Mean detection delay when the mean steps by `shift` after `change_at` in-control observations:
+// observations from the first shifted one to the alarm (1 = alarm on it), over b.runs runs without
+// a false alarm before the change (runs with one are redrawn, at most 1000 b.runs attempts, else
+// NaN). Page-Hinkley measures against the running mean, so a shift present from the first
+// observation is no change to it: its detection is measured this way. *standard_error (when not
+// null) gets the standard error of the mean from the runs' sample sd.
+double SimulatePageHinkleyDelay(const PageHinkleyOptions& o, double shift, int change_at,
+                                const SimulationBudget& b = {}, double* standard_error = nullptr);
+double SimulateCusumArl(const CusumOptions& o, double shift, const SimulationBudget& b = {},
+                        double* standard_error = nullptr);
+double SimulateEwmaArl(const EwmaOptions& o, double shift, const SimulationBudget& b = {},
+                       double* standard_error = nullptr);
 
 }  // namespace bayline::est

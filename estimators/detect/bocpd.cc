@@ -436,7 +436,8 @@ DetectorEvent Bocpd::AdvanceAlarm() {
     state_.origin_start = current - chosen.length;
     state_.alarm_active = true;
     state_.holdoff_left = options_.holdoff;
-    ev.statistic = 0;  // restarted statistic
+    // ev.statistic stays the value that crossed the threshold (the collapse restarts it for the
+    // next observation).
   }
   return ev;
 }

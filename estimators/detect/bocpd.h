@@ -40,9 +40,10 @@
 // Alarm. statistic = P(the current segment started within the last `window` (m) observations and
 // is not the origin segment | x_{1:t}) = sum over retained runs with r_t < m of P(r_t | x_{1:t}),
 // excluding the origin run (the run that began at the first observation, or the run kept at the
-// last alarm). raised when statistic >= `threshold` (while no alarm is active and not in hold-off).
-// On raise the posterior collapses onto the most probable run with r_t < m (the MAP change
-// point; that run becomes the new origin) and the next `holdoff` observations update the
+// last alarm). raised when statistic >= `threshold` (while no alarm is active and not in hold-off);
+// every event carries this statistic and the threshold, so a raised event shows statistic >=
+// threshold. On raise the posterior collapses onto the most probable run with r_t < m (the MAP
+// change point; that run becomes the new origin) and the next `holdoff` observations update the
 // posterior but cannot clear or raise. cleared on the first observation after the hold-off at
 // which statistic < threshold. A change inside the hold-off or while the alarm is active is folded
 // into the current alarm. onset_seq / onset_time of a raised event = the ObservationMark of the
@@ -57,6 +58,9 @@
 // about 5); a small hazard lowers both false alarms and sensitivity. Measured in-control alarm
 // rates with the defaults (m = 10, threshold 0.5, unit test above): 2.75e-3 per observation at
 // hazard 1/100 and 1.5e-4 at 1/1000 (normal data, prior kappa 0.1, a = b = 2).
+// calibration.h CalibrateBocpd chooses hazard, m and the threshold for a target in-control ARL on
+// an N(0,1) score (a change that grows older than m before the statistic reaches the threshold is
+// never alarmed on, so m there grows with ln(ARL0) / shift^2).
 //
 // Thread safety: none. No heap allocation in Update() after construction (except a rejection's
 // message).

@@ -60,7 +60,7 @@ bool SolveIncreasing(Arl arl, double target, double x0, double* out) {
 // bracket: a factor when > 1, else an additive step of -grow.
 template <typename Chart, typename Options>
 bool SimulatedThreshold(const Options& chart_options, double arl0, const SimulationBudget& budget,
-                        double guess, double grow, double* out) {
+                        double guess, double grow, double* out, int coarse_runs = 0) {
   const double cap =
       std::min(budget.max_length > 0 ? std::min(budget.max_length, kMaxSimulatedRunLength) : 1e7,
                50.0 * arl0);
@@ -100,8 +100,15 @@ bool SimulatedThreshold(const Options& chart_options, double arl0, const Simulat
     return sum / static_cast<double>(runs);
   };
   // Pilot runs find an upper bracket cheaply; the full set of runs then fixes the threshold.
+  // coarse_runs > 0: a first bracket from that few runs, for charts whose updates are costly (each
+  // bracket tried costs runs * ARL(bracket) updates).
   const int pilot = std::max(200, budget.runs / 8);
   double h_hi = guess;
+  for (int i = 0; coarse_runs > 0 && i < 40; ++i) {
+    simulate(coarse_runs, h_hi);
+    if (arl_at(h_hi) >= 1.3 * arl0) break;
+    h_hi = grow > 1.0 ? h_hi * grow : h_hi - grow;
+  }
   for (int i = 0; i < 40; ++i) {
     simulate(pilot, h_hi);
     if (arl_at(h_hi) >= 1.3 * arl0) break;
@@ -131,6 +138,26 @@ bool SimulatedThreshold(const Options& chart_options, double arl0, const Simulat
   *out = hi;
   return true;
 }
+
+// Bocpd seen as a chart for SimulatedThreshold: reads y, reports u = -ln(1 - statistic), an
+// increasing map of the statistic onto [0, 37] (so bracket growth by a factor works and records
+// near 1 keep their resolution). Reset() restores the empty state (capacity kept).
+class BocpdChart {
+ public:
+  explicit BocpdChart(const Bocpd::Options& o) : bocpd_(o) {}
+  void Reset() { (void)bocpd_.Restore(Bocpd::State{}); }
+  DetectorEvent Update(double y, const ObservationMark& mark) {
+    Sample s;
+    s.y = y;
+    DetectorEvent ev;
+    if (!bocpd_.Update(s, mark, &ev).ok()) ev.statistic = 0.0;  // N(0,1) input: never happens
+    ev.statistic = BocpdStatisticToLogScale(ev.statistic);
+    return ev;
+  }
+
+ private:
+  Bocpd bocpd_;
+};
 
 Status ValidateArl0(double arl0) {
   if (!(arl0 >= 2.0 && arl0 <= 1e7))
@@ -287,6 +314,89 @@ Status CalibrateGlr(const AlarmTarget& target, GlrOptions* options,
   o.threshold = h;
   *options = o;
   return Status::Ok();
+}
+
+Status CalibrateBocpdThreshold(double arl0, Bocpd::Options* options,
+                               const SimulationBudget& budget) {
+  if (Status s = ValidateArl0(arl0); !s.ok()) return s;
+  if (budget.runs < 100) return Invalid("simulation runs must be >= 100");
+  if (options->model != BocpdModel::kNormalGamma)
+    return Invalid("bocpd calibration needs the normal-gamma model (an N(0,1) score)");
+  Bocpd::Options o = *options;
+  o.threshold = 1.0;  // raised only at a statistic of exactly 1, a record above any bracket
+  o.holdoff = 0;
+  if (Status s = o.Validate(); !s.ok()) return s;
+  double u = 0;
+  if (!SimulatedThreshold<BocpdChart>(o, arl0, budget, 0.01, 1.6, &u, 50) ||
+      !(u < kBocpdMaxLogStatistic))
+    return Status::Error(ErrorCode::kNumericalFailure, "bocpd: threshold not found by simulation");
+  o.threshold = -std::expm1(-u);
+  o.holdoff = options->holdoff;
+  if (Status s = o.Validate(); !s.ok()) return s;
+  *options = o;
+  return Status::Ok();
+}
+
+Status CalibrateBocpd(const AlarmTarget& target, Bocpd::Options* options,
+                      const SimulationBudget& budget) {
+  if (Status s = target.Validate(); !s.ok()) return s;
+  Bocpd::Options o = *options;
+  o.hazard = 1.0 / target.arl0;
+  if (o.window == 0) o.window = BocpdWindowForShift(target);
+  if (Status s = CalibrateBocpdThreshold(target.arl0, &o, budget); !s.ok()) return s;
+  *options = o;
+  return Status::Ok();
+}
+
+int BocpdWindowForShift(const AlarmTarget& target) {
+  const double m = std::round(8.0 * std::log(target.arl0) / (target.shift * target.shift));
+  return static_cast<int>(std::clamp(m, 10.0, 200.0));
+}
+
+double BocpdStatisticToLogScale(double statistic) {
+  return -std::log1p(-std::clamp(statistic, 0.0, kBocpdMaxStatistic));
+}
+
+double SimulateBocpdDelay(const Bocpd::Options& o, double shift, int change_at,
+                          const SimulationBudget& b, double* standard_error) {
+  if (!o.Validate().ok() || !std::isfinite(shift) || b.runs < 1 || change_at < 0) return kNaN;
+  if (o.model != BocpdModel::kNormalGamma) return kNaN;
+  const double cap = b.max_length > 0 ? std::min(b.max_length, kMaxSimulatedRunLength) : 1e7;
+  std::mt19937_64 rng(b.seed);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  Bocpd chart(o);
+  double sum = 0.0, sum_sq = 0.0;
+  int done = 0;
+  // Runs with a false alarm before the change are redrawn; the bound keeps the loop finite when
+  // they all do (then NaN).
+  const std::int64_t max_attempts = 1000 * static_cast<std::int64_t>(b.runs);
+  for (std::int64_t attempt = 0; done < b.runs && attempt < max_attempts; ++attempt) {
+    (void)chart.Restore(Bocpd::State{});
+    double t = 0;
+    bool early = false;
+    while (t < change_at + cap) {
+      t += 1.0;
+      Sample s;
+      s.y = normal(rng) + (t > change_at ? shift : 0.0);
+      DetectorEvent ev;
+      if (!chart.Update(s, ObservationMark{}, &ev).ok()) return kNaN;
+      if (ev.raised) {
+        early = t <= change_at;
+        break;
+      }
+    }
+    if (early) continue;
+    sum += t - change_at;
+    sum_sq += (t - change_at) * (t - change_at);
+    ++done;
+  }
+  if (done < b.runs) return kNaN;
+  const double mean = sum / b.runs;
+  if (standard_error) {
+    const double var = b.runs > 1 ? std::max(0.0, (sum_sq - sum * mean) / (b.runs - 1)) : kNaN;
+    *standard_error = std::sqrt(var / b.runs);
+  }
+  return mean;
 }
 
 std::vector<double> CusumArlProfile(const CusumOptions& o, std::span<const double> shifts,

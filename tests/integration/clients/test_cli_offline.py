@@ -115,8 +115,50 @@ def test_threshold_table_and_json_agree_with_the_target(tmp_path):
     assert 0 < ewma["lambda"] <= 1 and ewma["limit"] > 0
     assert abs(ewma["arl"][0]["arl"] - 370) / 370 < 0.01
 
+    assert ewma["arl_method"] == "markov_chain" and ewma["arl0_achieved"] == ewma["arl"][0]["arl"]
+
     r = run_cli("threshold", "--arl0", "1")
     assert r.returncode == 1 and "arl0" in r.stderr
+
+
+def test_threshold_calibrates_the_simulated_detectors(tmp_path):
+    # page_hinkley, glr and bocpd: thresholds by simulation (calibration.h, 1000 runs: relative
+    # error about 3 %); the CLI measures the achieved in-control ARL with an independent seed and
+    # reports its 95 % half-width from the runs' sample sd. Check: the target lies within that
+    # half-width plus 10 % (3 calibration standard errors) of the measurement (the calibration's
+    # own contract, no outside source). Small arl0 and --runs keep the simulations short.
+    cases = [("page_hinkley", 200, 1000, {"delta", "threshold"}, "simulation_delay"),
+             ("glr", 200, 1000, {"window", "threshold"}, "simulation"),
+             ("bocpd", 100, 600, {"hazard", "recent", "threshold"}, "simulation_delay")]
+    for detector, arl0, runs, settings, method in cases:
+        r = run_cli("threshold", "--detector", detector, "--arl0", str(arl0), "--shift", "1",
+                    "--runs", str(runs), "--shifts", "0,1,3", "--json", check=True)
+        result = json.loads(r.stdout)
+        assert result["detector"] == detector and result["arl_method"] == method
+        assert settings <= set(result), result
+        assert result["runs"] == runs
+        achieved, half = result["arl0_achieved"], result["arl0_half_width"]
+        assert 0 < half < 0.1 * arl0, result
+        assert abs(achieved - arl0) <= half + 0.1 * arl0, result
+        # The design shift is caught far sooner than a false alarm, and a larger one sooner still.
+        arl = {p["shift"]: p["arl"] for p in result["arl"]}
+        assert arl[0] == achieved and result["arl_at_shift"] == arl[1]
+        assert arl[3] < arl[1] < 0.25 * arl0, result
+        if method == "simulation_delay":
+            assert result["change_at"] == 100
+    assert 0 < result["threshold"] < 1 and result["hazard"] == 1 / 100  # bocpd: a probability
+
+    table = run_cli("threshold", "--detector", "bocpd", "--arl0", "100", "--runs", "200",
+                    "--shifts", "0,2", check=True).stdout
+    assert "detectors { kind: \"bocpd\"" in table and "hazard: 0.01" in table
+    assert "in control:" in table and "+-" in table and "after 100 in-control" in table
+
+    r = run_cli("threshold", "--detector", "glr", "--arl0", "20000")
+    assert r.returncode == 1 and "arl0" in r.stderr
+    r = run_cli("threshold", "--detector", "bocpd", "--direction", "up")
+    assert r.returncode == 1 and "direction" in r.stderr
+    r = run_cli("threshold", "--detector", "page_hinkley", "--runs", "10")
+    assert r.returncode == 1 and "runs" in r.stderr
 
 
 def test_plot_from_replay_has_estimates_intervals_alarm_and_legend(tmp_path):

@@ -33,10 +33,10 @@ bayline::v1::DaemonConfig RichConfig() {
       detectors { kind: "ewma" arl0: 300 }
       detectors { kind: "page_hinkley" threshold: 8 watch: "ml" }
       detectors { kind: "glr" threshold: 6 window: 20 watch: "map" }
-      detectors { kind: "bocpd" hazard: 0.01 }
+      detectors { kind: "bocpd" hazard: 0.01 threshold: 0.5 }
       publish { every_n: 3 min_interval_ms: 2 } } }
     rules { name: "doors" match: "doors/**" spec {
-      model: "poisson" detectors { kind: "bocpd" } detectors { kind: "cusum" watch: "map" } } }
+      model: "poisson" detectors { kind: "bocpd" threshold: 0.5 } detectors { kind: "cusum" watch: "map" } } }
     rules { name: "rest" match: "**" spec { model: "auto" detectors { kind: "cusum" } } })");
 }
 
