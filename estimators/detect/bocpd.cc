@@ -428,15 +428,15 @@ DetectorEvent Bocpd::AdvanceAlarm() {
       ev.shift = after - before;
       ev.direction = after > before ? Direction::kUp : Direction::kDown;
     }
-    // Restart: collapse onto the MAP change point, which becomes the origin run.
+    // Restart from the prior, as at the first observation: in-control alarms then form a renewal
+    // process, so the ARL after re-arming is the calibrated one (collapsing onto the MAP change
+    // point instead kept a segment fitted to the alarming observations and halved it).
     runs.clear();
-    Run kept = chosen;
-    kept.log_mass = 0;
-    runs.push_back(kept);
-    state_.origin_start = current - chosen.length;
+    state_.count = 0;
+    state_.origin_start = 0;
     state_.alarm_active = true;
     state_.holdoff_left = options_.holdoff;
-    // ev.statistic stays the value that crossed the threshold (the collapse restarts it for the
+    // ev.statistic stays the value that crossed the threshold (the restart resets it for the
     // next observation).
   }
   return ev;

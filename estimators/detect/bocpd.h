@@ -39,28 +39,29 @@
 //
 // Alarm. statistic = P(the current segment started within the last `window` (m) observations and
 // is not the origin segment | x_{1:t}) = sum over retained runs with r_t < m of P(r_t | x_{1:t}),
-// excluding the origin run (the run that began at the first observation, or the run kept at the
-// last alarm). raised when statistic >= `threshold` (while no alarm is active and not in hold-off);
-// every event carries this statistic and the threshold, so a raised event shows statistic >=
-// threshold. On raise the posterior collapses onto the most probable run with r_t < m (the MAP
-// change point; that run becomes the new origin) and the next `holdoff` observations update the
-// posterior but cannot clear or raise. cleared on the first observation after the hold-off at
-// which statistic < threshold. A change inside the hold-off or while the alarm is active is folded
-// into the current alarm. onset_seq / onset_time of a raised event = the ObservationMark of the
-// first observation of the MAP-change-point run (= seq - r when sequence numbers are contiguous);
-// shift = posterior mean of the model parameter (mean, rate or probability) in that run minus the
-// one in the most probable retained run that started before the window, direction kUp / kDown by
-// its sign (NaN and kBoth if no such run is retained). The collapse is a decision, not pruning: it
-// is not added to discarded_mass. Other events carry direction kBoth and no onset.
-// map_run_length() is the overall MAP run length after the last update.
-// Choosing m and the threshold: the statistic only sums r_t < m, so m must exceed the number of
-// observations a change needs to become evident (a 3 sd mean step with unknown variance takes
-// about 5); a small hazard lowers both false alarms and sensitivity. Measured in-control alarm
-// rates with the defaults (m = 10, threshold 0.5, unit test above): 2.75e-3 per observation at
-// hazard 1/100 and 1.5e-4 at 1/1000 (normal data, prior kappa 0.1, a = b = 2).
-// calibration.h CalibrateBocpd chooses hazard, m and the threshold for a target in-control ARL on
-// an N(0,1) score (a change that grows older than m before the statistic reaches the threshold is
-// never alarmed on, so m there grows with ln(ARL0) / shift^2).
+// excluding the origin run (the run that began at the first observation, or at the first one after
+// the last alarm). raised when statistic >= `threshold` (while no alarm is active and not in
+// hold-off); every event carries this statistic and the threshold, so a raised event shows
+// statistic >= threshold. On raise the detector restarts from its prior, as at its first
+// observation (in-control alarms then form a renewal process, so the ARL after re-arming equals the
+// calibrated one; a collapse onto the MAP change point kept a segment fitted to the alarming
+// observations and halved it), and the next `holdoff` observations update the posterior but cannot
+// clear or raise. cleared on the first observation after the hold-off at which statistic <
+// threshold. A change inside the hold-off or while the alarm is active is folded into the current
+// alarm. onset_seq / onset_time of a raised event = the ObservationMark of the first observation of
+// the MAP-change-point run (= seq - r when sequence numbers are contiguous); shift = posterior mean
+// of the model parameter (mean, rate or probability) in that run minus the one in the most probable
+// retained run that started before the window, direction kUp / kDown by its sign (NaN and kBoth if
+// no such run is retained). The restart is a decision, not pruning: it is not added to
+// discarded_mass. Other events carry direction kBoth and no onset. map_run_length() is the overall
+// MAP run length after the last update. Choosing m and the threshold: the statistic only sums r_t <
+// m, so m must exceed the number of observations a change needs to become evident (a 3 sd mean step
+// with unknown variance takes about 5); a small hazard lowers both false alarms and sensitivity.
+// Measured in-control alarm rates with the defaults (m = 10, threshold 0.5, unit test
+// above): 2.75e-3 per observation at hazard 1/100 and 1.5e-4 at 1/1000 (normal data, prior kappa
+// 0.1, a = b = 2). calibration.h CalibrateBocpd chooses hazard, m and the threshold for a target
+// in-control ARL on an N(0,1) score (a change that grows older than m before the statistic reaches
+// the threshold is never alarmed on, so m there grows with ln(ARL0) / shift^2).
 //
 // Thread safety: none. No heap allocation in Update() after construction (except a rejection's
 // message).
@@ -164,7 +165,7 @@ class Bocpd {
   // Pruning: drops runs below prune_epsilon (never the MAP), then the least probable down to
   // max_run_lengths; renormalises and adds the dropped mass to discarded_mass.
   void PruneRuns();
-  // The alarm statistic and life cycle (raise with collapse onto the MAP change point, hold-off,
+  // The alarm statistic and life cycle (raise with a restart from the prior, hold-off,
   // clear) for the observation just absorbed.
   DetectorEvent AdvanceAlarm();
 
