@@ -1,6 +1,8 @@
 // threshold: from the false-alarm rate a user accepts (--arl0: mean observations between false
 // alarms) and the shift to catch (--shift, sd units), the detector settings (calibration.h), the
-// config lines that set them, and the ARL over a range of shifts (arl.h).
+// config lines that set them, and the ARL over a range of shifts (arl.h). With --channels,
+// --rate-per-day (or --interval) and --false-alarms-per-day the ARL0 is the one a fleet budget
+// gives each channel (daemon/pipeline/fleet_budget.h: ARL0 = N r / B).
 #include <google/protobuf/struct.pb.h>
 #include <google/protobuf/text_format.h>
 
@@ -15,6 +17,7 @@
 #include "clients/cli/number_parsing.h"
 #include "clients/cli/observation_mapping.h"
 #include "clients/cli/text_format.h"
+#include "daemon/pipeline/fleet_budget.h"
 #include "estimators/detect/arl.h"
 #include "estimators/detect/calibration.h"
 
@@ -28,7 +31,37 @@ struct ThresholdOptions {
   std::string direction = "both";
   std::string shifts = "0,0.25,0.5,0.75,1,1.5,2,2.5,3";
   bool json = false;
+  // Fleet budget (all three, or none): channels N, per-channel rate r, false alarms per day B.
+  double channels = 0, rate_per_day = 0, interval_s = 0, false_alarms_per_day = 0;
+  CLI::Option* arl0_option = nullptr;
 };
+
+// The fleet's ARL0 into o->arl0 when the fleet flags are given; a CommandError when they are
+// incomplete or clash.
+bool ApplyFleetBudget(ThresholdOptions* o) {
+  const bool any = o->channels != 0 || o->rate_per_day != 0 || o->interval_s != 0 ||
+                   o->false_alarms_per_day != 0;
+  if (!any) return false;
+  auto bad = [](const std::string& why) { throw CommandError(kExitBadInput, why); };
+  if (o->arl0_option != nullptr && o->arl0_option->count() > 0)
+    bad("--arl0 and --false-alarms-per-day exclude each other (the budget gives the ARL0)");
+  if (!(o->channels >= 1 && std::isfinite(o->channels))) bad("--channels: must be >= 1");
+  if (!(o->false_alarms_per_day > 0 && std::isfinite(o->false_alarms_per_day)))
+    bad("--false-alarms-per-day: must be finite and > 0");
+  if ((o->rate_per_day != 0) == (o->interval_s != 0))
+    bad("give the channel's rate as one of --rate-per-day or --interval");
+  if (o->interval_s != 0) o->rate_per_day = 86400.0 / o->interval_s;
+  if (!(o->rate_per_day > 0 && std::isfinite(o->rate_per_day)))
+    bad("--rate-per-day / --interval: must be finite and > 0");
+  o->arl0 = bayline::pipeline::FleetArl0(o->channels, o->rate_per_day, o->false_alarms_per_day);
+  if (!(o->arl0 >= 2 && o->arl0 <= 1e7)) {
+    bad("the fleet gives each channel ARL0 = N r / B = " + FormatNumber(o->arl0) +
+        " observations, outside [2, 1e7] (the daemon clamps it to [" +
+        FormatNumber(bayline::pipeline::kFleetMinArl0) + ", " +
+        FormatNumber(bayline::pipeline::kFleetMaxArl0) + "])");
+  }
+  return true;
+}
 
 est::Direction ToDirection(const std::string& d) {
   if (d == "up") return est::Direction::kUp;
@@ -36,7 +69,8 @@ est::Direction ToDirection(const std::string& d) {
   return est::Direction::kBoth;
 }
 
-int RunThreshold(const ThresholdOptions& o) {
+int RunThreshold(ThresholdOptions o) {
+  const bool fleet = ApplyFleetBudget(&o);
   std::vector<double> shifts;
   for (const auto& item : SplitList(o.shifts)) {
     auto v = ParseFiniteDouble(item);
@@ -77,6 +111,11 @@ int RunThreshold(const ThresholdOptions& o) {
     f["arl0"].set_number_value(o.arl0);
     f["shift"].set_number_value(o.shift);
     for (const auto& [name, value] : settings) f[name].set_number_value(value);
+    if (fleet) {
+      f["channels"].set_number_value(o.channels);
+      f["rate_per_day"].set_number_value(o.rate_per_day);
+      f["false_alarms_per_day"].set_number_value(o.false_alarms_per_day);
+    }
     auto* profile = f["arl"].mutable_list_value();
     for (size_t i = 0; i < shifts.size(); ++i) {
       auto* point = profile->add_values()->mutable_struct_value()->mutable_fields();
@@ -85,6 +124,13 @@ int RunThreshold(const ThresholdOptions& o) {
     }
     std::cout << MessageJsonLine(out) << "\n";
     return 0;
+  }
+  if (fleet) {
+    std::cout << "fleet: " << FormatNumber(o.channels) << " channels x "
+              << FormatNumber(o.rate_per_day) << " observations/day, "
+              << FormatNumber(o.false_alarms_per_day)
+              << " false alarms/day in all: ARL0 = N r / B = " << FormatNumber(o.arl0)
+              << " observations per channel\n";
   }
   std::cout << o.detector << " (" << o.direction << ") for one false alarm per "
             << FormatNumber(o.arl0) << " observations in control, tuned to a shift of "
@@ -98,7 +144,13 @@ int RunThreshold(const ThresholdOptions& o) {
   google::protobuf::TextFormat::Printer printer;
   printer.SetSingleLineMode(true);
   printer.PrintToString(spec, &text);
-  std::cout << "config:   detectors { " << text << "}\n\n";
+  std::cout << "config:   detectors { " << text << "}\n";
+  if (fleet) {
+    std::cout << "budget:   detectors { kind: \"" << o.detector
+              << "\" false_alarms_per_day: " << FormatNumber(o.false_alarms_per_day)
+              << " }  (each channel's ARL0 from its own rate)\n";
+  }
+  std::cout << "\n";
   std::vector<std::vector<std::string>> rows = {{"SHIFT (sd)", "ARL (observations to alarm)"}};
   for (size_t i = 0; i < shifts.size(); ++i) {
     char arl[32];
@@ -115,9 +167,17 @@ Subcommand AddThresholdCommand(CLI::App& app) {
   auto o = std::make_shared<ThresholdOptions>();
   CLI::App* sub = app.add_subcommand(
       "threshold", "detector settings for a false-alarm rate and a shift, with the ARL they give");
-  sub->add_option("--arl0", o->arl0,
-                  "in-control ARL: mean observations between false alarms, in [2, 1e7]")
-      ->capture_default_str();
+  o->arl0_option =
+      sub->add_option("--arl0", o->arl0,
+                      "in-control ARL: mean observations between false alarms, in [2, 1e7]")
+          ->capture_default_str();
+  sub->add_option("--channels", o->channels, "fleet budget: number of channels N");
+  sub->add_option("--rate-per-day", o->rate_per_day,
+                  "fleet budget: a channel's observations per day r");
+  sub->add_option("--interval", o->interval_s,
+                  "fleet budget: seconds between a channel's observations (r = 86400 / interval)");
+  sub->add_option("--false-alarms-per-day", o->false_alarms_per_day,
+                  "fleet budget: false alarms per day B over all N channels (ARL0 = N r / B)");
   sub->add_option("--shift", o->shift, "shift to detect quickly, in sd units (> 0)")
       ->capture_default_str();
   sub->add_option("--detector", o->detector, "cusum or ewma")
