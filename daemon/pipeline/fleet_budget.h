@@ -19,10 +19,10 @@
 // that grows by 10 % recalibrates each channel about twice, and a steady fleet almost never. A
 // recalibration costs one table look-up (ThresholdTable: interpolation in ln ARL0 in a table
 // computed once per chart setting for the whole daemon, FleetPools) and the rebuild of the chart's
-// options (a few ns); the check
-// itself one atomic load and two comparisons. Until the channel's rate is known (its first
-// ObservationRate::kMinIntervals intervals) its ARL0 is kFleetMaxArl0: practically no false
-// alarms, only a gross shift is caught. The channel counts in N from its first observation.
+// options (a few ns); the check itself one atomic load and two comparisons. Until the channel's
+// rate is known (its first ObservationRate::kMinIntervals intervals) its ARL0 is kFleetMaxArl0:
+// practically no false alarms, only a gross shift is caught. The channel counts in N from its first
+// observation.
 //
 // Supported detectors: cusum (h per channel, k fixed by the rule) and ewma (L per channel, lambda
 // fixed by the rule, chosen for a shift at ARL0 = kFleetDesignArl0 unless given). page_hinkley and
