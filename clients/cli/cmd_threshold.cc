@@ -12,6 +12,8 @@
 //                        from the first observation is no change to them: arl.h
 //                        SimulatePageHinkleyDelay, calibration.h SimulateBocpdDelay); at shift 0
 //                        the in-control ARL. Same runs, seed and half-width as above.
+// With --channels, --rate-per-day (or --interval) and --false-alarms-per-day the ARL0 is the one a
+// fleet budget gives each channel (daemon/pipeline/fleet_budget.h: ARL0 = N r / B).
 // The in-control ARL achieved (shift 0) and the ARL at the design shift are always printed, also
 // when --shifts lacks them. The 95 % half-width of a simulated ARL is 1.96 standard errors, from
 // the runs' sample sd.
@@ -32,6 +34,7 @@
 #include "clients/cli/observation_mapping.h"
 #include "clients/cli/text_format.h"
 #include "daemon/pipeline/detector_setup.h"
+#include "daemon/pipeline/fleet_budget.h"
 #include "estimators/detect/arl.h"
 #include "estimators/detect/calibration.h"
 
@@ -49,7 +52,37 @@ struct ThresholdOptions {
   std::string shifts = "0,0.25,0.5,0.75,1,1.5,2,2.5,3";
   int runs = 1000;
   bool json = false;
+  // Fleet budget (all three, or none): channels N, per-channel rate r, false alarms per day B.
+  double channels = 0, rate_per_day = 0, interval_s = 0, false_alarms_per_day = 0;
+  CLI::Option* arl0_option = nullptr;
 };
+
+// The fleet's ARL0 into o->arl0 when the fleet flags are given; a CommandError when they are
+// incomplete or clash.
+bool ApplyFleetBudget(ThresholdOptions* o) {
+  const bool any = o->channels != 0 || o->rate_per_day != 0 || o->interval_s != 0 ||
+                   o->false_alarms_per_day != 0;
+  if (!any) return false;
+  auto bad = [](const std::string& why) { throw CommandError(kExitBadInput, why); };
+  if (o->arl0_option != nullptr && o->arl0_option->count() > 0)
+    bad("--arl0 and --false-alarms-per-day exclude each other (the budget gives the ARL0)");
+  if (!(o->channels >= 1 && std::isfinite(o->channels))) bad("--channels: must be >= 1");
+  if (!(o->false_alarms_per_day > 0 && std::isfinite(o->false_alarms_per_day)))
+    bad("--false-alarms-per-day: must be finite and > 0");
+  if ((o->rate_per_day != 0) == (o->interval_s != 0))
+    bad("give the channel's rate as one of --rate-per-day or --interval");
+  if (o->interval_s != 0) o->rate_per_day = 86400.0 / o->interval_s;
+  if (!(o->rate_per_day > 0 && std::isfinite(o->rate_per_day)))
+    bad("--rate-per-day / --interval: must be finite and > 0");
+  o->arl0 = bayline::pipeline::FleetArl0(o->channels, o->rate_per_day, o->false_alarms_per_day);
+  if (!(o->arl0 >= 2 && o->arl0 <= 1e7)) {
+    bad("the fleet gives each channel ARL0 = N r / B = " + FormatNumber(o->arl0) +
+        " observations, outside [2, 1e7] (the daemon clamps it to [" +
+        FormatNumber(bayline::pipeline::kFleetMinArl0) + ", " +
+        FormatNumber(bayline::pipeline::kFleetMaxArl0) + "])");
+  }
+  return true;
+}
 
 // A calibrated detector: its settings and how to get its ARL at a shift.
 struct Calibrated {
@@ -130,7 +163,8 @@ Calibrated Calibrate(const ThresholdOptions& o, const est::SimulationBudget& che
   return c;
 }
 
-int RunThreshold(const ThresholdOptions& o) {
+int RunThreshold(ThresholdOptions o) {
+  const bool fleet = ApplyFleetBudget(&o);
   std::vector<double> shifts;
   for (const auto& item : SplitList(o.shifts)) {
     auto v = ParseFiniteDouble(item);
@@ -182,6 +216,11 @@ int RunThreshold(const ThresholdOptions& o) {
     f["shift"].set_number_value(o.shift);
     for (const auto& [name, value] : c.settings) f[name].set_number_value(value);
     f["arl_method"].set_string_value(method);
+    if (fleet) {
+      f["channels"].set_number_value(o.channels);
+      f["rate_per_day"].set_number_value(o.rate_per_day);
+      f["false_alarms_per_day"].set_number_value(o.false_alarms_per_day);
+    }
     if (c.simulated) {
       f["runs"].set_number_value(o.runs);
       f["seed"].set_number_value(static_cast<double>(kCheckSeed));
@@ -209,6 +248,13 @@ int RunThreshold(const ThresholdOptions& o) {
       std::snprintf(text, sizeof text, "%.1f", arl);
     return std::string(text);
   };
+  if (fleet) {
+    std::cout << "fleet: " << FormatNumber(o.channels) << " channels x "
+              << FormatNumber(o.rate_per_day) << " observations/day, "
+              << FormatNumber(o.false_alarms_per_day)
+              << " false alarms/day in all: ARL0 = N r / B = " << FormatNumber(o.arl0)
+              << " observations per channel\n";
+  }
   std::cout << o.detector << " (" << o.direction << ") for one false alarm per "
             << FormatNumber(o.arl0) << " observations in control, tuned to a shift of "
             << FormatNumber(o.shift) << " sd\n";
@@ -222,6 +268,11 @@ int RunThreshold(const ThresholdOptions& o) {
   printer.SetSingleLineMode(true);
   printer.PrintToString(c.raw, &text);
   std::cout << "config:   detectors { " << text << "}\n";
+  if (fleet) {
+    std::cout << "budget:   detectors { kind: \"" << o.detector
+              << "\" false_alarms_per_day: " << FormatNumber(o.false_alarms_per_day)
+              << " }  (each channel's ARL0 from its own rate; cusum and ewma only)\n";
+  }
   if (!c.simulated) {
     std::cout << "ARL:      exact (Markov chain), zero-state\n";
   } else {
@@ -249,10 +300,17 @@ Subcommand AddThresholdCommand(CLI::App& app) {
   auto o = std::make_shared<ThresholdOptions>();
   CLI::App* sub = app.add_subcommand(
       "threshold", "detector settings for a false-alarm rate and a shift, with the ARL they give");
-  sub->add_option("--arl0", o->arl0,
-                  "in-control ARL: mean observations between false alarms, in [2, 1e7] (simulated "
-                  "calibrations: <= 1e4)")
-      ->capture_default_str();
+  o->arl0_option = sub->add_option("--arl0", o->arl0,
+                                   "in-control ARL: mean observations between false alarms, in "
+                                   "[2, 1e7] (simulated calibrations: <= 1e4)")
+                       ->capture_default_str();
+  sub->add_option("--channels", o->channels, "fleet budget: number of channels N");
+  sub->add_option("--rate-per-day", o->rate_per_day,
+                  "fleet budget: a channel's observations per day r");
+  sub->add_option("--interval", o->interval_s,
+                  "fleet budget: seconds between a channel's observations (r = 86400 / interval)");
+  sub->add_option("--false-alarms-per-day", o->false_alarms_per_day,
+                  "fleet budget: false alarms per day B over all N channels (ARL0 = N r / B)");
   sub->add_option("--shift", o->shift, "shift to detect quickly, in sd units (> 0)")
       ->capture_default_str();
   sub->add_option("--detector", o->detector, "cusum, ewma, page_hinkley, glr or bocpd")

@@ -10,7 +10,7 @@
 // name the registry compares sits right after the header, the estimators right after the name.
 // A gaussian channel with the default rule and a 28-byte name takes 864 bytes: 120 (header, of
 // which 32 the sequence window) + 32 (name) + 208 + 80 + 192 (ls, ml, map: each 8 bytes of kind +
-// the estimator) + 224 (the CUSUM slot with its standardizer), rounded to 16; about 905 bytes
+// the estimator) + 232 (the CUSUM slot with its standardizer), rounded to 16; about 905 bytes
 // resident per channel with the malloc header and the registry's slots (tests/bench/pipeline
 // measures it).
 //

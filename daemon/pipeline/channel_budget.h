@@ -17,6 +17,8 @@
 #include <atomic>
 #include <cstdint>
 
+#include "daemon/pipeline/fleet_budget.h"
+
 namespace bayline::pipeline {
 
 class ChannelBudget {
@@ -44,9 +46,13 @@ class ChannelBudget {
   uint64_t limit() const { return limit_.load(std::memory_order_relaxed); }
   void set_limit(uint64_t limit) { limit_.store(limit, std::memory_order_relaxed); }
 
+  // The channel counts of the fleet false-alarm budgets (fleet_budget.h), shared the same way.
+  FleetPools& fleet() { return fleet_; }
+
  private:
   std::atomic<uint64_t> used_{0};
   std::atomic<uint64_t> limit_;
+  FleetPools fleet_;
 };
 
 }  // namespace bayline::pipeline

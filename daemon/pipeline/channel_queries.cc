@@ -92,7 +92,7 @@ est::Status PipelineState::Reconfigure(const bayline::v1::DaemonConfig& config,
                                        std::vector<std::string>* reset) {
   if (est::Status s = ValidateConfig(config); !s.ok()) return s;
   RuleSet rules;
-  if (est::Status s = rules.Build(config); !s.ok()) return s;
+  if (est::Status s = rules.Build(config, &budget_->fleet()); !s.ok()) return s;
 
   // Decide for every channel before changing anything.
   std::vector<std::pair<Channel*, std::shared_ptr<const ResolvedSpec>>> keep;

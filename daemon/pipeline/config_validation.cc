@@ -83,6 +83,7 @@ Status ValidateDetector(const DetectorSpec& d, const std::vector<Model>& models,
   if (!(d.arl0() == 0 || (d.arl0() >= 2 && d.arl0() <= 1e7))) {
     return Bad(path + ".arl0", "must be in [2, 1e7], got " + Num(d.arl0()));
   }
+  if (Status s = ValidateFleetBudget(d, path); !s.ok()) return s;  // fleet_budget.h
   if (!(d.shift() >= 0 && Finite(d.shift())))
     return Bad(path + ".shift", "must be finite and > 0, got " + Num(d.shift()));
   if (!d.mode().empty() && d.mode() != "self_starting" && d.mode() != "phase2") {
@@ -317,6 +318,10 @@ Status ValidateConfig(const bayline::v1::DaemonConfig& config) {
   }
   if (config.journal().interval_ms() > 3'600'000)
     return Bad("journal.interval_ms", "must be <= 3600000");
+  if (!(config.false_alarms_per_day() >= 0 && Finite(config.false_alarms_per_day()))) {
+    return Bad("false_alarms_per_day",
+               "must be finite and > 0 (or 0: off), got " + Num(config.false_alarms_per_day()));
+  }
   const auto& limits = config.limits();
   if (limits.max_channel_name_bytes() > 65536)
     return Bad("limits.max_channel_name_bytes", "must be <= 65536");

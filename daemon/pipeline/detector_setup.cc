@@ -99,6 +99,11 @@ est::Status CalibrateDetector(const bayline::v1::DetectorSpec& spec, const std::
   const int64_t holdoff = spec.holdoff();
   est::AlarmTarget target;
   target.arl0 = spec.arl0() > 0 ? spec.arl0() : kDefaultArl0;
+  const bool budgeted = spec.false_alarms_per_day() > 0;  // fleet_budget.h
+  if (budgeted) {
+    if (est::Status v = ValidateFleetBudget(spec, path); !v.ok()) return v;
+    target.arl0 = d.kind == DetectorKind::kEwma ? kFleetDesignArl0 : kFleetMaxArl0;
+  }
   target.shift = spec.shift() > 0 ? spec.shift() : 1.0;
   const est::SimulationBudget budget{.runs = kSimulationRuns};
 
@@ -209,6 +214,11 @@ est::Status CalibrateDetector(const bayline::v1::DetectorSpec& spec, const std::
       s = o.Validate();
       break;
     }
+  }
+  if (s.ok() && budgeted) {  // cusum or ewma (ValidateFleetBudget)
+    d.fleet = MakeFleetBudget(
+        spec.false_alarms_per_day(),
+        d.kind == DetectorKind::kCusum ? FleetChart::kCusum : FleetChart::kEwma, d.cusum, d.ewma);
   }
   if (!s.ok()) return Prefixed(path, s);
   *out = std::move(d);

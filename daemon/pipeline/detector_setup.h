@@ -24,6 +24,9 @@
 //   recursive_cusum, recursive_cusum_sq: significance (default 0.05), block length `window`
 //                (default 100).
 //   band         band_low, band_high on parameter `parameter` (bound per channel model).
+// With false_alarms_per_day (cusum, ewma; fleet_budget.h) the rule's calibration is at
+// kFleetMaxArl0 for cusum (k, head start) and kFleetDesignArl0 for ewma (lambda), and `fleet`
+// holds the budget; RuleSet::Build completes it (BindFleetBudget: N and the threshold table).
 #pragma once
 
 #include <cstdint>
@@ -31,6 +34,7 @@
 #include <string_view>
 
 #include "bayline/v1/config.pb.h"
+#include "daemon/pipeline/fleet_budget.h"
 #include "estimators/core/status.h"
 #include "estimators/detect/alarm.h"
 #include "estimators/detect/band.h"
@@ -92,6 +96,10 @@ struct DetectorSetup {
   est::RecursiveCusum::Options recursive_cusum;
   est::RecursiveCusumSquares::Options recursive_cusum_squares;
   est::ToleranceBand::Options band;
+
+  // Fleet budget (fleet_budget.h): set for a cusum / ewma with false_alarms_per_day; its options
+  // above then hold the rule's calibration, and each channel its own threshold.
+  std::shared_ptr<const FleetBudgetSetup> fleet;
 };
 
 // Builds and calibrates. `path` prefixes error messages ("rules[0].spec.detectors[1]").

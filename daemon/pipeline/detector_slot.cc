@@ -38,6 +38,23 @@ DetectorSlot::Impl DetectorSlot::MakeImpl(const DetectorSetup& d) {
   return Impl(std::in_place_type<est::Cusum>, d.cusum);
 }
 
+void DetectorSlot::SetThreshold(double head_start_fraction, double threshold, Impl* impl) {
+  if (auto* c = std::get_if<est::Cusum>(impl)) {
+    est::CusumOptions o = c->options();
+    o.h = threshold;
+    o.head_start = head_start_fraction * threshold;
+    const est::Cusum::State state = c->state();
+    *c = est::Cusum(o);
+    (void)c->Restore(state);  // the state was valid and does not depend on h: cannot fail
+  } else if (auto* e = std::get_if<est::Ewma>(impl)) {
+    est::EwmaOptions o = e->options();
+    o.L = threshold;
+    const est::Ewma::State state = e->state();
+    *e = est::Ewma(o);
+    (void)e->Restore(state);  // as above
+  }
+}
+
 bool DetectorSlot::ExactScoreFamily(Model model, est::ScoreFamily* family) {
   switch (model) {
     case Model::kPoisson:
@@ -100,6 +117,10 @@ bool DetectorSlot::ReadsInnovation(const DetectorSetup& setup, Model model,
 DetectorSlot::DetectorSlot(const DetectorSetup& setup, Model model, EstimatorKind watched_kind,
                            uint64_t score_seed)
     : impl_(MakeImpl(setup)), source_(SourceFor(setup, model, watched_kind)) {
+  if (setup.fleet != nullptr) {
+    fleet_ = std::make_unique<FleetChannelState>(*setup.fleet);
+    SetThreshold(fleet_->head_start_fraction(), fleet_->threshold(), &impl_);
+  }
   if (!ReadsZ(setup)) return;  // detectors that do not read z keep no standardizer
   switch (source_) {
     case Source::kLsResidual:
@@ -164,6 +185,10 @@ Status DetectorSlot::Update(const DetectorSetup& setup, const DetectorInput& in,
                             est::DetectorEvent* event) {
   *event = est::DetectorEvent();
   const Standardizer saved = standardizer_;  // small: undone if the detector fails
+  if (fleet_ != nullptr && fleet_->Observe(*setup.fleet, in.sample->time)) {
+    // cusum / ewma: their Update below cannot fail, so nothing needs undoing.
+    SetThreshold(fleet_->head_start_fraction(), fleet_->threshold(), &impl_);
+  }
   const double z = StandardizedValue(setup, in);
   Status s = std::visit(
       [&](auto& slot) -> Status {
@@ -254,6 +279,12 @@ void DetectorSlot::Pack(std::vector<double>* out) const {
   if (const auto* s = std::get_if<est::ExactScoreStandardizer>(&standardizer_)) s->state().Pack(w);
   EndSection(out, section);
 
+  if (fleet_ != nullptr) {
+    section = BeginSection(out);
+    fleet_->values().Pack(w);
+    EndSection(out, section);
+  }
+
   std::visit([&](const auto& slot) { Unwrap(slot).state().Pack(w); }, impl_);
 }
 
@@ -287,10 +318,21 @@ Status DetectorSlot::Unpack(std::span<const double> values) {
   if (!s.ok()) return s;
 
   Impl impl = impl_;
+  FleetChannelState::Values fleet;
+  if (fleet_ != nullptr) {
+    std::span<const double> fleet_values;
+    if (!NextSection(values, &pos, &fleet_values)) return BadState("fleet budget state is missing");
+    est::StateReader fr(fleet_values);
+    s = fleet.Unpack(fr);
+    if (s.ok()) s = fr.status();
+    if (!s.ok()) return s;
+    SetThreshold(fleet_->head_start_fraction(), fleet.threshold, &impl);
+  }
   s = std::visit([&](auto& slot) { return UnpackInto(Unwrap(slot), values.subspan(pos)); }, impl);
   if (!s.ok()) return s;
 
   impl_ = std::move(impl);
+  if (fleet_ != nullptr) fleet_->set_values(fleet);
   standardizer_ = std::move(standardizer);
   alarms_raised_ = raised;
   last_statistic_ = statistic;

@@ -97,7 +97,11 @@ class DetectorSlot {
   const LastAlarm& last_alarm() const;
   void RecordAlarm(const LastAlarm& alarm);
 
-  // Layout: [3 bookkeeping + 8 last-alarm values][n_std, standardizer state][detector state].
+  // The fleet budget's state of this detector (fleet_budget.h); nullptr when not budgeted.
+  const FleetChannelState* fleet() const { return fleet_.get(); }
+
+  // Layout: [3 bookkeeping + 8 last-alarm values][n_std, standardizer state]
+  // ([n_fleet, fleet budget state] when budgeted)[detector state].
   void Pack(std::vector<double>* out) const;
   est::Status Unpack(std::span<const double> values);  // kInvalidState, nothing changed, on error
 
@@ -120,6 +124,8 @@ class DetectorSlot {
   static Impl MakeImpl(const DetectorSetup& setup);
   static Source SourceFor(const DetectorSetup& setup, Model model, EstimatorKind watched_kind);
   static bool ReadsZ(const DetectorSetup& setup);
+  // Budgeted cusum / ewma: `impl` with its threshold (h or L) replaced, state kept.
+  static void SetThreshold(double head_start_fraction, double threshold, Impl* impl);
   double StandardizedValue(const DetectorSetup& setup, const DetectorInput& in);
 
   Impl impl_;
@@ -130,6 +136,8 @@ class DetectorSlot {
   uint64_t alarms_raised_ = 0;
   // Allocated at the first alarm only: most channels never alarm, so they do not carry it.
   std::unique_ptr<LastAlarm> last_alarm_;
+  // Budgeted detectors only (fleet_budget.h): rate, ARL0 and threshold in force, membership of N.
+  std::unique_ptr<FleetChannelState> fleet_;
 };
 
 }  // namespace bayline::pipeline

@@ -27,8 +27,8 @@ PipelineState::PipelineState(const bayline::v1::DaemonConfig& config,
       budget_(budget != nullptr ? std::move(budget)
                                 : std::make_shared<ChannelBudget>(limits_.max_channels)) {
   budget_->set_limit(limits_.max_channels);
-  (void)rules_.Build(
-      config_);  // a rule that fails calibration rejects its channels (see pipeline.h)
+  // A rule that fails calibration rejects its channels (see pipeline.h).
+  (void)rules_.Build(config_, &budget_->fleet());
   x_full_.reserve(limits_.max_regressors + 1);
 }
 

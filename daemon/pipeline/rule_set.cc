@@ -17,7 +17,7 @@ std::string RuleDisplayName(const bayline::v1::Rule& rule, int index) {
   return rule.name().empty() ? "rules[" + std::to_string(index) + "]" : rule.name();
 }
 
-est::Status RuleSet::Build(const bayline::v1::DaemonConfig& config) {
+est::Status RuleSet::Build(const bayline::v1::DaemonConfig& config, FleetPools* fleet) {
   rules_.clear();
   cache_.clear();
   est::Status first_failure;
@@ -30,7 +30,14 @@ est::Status RuleSet::Build(const bayline::v1::DaemonConfig& config) {
       DetectorSetup setup;
       const std::string path =
           "rules[" + std::to_string(i) + "].spec.detectors[" + std::to_string(d) + "]";
-      c.calibration = CalibrateDetector(c.rule.spec().detectors(d), path, &setup);
+      bool inherited = false;  // the daemon's false_alarms_per_day (fleet_budget.h)
+      const auto spec = WithFleetDefault(config, c.rule.spec().detectors(d), &inherited);
+      if (inherited) *c.rule.mutable_spec()->mutable_detectors(d) = spec;  // in the digest too
+      c.calibration = CalibrateDetector(spec, path, &setup);
+      if (c.calibration.ok() && setup.fleet != nullptr) {
+        c.calibration = BindFleetBudget(*setup.fleet, fleet,
+                                        FleetPoolKey(inherited, c.rule.match(), d), &setup.fleet);
+      }
       if (c.calibration.ok()) c.detectors.push_back(std::move(setup));
     }
     if (!c.calibration.ok() && first_failure.ok()) first_failure = c.calibration;

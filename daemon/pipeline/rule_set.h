@@ -23,7 +23,9 @@ class RuleSet {
   // Compiles (and calibrates) every rule. A rule whose calibration fails is kept, but resolving it
   // fails with that status; Build returns the first such failure (Reconfigure refuses on it, the
   // constructor of Pipeline keeps the working rules).
-  est::Status Build(const bayline::v1::DaemonConfig& config);
+  // `fleet`: the daemon's budget counters (fleet_budget.h) that budgeted detectors count their
+  // channels in; nullptr: counters of this rule set's own.
+  est::Status Build(const bayline::v1::DaemonConfig& config, FleetPools* fleet = nullptr);
 
   // Index of the first rule matching `name`, or -1.
   int Match(std::string_view name) const;
