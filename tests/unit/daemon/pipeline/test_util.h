@@ -44,8 +44,9 @@ inline bayline::v1::Observation Obs(const std::string& channel, uint64_t seq, do
   o.set_seq(seq);
   o.set_y(y);
   for (double v : x) o.add_x(v);
-  o.set_time_ns(time_ns != 0 ? time_ns
-                             : 1'700'000'000'000'000'000 + static_cast<int64_t>(seq) * 1'000'000);
+  // Unsigned arithmetic: a test's deliberately huge seq wraps instead of overflowing.
+  const uint64_t default_ns = 1'700'000'000'000'000'000u + seq * 1'000'000u;
+  o.set_time_ns(time_ns != 0 ? time_ns : static_cast<int64_t>(default_ns));
   return o;
 }
 
