@@ -87,7 +87,8 @@ TEST(FrameScanTest, SplitsPlainSingleAndBatchFrames) {
   EXPECT_TRUE(CheckAgainstProtobuf(BatchFrame({})));
 
   std::vector<ScannedObservation> scanned;
-  ASSERT_TRUE(ScanIngestFrame(BatchFrame(batch), &scanned));
+  const std::string frame = BatchFrame(batch);  // the scanned views point into it
+  ASSERT_TRUE(ScanIngestFrame(frame, &scanned));
   ASSERT_EQ(scanned.size(), 300u);
   EXPECT_EQ(scanned[299].channel, "bench/c299");
 }
