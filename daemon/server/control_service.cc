@@ -126,9 +126,6 @@ bayline::v1::Reply ControlService::Stats() {
   auto* stats = reply.mutable_stats();
   const auto now = std::chrono::steady_clock::now();
   stats->set_uptime_s(std::chrono::duration<double>(now - started_).count());
-  stats->set_frames_received(ingest_.frames_received());
-  const uint64_t received = ingest_.observations_received();
-  stats->set_observations_received(received);
   for (const auto& worker : workers_) {
     stats->add_worker_queue_depth(worker->queue_depth());
     const pipeline::Counters c = worker->Call([](pipeline::Pipeline& p) { return p.counters(); });
@@ -142,6 +139,12 @@ bayline::v1::Reply ControlService::Stats() {
     auto& by_reason = *stats->mutable_rejected_by_reason();
     for (const auto& [reason, count] : c.rejected_by_reason) by_reason[reason] += count;
   }
+  // The ingest counters are read after the workers answered: the hand-over to a worker orders the
+  // ingest's count of a frame before the worker's count of its observations, so the reply never
+  // shows observations of a frame it does not count as received.
+  stats->set_frames_received(ingest_.frames_received());
+  const uint64_t received = ingest_.observations_received();
+  stats->set_observations_received(received);
   stats->set_snapshots_written(actions_.snapshots_written());
   for (const auto& [reason, count] : rejected_by_reason_) {
     (*stats->mutable_control_rejected_by_reason())[reason] = count;

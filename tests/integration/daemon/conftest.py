@@ -74,7 +74,8 @@ class Daemon:
             args += ["--pull-bind", self.endpoint("pull")]
         args += self.extra_args
         self.lines = []
-        self.proc = subprocess.Popen(args, stderr=subprocess.PIPE, text=True)
+        self.proc = subprocess.Popen(args, stderr=subprocess.PIPE, text=True,
+                                     errors="backslashreplace")
         self.reader = threading.Thread(target=self._read_log, daemon=True)
         self.reader.start()
         if expect_ready:
