@@ -19,12 +19,14 @@ BUILD = os.environ.get("BAYLINE_BINARY_DIR", "")
 SOURCE = os.environ.get("BAYLINE_SOURCE_DIR", "")
 BAYLINE = os.path.join(BUILD, "clients", "cli", "bayline")
 BAYLINED = os.path.join(BUILD, "daemon", "server", "baylined")
+# Slower builds (make check's Debug + sanitizers runs several times slower) stretch every bound.
+TIME_SCALE = float(os.environ.get("BAYLINE_TEST_TIME_SCALE", "1"))
 
 
 def run_cli(*args, stdin=None, timeout=60, check=False):
     """Runs `bayline args...`; returns the CompletedProcess (text mode)."""
     result = subprocess.run([BAYLINE, *map(str, args)], input=stdin, capture_output=True,
-                            text=True, timeout=timeout)
+                            text=True, timeout=timeout * TIME_SCALE)
     if check and result.returncode != 0:
         raise AssertionError(f"bayline {' '.join(map(str, args))} failed ({result.returncode}):\n"
                              f"{result.stderr}")
@@ -33,6 +35,7 @@ def run_cli(*args, stdin=None, timeout=60, check=False):
 
 def wait_until(predicate, timeout_s=30.0, what="condition"):
     """Polls `predicate` (each call itself blocks on a socket or a process) until it is truthy."""
+    timeout_s *= TIME_SCALE
     deadline = time.monotonic() + timeout_s
     while time.monotonic() < deadline:
         value = predicate()
@@ -61,7 +64,7 @@ class Daemon:
             stdout=self.log, stderr=subprocess.STDOUT)
         self.control = Control(self.control_endpoint, timeout_s=0.5)
         wait_until(self._answers, 20, "baylined to answer control requests")
-        self.control.timeout_s = 10.0
+        self.control.timeout_s = 10.0 * TIME_SCALE
 
     def _answers(self):
         if self.process.poll() is not None:
@@ -86,7 +89,7 @@ class Daemon:
         if self.process.poll() is None:
             self.process.send_signal(signal.SIGTERM)
             try:
-                self.process.wait(timeout=30)
+                self.process.wait(timeout=30 * TIME_SCALE)
             except subprocess.TimeoutExpired:
                 self.process.kill()
                 self.process.wait()
@@ -114,7 +117,7 @@ def synchronise(daemon, subscriber, channel, timeout_s=20.0):
     """Sends observations of `channel` until `subscriber` receives a publication of it, so the
     subscription is known to be in place (ZeroMQ drops what a PUB sends before it arrives)."""
     with Sender(daemon.ingest) as sender:
-        deadline = time.monotonic() + timeout_s
+        deadline = time.monotonic() + timeout_s * TIME_SCALE
         while time.monotonic() < deadline:
             sender.send(channel=channel, y=1.0)
             item = subscriber.receive(timeout_s=0.2)

@@ -15,7 +15,9 @@ from bayline.v1 import control_pb2, observation_pb2, publication_pb2
 
 BINARY_DIR = os.environ.get("BAYLINE_BINARY_DIR", "")
 BAYLINED = os.path.join(BINARY_DIR, "daemon", "server", "baylined")
-TIMEOUT_S = 20.0  # upper bound of every wait; a healthy run needs far less
+# Slower builds (make check's Debug + sanitizers runs several times slower) stretch every bound.
+TIME_SCALE = float(os.environ.get("BAYLINE_TEST_TIME_SCALE", "1"))
+TIMEOUT_S = 20.0 * TIME_SCALE  # upper bound of every wait; a healthy run needs far less
 
 
 def frame(observation=None, batch=None):

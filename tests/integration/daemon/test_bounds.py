@@ -11,7 +11,7 @@ import zmq
 import zmq.utils.monitor
 from bayline.v1 import control_pb2
 
-from conftest import TIMEOUT_S, frame, obs, receive_until
+from conftest import TIME_SCALE, TIMEOUT_S, frame, obs, receive_until
 
 # A rule whose observations cost a worker a lot (eight change-point detectors each), so the worker
 # queues stay full under a flood.
@@ -115,7 +115,8 @@ def test_control_requests_are_answered_promptly_while_the_worker_queues_are_full
         for op in ["stats", "list", "snapshot"] * 3:
             s = d.ctx.socket(zmq.REQ)
             s.setsockopt(zmq.LINGER, 0)
-            s.setsockopt(zmq.RCVTIMEO, 5000)  # a few batches' work, not a whole queue's
+            # A few batches' work, not a whole queue's.
+            s.setsockopt(zmq.RCVTIMEO, int(5000 * TIME_SCALE))
             s.connect(d.control)
             try:
                 req = control_pb2.Request()
@@ -127,7 +128,7 @@ def test_control_requests_are_answered_promptly_while_the_worker_queues_are_full
                 try:
                     data = s.recv()
                 except zmq.Again:
-                    raise AssertionError(f"no reply to {op} within 5 s under ingest load")
+                    raise AssertionError(f"no reply to {op} within {5 * TIME_SCALE} s under load")
                 reply = control_pb2.Reply()
                 reply.ParseFromString(data)
                 assert reply.ok, reply.error

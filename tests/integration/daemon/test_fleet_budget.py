@@ -4,7 +4,7 @@ import json
 import os
 import subprocess
 
-from conftest import BAYLINED, BINARY_DIR, fnv1a64, frame, obs
+from conftest import BAYLINED, BINARY_DIR, TIME_SCALE, fnv1a64, frame, obs
 
 BAYLINE = os.path.join(BINARY_DIR, "clients", "cli", "bayline")
 CONFIG = """
@@ -18,7 +18,7 @@ def fleet_h(channels, interval_s, budget):
     """h for ARL0 = N r / B by `bayline threshold` (direct Markov-chain calibration)."""
     r = subprocess.run([BAYLINE, "threshold", "--channels", str(channels), "--interval",
                         str(interval_s), "--false-alarms-per-day", str(budget), "--json"],
-                       capture_output=True, text=True, timeout=60, check=True)
+                       capture_output=True, text=True, timeout=60 * TIME_SCALE, check=True)
     return json.loads(r.stdout)["h"]
 
 
@@ -37,7 +37,7 @@ def test_rule_with_budget_loads_and_counts_channels_over_all_workers(daemons, tm
     config = tmp_path / "fleet.conf"
     config.write_text(CONFIG)
     check = subprocess.run([BAYLINED, "--check-config", str(config)], capture_output=True,
-                           text=True, timeout=30)
+                           text=True, timeout=30 * TIME_SCALE)
     assert check.returncode == 0, check.stderr
     d = daemons(workers=2, extra_args=["--config", str(config)]).start()
     a, b = names_on_both_workers()
@@ -62,7 +62,7 @@ def test_check_config_rejects_budget_with_arl0(tmp_path):
     path = tmp_path / "bad.conf"
     path.write_text(CONFIG.replace("false_alarms_per_day: 5", "false_alarms_per_day: 5 arl0: 900"))
     r = subprocess.run([BAYLINED, "--check-config", str(path)], capture_output=True, text=True,
-                       timeout=30)
+                       timeout=30 * TIME_SCALE)
     assert r.returncode == 1
     assert "rules[0].spec.detectors[0].false_alarms_per_day" in r.stderr, r.stderr
     assert "exclude each other" in r.stderr, r.stderr

@@ -4,7 +4,7 @@ was never interrupted and was given exactly the frames the journaled daemon had 
 import random
 import signal
 
-from conftest import frame, obs
+from conftest import TIMEOUT_S, frame, obs
 
 CHANNELS = [f"packing/line{i % 3}/scale{i}" for i in range(12)]
 
@@ -136,5 +136,5 @@ def test_bad_journal_setting_is_refused(daemons, tmp_path):
     config = tmp_path / "journal.conf"
     config.write_text('use_default_rules: true\njournal { sync: "sometimes" }\n')
     d = daemons(extra_args=["--config", str(config)]).start(expect_ready=False)
-    assert d.proc.wait(timeout=20) != 0
+    assert d.proc.wait(timeout=TIMEOUT_S) != 0
     assert any("journal.sync" in line for line in d.lines)
