@@ -25,15 +25,16 @@ ControlService::ControlService(const std::vector<std::unique_ptr<Worker>>& worke
                                const Ingest& ingest, Shard shard, DaemonActions& actions)
     : workers_(workers), ingest_(ingest), shard_(shard), actions_(actions) {}
 
-bayline::v1::Reply ControlService::HandleBytes(std::string_view bytes) {
+void ControlService::HandleBytes(std::string_view bytes, ReplyFn reply) {
   bayline::v1::Request request;
   if (bytes.size() > size_t(std::numeric_limits<int>::max()) ||
       !request.ParseFromArray(bytes.data(), int(bytes.size()))) {
     CountRejected("malformed_request");
-    return Error("malformed request: not a bayline.v1.Request (" + std::to_string(bytes.size()) +
-                 " bytes)");
+    reply(Error("malformed request: not a bayline.v1.Request (" + std::to_string(bytes.size()) +
+                " bytes)"));
+    return;
   }
-  return Handle(request);
+  Handle(request, std::move(reply));
 }
 
 bayline::v1::Reply ControlService::RejectMultipart(size_t parts) {
@@ -42,7 +43,26 @@ bayline::v1::Reply ControlService::RejectMultipart(size_t parts) {
                " message parts; a request is one part holding a bayline.v1.Request");
 }
 
-bayline::v1::Reply ControlService::Handle(const bayline::v1::Request& request) {
+void ControlService::Handle(const bayline::v1::Request& request, ReplyFn reply) {
+  if (request.op_case() != bayline::v1::Request::kSnapshot) {
+    reply(HandleNow(request));
+    return;
+  }
+  actions_.RequestSnapshot([reply = std::move(reply)](bool ok,
+                                                      const bayline::v1::SnapshotInfo& info,
+                                                      const std::string& error) {
+    if (!ok) {
+      reply(Error(error));
+      return;
+    }
+    bayline::v1::Reply written;
+    written.set_ok(true);
+    *written.mutable_snapshot() = info;
+    reply(std::move(written));
+  });
+}
+
+bayline::v1::Reply ControlService::HandleNow(const bayline::v1::Request& request) {
   using R = bayline::v1::Request;
   switch (request.op_case()) {
     case R::kList:
@@ -53,13 +73,6 @@ bayline::v1::Reply ControlService::Handle(const bayline::v1::Request& request) {
       return Reset(request.reset().channel());
     case R::kStats:
       return Stats();
-    case R::kSnapshot: {
-      bayline::v1::Reply reply;
-      std::string error;
-      if (!actions_.SnapshotNow(reply.mutable_snapshot(), &error)) return Error(error);
-      reply.set_ok(true);
-      return reply;
-    }
     case R::kReload: {
       std::string message;
       if (!actions_.Reload(&message)) return Error(message);
@@ -128,7 +141,7 @@ bayline::v1::Reply ControlService::Stats() {
   stats->set_uptime_s(std::chrono::duration<double>(now - started_).count());
   for (const auto& worker : workers_) {
     stats->add_worker_queue_depth(worker->queue_depth());
-    const pipeline::Counters c = worker->Call([](pipeline::Pipeline& p) { return p.counters(); });
+    const pipeline::Counters c = worker->counters();
     stats->set_observations_accepted(stats->observations_accepted() + c.accepted);
     stats->set_channels(stats->channels() + c.channels);
     stats->set_publications(stats->publications() + c.publications);
@@ -139,7 +152,7 @@ bayline::v1::Reply ControlService::Stats() {
     auto& by_reason = *stats->mutable_rejected_by_reason();
     for (const auto& [reason, count] : c.rejected_by_reason) by_reason[reason] += count;
   }
-  // The ingest counters are read after the workers answered: the hand-over to a worker orders the
+  // The ingest counters are read after the workers' counters: the hand-over to a worker orders the
   // ingest's count of a frame before the worker's count of its observations, so the reply never
   // shows observations of a frame it does not count as received.
   stats->set_frames_received(ingest_.frames_received());

@@ -18,6 +18,8 @@ namespace {
 constexpr size_t kWorkerQueueCapacity = 64;  // batches of up to Ingest::kMaxBatch observations
 constexpr int kControlReceiveMessages = 64;  // requests queued per control client
 constexpr double kDefaultSnapshotEveryS = 60;
+// How often the supervisor looks for the end of a snapshot write in progress.
+constexpr std::chrono::milliseconds kSnapshotWriterPoll{5};
 
 bool JournalPolicyOf(const bayline::v1::Journal& journal, JournalPolicy* policy) {
   const std::string& sync = journal.sync();
@@ -69,6 +71,7 @@ bool Daemon::Start() {
   if (signals_.fd() < 0) spdlog::warn("signalfd unavailable: signals keep their default action");
 
   store_ = std::make_unique<SnapshotStore>(config_.state_dir());
+  snapshot_writer_ = std::make_unique<SnapshotWriter>(*store_);
   if (!store_->Open(&error)) {
     spdlog::error("state directory: {}", error);
     return false;
@@ -154,7 +157,11 @@ void Daemon::ForcedExit(int signal) {
 void Daemon::Serve() {
   while (!stop_requested_) {
     const auto now = std::chrono::steady_clock::now();
-    const auto wait = std::chrono::duration_cast<std::chrono::milliseconds>(next_snapshot_ - now);
+    // While a snapshot is being written the loop looks for its end every few milliseconds.
+    const auto wait =
+        snapshot_writer_->busy()
+            ? kSnapshotWriterPoll
+            : std::chrono::duration_cast<std::chrono::milliseconds>(next_snapshot_ - now);
     // Rebuilt each turn: HandleControl may have replaced the control socket (or, if that failed,
     // left none; signals and snapshots still run).
     zmq::pollitem_t items[] = {{nullptr, signals_.fd(), ZMQ_POLLIN, 0},
@@ -181,20 +188,22 @@ void Daemon::Serve() {
       }
     }
     if (end == 2 && (items[1].revents & ZMQ_POLLIN)) HandleControl();
-    if (!stop_requested_ && std::chrono::steady_clock::now() >= next_snapshot_) {
-      bayline::v1::SnapshotInfo info;
+    PollSnapshotWriter();
+    if (!stop_requested_ && !snapshot_writer_->busy() &&
+        std::chrono::steady_clock::now() >= next_snapshot_) {
       std::string error;
-      SnapshotNow(&info, &error);  // logs either way
+      if (!StartSnapshot(/*prompt=*/true, &error)) spdlog::error("snapshot failed: {}", error);
     }
   }
 }
 
 void Daemon::HandleControl() {
-  // A REP socket delivers a request's parts together and takes exactly one reply before its next
-  // receive: every part is read, and every request is answered (a request of several parts with
-  // an error). Nothing a peer sends makes the socket throw in that order; any ZeroMQ error that
-  // does occur is logged and counted, and the socket is replaced so that its next request starts
-  // in a known state.
+  // A ROUTER socket delivers a request's parts together, behind the peer's routing id and (from a
+  // REQ peer) an empty delimiter; the reply goes back behind the same envelope, at once or, for a
+  // snapshot, when its file is written. Every part is read and every addressable request is
+  // answered (a request of several parts with an error). Nothing a peer sends makes the socket
+  // throw in that order; any ZeroMQ error that does occur is logged and counted, and the socket is
+  // replaced so that its next request starts in a known state.
   try {
     std::vector<zmq::message_t> parts;
     for (;;) {
@@ -205,19 +214,27 @@ void Daemon::HandleControl() {
       if (!more) break;
     }
     if (parts.empty()) return;  // woken without a request: nothing to answer
-    bayline::v1::Reply reply = parts.size() == 1
-                                   ? control_service_->HandleBytes(parts[0].to_string_view())
-                                   : control_service_->RejectMultipart(parts.size());
-    // Errors and messages quote outside bytes (config files, requests): clients parse them as
-    // UTF-8.
-    if (!pipeline::IsValidUtf8(reply.error())) {
-      reply.set_error(pipeline::ReplaceInvalidUtf8(reply.error()));
+    size_t delimiter = 1;
+    while (delimiter < parts.size() && parts[delimiter].size() != 0) ++delimiter;
+    if (delimiter >= parts.size()) {  // not a REQ-style envelope: no way to address a reply
+      control_service_->CountRejected("no_envelope");
+      if (control_log_.Allow("no_envelope")) {
+        spdlog::warn("control: a message of {} parts without an empty delimiter dropped",
+                     parts.size());
+      }
+      return;
     }
-    if (!pipeline::IsValidUtf8(reply.message())) {
-      reply.set_message(pipeline::ReplaceInvalidUtf8(reply.message()));
+    std::vector<std::string> envelope;
+    for (size_t i = 0; i <= delimiter; ++i) envelope.push_back(parts[i].to_string());
+    auto reply = [this, envelope = std::move(envelope)](bayline::v1::Reply r) {
+      SendControlReply(envelope, std::move(r));
+    };
+    const size_t request_parts = parts.size() - delimiter - 1;
+    if (request_parts == 1) {
+      control_service_->HandleBytes(parts.back().to_string_view(), std::move(reply));
+    } else {
+      reply(control_service_->RejectMultipart(request_parts));
     }
-    const std::string bytes = reply.SerializeAsString();
-    control_->send(zmq::buffer(bytes), zmq::send_flags::none);  // REP: never blocks
   } catch (const zmq::error_t& e) {
     control_service_->CountRejected("zmq_error");
     if (control_log_.Allow("zmq_error")) spdlog::error("control socket: {}", e.what());
@@ -226,10 +243,32 @@ void Daemon::HandleControl() {
   }
 }
 
+void Daemon::SendControlReply(const std::vector<std::string>& envelope, bayline::v1::Reply reply) {
+  if (!control_) return;  // replaced and not bound again: its peers are gone
+  // Errors and messages quote outside bytes (config files, requests): clients parse them as UTF-8.
+  if (!pipeline::IsValidUtf8(reply.error())) {
+    reply.set_error(pipeline::ReplaceInvalidUtf8(reply.error()));
+  }
+  if (!pipeline::IsValidUtf8(reply.message())) {
+    reply.set_message(pipeline::ReplaceInvalidUtf8(reply.message()));
+  }
+  const std::string bytes = reply.SerializeAsString();
+  try {
+    // ROUTER: never blocks; a message to a peer that has gone is dropped.
+    for (const std::string& part : envelope) {
+      control_->send(zmq::buffer(part), zmq::send_flags::sndmore);
+    }
+    control_->send(zmq::buffer(bytes), zmq::send_flags::none);
+  } catch (const zmq::error_t& e) {
+    control_service_->CountRejected("zmq_error");
+    if (control_log_.Allow("zmq_error")) spdlog::error("control reply: {}", e.what());
+  }
+}
+
 bool Daemon::BindControl(const std::string& endpoint, std::string* error) {
   try {
     control_.reset();  // an old socket closes before its endpoint is bound again
-    control_ = std::make_unique<zmq::socket_t>(context_, zmq::socket_type::rep);
+    control_ = std::make_unique<zmq::socket_t>(context_, zmq::socket_type::router);
     control_->set(zmq::sockopt::linger, 0);
     control_->set(zmq::sockopt::maxmsgsize, int64_t(control_message_bytes_));
     control_->set(zmq::sockopt::rcvhwm, kControlReceiveMessages);
@@ -282,7 +321,8 @@ bool Daemon::ReplayJournal(uint64_t covered, std::string* error) {
   return true;
 }
 
-bool Daemon::CutAndWriteSnapshot(bool prompt, bayline::v1::SnapshotInfo* info, std::string* error) {
+bool Daemon::StartSnapshot(bool prompt, std::string* error) {
+  next_snapshot_ = std::chrono::steady_clock::now() + snapshot_period_;
   // The cut: every frame before it is in the capture and in journal segments below `covered`.
   SnapshotCapture capture;
   bool rotated = true;
@@ -296,27 +336,49 @@ bool Daemon::CutAndWriteSnapshot(bool prompt, bayline::v1::SnapshotInfo* info, s
     // under load; with one, the capture must hold exactly the frames before the new segment.
     capture = PostSnapshotCapture(workers_, /*urgent=*/prompt && journal_ == nullptr);
   });
-  const uint64_t covered = journal_next_segment_;
-  if (!rotated ||
-      !WriteCapturedSnapshot(std::move(capture), *store_, config_, covered, info, error)) {
-    return false;
-  }
-  std::string remove_error;
-  if (!RemoveJournalSegmentsBelow(store_->dir(), covered, &remove_error)) {
-    spdlog::error("journal: {}", remove_error);
-  }
+  if (!rotated) return false;
+  snapshot_writer_->Start(std::move(capture), config_, journal_next_segment_);
   return true;
 }
 
-bool Daemon::SnapshotNow(bayline::v1::SnapshotInfo* info, std::string* error) {
-  next_snapshot_ = std::chrono::steady_clock::now() + snapshot_period_;
-  if (!CutAndWriteSnapshot(/*prompt=*/true, info, error)) {
-    spdlog::error("snapshot failed: {}", *error);
-    return false;
+void Daemon::RequestSnapshot(SnapshotDone done) {
+  if (snapshot_writer_->busy()) {  // this one may have cut before the request: take the next
+    snapshot_next_.push_back(std::move(done));
+    return;
   }
-  ++snapshots_written_;
-  spdlog::info("snapshot {}: {} channels, {} bytes", info->path(), info->channels(), info->bytes());
-  return true;
+  std::string error;
+  if (!StartSnapshot(/*prompt=*/true, &error)) {
+    spdlog::error("snapshot failed: {}", error);
+    done(false, {}, error);
+    return;
+  }
+  snapshot_waiting_.push_back(std::move(done));
+}
+
+void Daemon::PollSnapshotWriter() {
+  const std::optional<SnapshotResult> result = snapshot_writer_->TakeResult();
+  if (!result) return;
+  FinishSnapshot(*result);
+  if (snapshot_next_.empty()) return;
+  std::string error;
+  if (!StartSnapshot(/*prompt=*/true, &error)) {
+    FinishSnapshot(SnapshotResult{false, {}, error});
+    return;
+  }
+  snapshot_waiting_.swap(snapshot_next_);
+}
+
+void Daemon::FinishSnapshot(const SnapshotResult& result) {
+  if (result.ok) {
+    ++snapshots_written_;
+    spdlog::info("snapshot {}: {} channels, {} bytes", result.info.path(), result.info.channels(),
+                 result.info.bytes());
+  } else {
+    spdlog::error("snapshot failed: {}", result.error);
+  }
+  std::vector<SnapshotDone> waiting;
+  waiting.swap(snapshot_waiting_);
+  for (auto& done : waiting) done(result.ok, result.info, result.error);
 }
 
 bool Daemon::Reload(std::string* message) {
@@ -370,21 +432,23 @@ bool Daemon::Reload(std::string* message) {
 bool Daemon::Shutdown() {
   ingest_->Stop();                      // hands its partial batches to the workers
   for (auto& w : workers_) w->Drain();  // control calls overtake the queues: drain them first
-  bayline::v1::SnapshotInfo info;
-  std::string error;
+  if (std::optional<SnapshotResult> running = snapshot_writer_->Wait()) FinishSnapshot(*running);
+  snapshot_waiting_.swap(snapshot_next_);  // asked during that write: the final one answers them
   // Queued behind every batch: the workers drain first.
-  const bool saved = CutAndWriteSnapshot(/*prompt=*/false, &info, &error);
+  SnapshotResult final_result;
+  if (StartSnapshot(/*prompt=*/false, &final_result.error)) {
+    final_result = *snapshot_writer_->Wait();
+  }
+  FinishSnapshot(final_result);
   for (auto& w : workers_) w->Stop();  // each sends its last publications before it ends
-  if (!saved) {
+  if (!final_result.ok) {
     spdlog::error(
         "final snapshot failed: {}; the next start restores the newest snapshot left "
         "in {}",
-        error, store_->dir().string());
+        final_result.error, store_->dir().string());
     spdlog::info("stopped (exit {})", kExitFinalSnapshotFailed);
     return false;
   }
-  ++snapshots_written_;
-  spdlog::info("snapshot {}: {} channels, {} bytes", info.path(), info.channels(), info.bytes());
   spdlog::info("stopped");
   return true;
 }

@@ -14,6 +14,7 @@ Worker::Worker(int index, std::unique_ptr<pipeline::Pipeline> pipeline, Publishe
 Worker::~Worker() { Stop(); }
 
 void Worker::Start() {
+  PublishCounters();  // what a restore put into the pipeline
   thread_ = std::thread([this] {
     const std::string name = "bl-worker-" + std::to_string(index_);
     pthread_setname_np(pthread_self(), name.c_str());
@@ -66,8 +67,16 @@ void Worker::PostUrgent(Task task) {
 void Worker::Drain() {
   std::promise<void> done;
   std::future<void> drained = done.get_future();
-  Post([&done](pipeline::Pipeline&) { done.set_value(); });
+  Post([this, &done](pipeline::Pipeline&) {
+    PublishCounters();
+    done.set_value();
+  });
   drained.wait();
+}
+
+void Worker::PublishCounters() {
+  std::lock_guard lock(counters_mutex_);
+  counters_ = pipeline_->counters();
 }
 
 void Worker::PostFrameRejection(std::string reason, std::string detail, int64_t arrival_ns) {
@@ -176,6 +185,7 @@ void Worker::Run() {
                              item.rejection->arrival_ns, sink_);
     }
     if (item.task) item.task(*pipeline_);
+    PublishCounters();
     sink_.Flush();  // before the next wait
     if (item.stop) break;
   }

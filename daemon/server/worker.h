@@ -8,6 +8,8 @@
 //     waits for at most one batch (<= Ingest::kMaxBatch observations), however full the queue.
 //     Post and Drain are ordered (after everything queued). Either way a task runs on the worker's
 //     own thread between batches, so no two threads ever touch the pipeline at once.
+// The pipeline's counters are copied out after every item (counters()), so `stats` never waits
+// for a worker.
 // Publications are collected while an item is processed and sent on the shared PUB socket
 // (Publisher) when it is done, before the worker can block again. The input errors of one ingest
 // frame are bounded (FrameErrorLimit: the first 16 published, then one summary per frame).
@@ -28,9 +30,11 @@
 #include <string>
 #include <string_view>
 #include <thread>
+#include <type_traits>
 #include <vector>
 
 #include "bayline/v1/observation.pb.h"
+#include "daemon/pipeline/counters.h"
 #include "daemon/pipeline/pipeline.h"
 #include "daemon/server/frame_error_limit.h"
 #include "daemon/server/publication_sink.h"
@@ -108,16 +112,34 @@ class Worker {
   void PostFrameRejection(std::string reason, std::string detail, int64_t arrival_ns);
 
   // Runs `fn(pipeline)` on the worker thread before the queued batches (after the one in
-  // progress) and waits for its result.
+  // progress) and waits for its result. The counters are published (counters()) before it returns.
   template <typename Fn>
   auto Call(Fn fn) -> decltype(fn(std::declval<pipeline::Pipeline&>())) {
     using R = decltype(fn(std::declval<pipeline::Pipeline&>()));
-    auto task = std::make_shared<std::packaged_task<R(pipeline::Pipeline&)>>(std::move(fn));
-    auto result = task->get_future();
+    auto promise = std::make_shared<std::promise<R>>();
+    auto result = promise->get_future();
     Item item;
-    item.task = [task](pipeline::Pipeline& p) { (*task)(p); };
+    item.task = [this, fn = std::move(fn), promise](pipeline::Pipeline& p) mutable {
+      if constexpr (std::is_void_v<R>) {
+        fn(p);
+        PublishCounters();
+        promise->set_value();
+      } else {
+        R value = fn(p);
+        PublishCounters();
+        promise->set_value(std::move(value));
+      }
+    };
     queue_.PushUrgent(std::move(item));
     return result.get();
+  }
+
+  // The pipeline's counters as of the last item the worker finished (a batch, a task): any thread,
+  // without waiting for the worker, so `stats` is answered while a worker is busy (a long batch, a
+  // snapshot capture of many channels).
+  pipeline::Counters counters() const {
+    std::lock_guard lock(counters_mutex_);
+    return counters_;
   }
 
   // Queued items (batches and tasks) not yet taken by the worker.
@@ -144,6 +166,7 @@ class Worker {
   void ProcessRange(const IngestBatch& batch, size_t begin, size_t end,
                     pipeline::PublicationSink& sink);
   void Recycle(std::unique_ptr<IngestBatch> batch);
+  void PublishCounters();  // worker thread (or before Start): copies the pipeline's counters
 
   const int index_;
   std::unique_ptr<pipeline::Pipeline> pipeline_;
@@ -159,6 +182,8 @@ class Worker {
   std::vector<std::unique_ptr<IngestBatch>> free_batches_;
   std::thread thread_;
   bool stopped_ = false;
+  mutable std::mutex counters_mutex_;
+  pipeline::Counters counters_;  // guarded by counters_mutex_
 };
 
 }  // namespace bayline::server

@@ -2,7 +2,7 @@
 // workers (two, each with a pipeline of all_models.conf and a few channels fed at start), a real
 // unbound ingest and a publisher on an inproc endpoint. Snapshot and reload are answered by a
 // stand-in that refuses them (they touch files and the config file, not decoding). Every input must
-// produce a reply; ok = false must come with an error text.
+// produce exactly one reply; ok = false must come with an error text.
 #include <cstdint>
 #include <cstdlib>
 #include <memory>
@@ -25,9 +25,8 @@ using namespace bayline::server;
 
 class RefusingActions : public DaemonActions {
  public:
-  bool SnapshotNow(bayline::v1::SnapshotInfo*, std::string* error) override {
-    *error = "no snapshots while fuzzing";
-    return false;
+  void RequestSnapshot(SnapshotDone done) override {
+    done(false, {}, "no snapshots while fuzzing");
   }
   bool Reload(std::string* message) override {
     *message = "no reload while fuzzing";
@@ -92,9 +91,13 @@ struct Setup {
 
 extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   static Setup* setup = new Setup();  // lives for the process: its threads end with it
-  const bayline::v1::Reply reply =
-      setup->service->HandleBytes(std::string_view(reinterpret_cast<const char*>(data), size));
-  if (!reply.ok() && reply.error().empty()) std::abort();
+  int replies = 0;
+  setup->service->HandleBytes(std::string_view(reinterpret_cast<const char*>(data), size),
+                              [&replies](const bayline::v1::Reply& reply) {
+                                ++replies;
+                                if (!reply.ok() && reply.error().empty()) std::abort();
+                              });
+  if (replies != 1) std::abort();  // every request answered exactly once, at once here
   // A reset request forgets a channel; feed again now and then so ask and list see state.
   static int calls = 0;
   if (++calls % 512 == 0) setup->Feed();

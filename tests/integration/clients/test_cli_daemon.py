@@ -8,7 +8,7 @@ import subprocess
 import time
 
 from bayline import Sender
-from conftest import (BAYLINE, PROBE_CONFIG, LineReader, run_cli, write_gaussian_csv,
+from conftest import (BAYLINE, PROBE_CONFIG, TIME_SCALE, LineReader, run_cli, write_gaussian_csv,
                       write_probe_csv)
 
 
@@ -221,14 +221,15 @@ def test_reload_applies_a_changed_config_and_refuses_a_broken_one(tmp_path, star
     # A changed spec for the probes rule: the daemon resets the channels it governs.
     with open(daemon.config_path, "w") as f:
         f.write(PROBE_CONFIG.replace("arl0: 500", "arl0: 800"))
-    r = run_cli("reload", "--control", daemon.control_endpoint, check=True)
+    r = run_cli("reload", "--control", daemon.control_endpoint, "--timeout", 5 * TIME_SCALE,
+                check=True)
     assert r.returncode == 0 and r.stdout.strip()
     assert "cold/probe1" not in list_json(daemon)
 
     # A broken file is refused with an error naming it; the daemon keeps its configuration.
     with open(daemon.config_path, "w") as f:
         f.write("rules { match: \"**\" spec { model: \"no_such_model\" } }\n")
-    r = run_cli("reload", "--control", daemon.control_endpoint)
+    r = run_cli("reload", "--control", daemon.control_endpoint, "--timeout", 5 * TIME_SCALE)
     assert r.returncode == 1 and "model" in r.stderr
     run_cli(*probe_send_args(daemon, data), check=True)
     daemon.wait_accepted(80)

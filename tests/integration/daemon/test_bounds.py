@@ -142,6 +142,75 @@ def test_control_requests_are_answered_promptly_while_the_worker_queues_are_full
         d.proc.kill()
 
 
+def control_socket(d):
+    s = d.ctx.socket(zmq.REQ)
+    s.setsockopt(zmq.LINGER, 0)
+    s.connect(d.control)
+    return s
+
+
+def send_request(s, op):
+    req = control_pb2.Request()
+    getattr(req, op).SetInParent()
+    s.send(req.SerializeToString())
+
+
+def read_reply(s):
+    assert s.poll(int(TIMEOUT_S * 1000)), "no reply"
+    reply = control_pb2.Reply()
+    reply.ParseFromString(s.recv())
+    assert reply.ok, reply.error
+    return reply
+
+
+def test_stats_is_answered_while_a_snapshot_of_many_channels_is_written(daemons, tmp_path):
+    # The supervisor only makes the cut; serializing, writing and fsyncing run on the snapshot
+    # writer thread, and stats reads counters the workers copy out, so stats replies keep coming
+    # while the `snapshot` request waits for its file. (Before: the snapshot blocked the control
+    # socket, and every stats reply came after the snapshot reply.)
+    d = start_with(daemons, tmp_path, 'snapshot_every_s: 86400 limits { max_channels: 200000 }\n'
+                   'rules { name: "many" match: "**" spec { model: "gaussian" estimators: ["ls"] '
+                   'publish { every_n: 1000000 } } }\n')
+    channels = 100_000
+    push = d.pusher()
+    for start in range(0, channels, 5000):
+        push.send(frame(batch=[obs(f"hall{i % 50}/probe{i}", y=1.0, seq=1)
+                               for i in range(start, start + 5000)]))
+    d.wait_stats(lambda st: st.channels == channels, "the channels")
+
+    snapshot = control_socket(d)
+    stats = control_socket(d)
+    try:
+        send_request(snapshot, "snapshot")
+        answered_before = 0
+        while not snapshot.poll(0):
+            send_request(stats, "stats")
+            assert read_reply(stats).stats.channels == channels
+            if not snapshot.poll(0):
+                answered_before += 1
+        info = read_reply(snapshot).snapshot
+        assert info.channels == channels
+        assert answered_before > 0, "no stats reply while the snapshot was being written"
+        # Two snapshot requests at once: the second waits for a snapshot cut after it was asked.
+        second = control_socket(d)
+        try:
+            send_request(snapshot, "snapshot")
+            send_request(second, "snapshot")
+            first_path = read_reply(snapshot).snapshot.path
+            second_path = read_reply(second).snapshot.path
+            assert first_path != second_path and second_path.endswith(".bls")
+        finally:
+            second.close()
+        assert d.stats().snapshots_written == 3
+    finally:
+        snapshot.close()
+        stats.close()
+        push.close(linger=0)
+    assert d.stop() == 0
+    d.start()
+    assert d.stats().channels == channels
+
+
 # --- 2. glob cost and size -----------------------------------------------------------------------
 
 def test_a_pathological_list_glob_is_answered(daemons, tmp_path):
