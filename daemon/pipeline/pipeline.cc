@@ -389,6 +389,9 @@ const std::shared_ptr<ChannelBudget>& Pipeline::channel_budget() const {
   return state_->channel_budget();
 }
 void Pipeline::SaveChannels(bayline::v1::Snapshot* out) const { state_->SaveChannels(out); }
+uint64_t Pipeline::AppendSerializedChannels(std::string* out) const {
+  return state_->AppendSerializedChannels(out);
+}
 est::Status Pipeline::RestoreChannels(const bayline::v1::Snapshot& in,
                                       std::vector<std::string>* reset_channels,
                                       std::vector<std::string>* not_restored) {

@@ -125,6 +125,10 @@ class Pipeline {
   // Appends one ChannelSnapshot per channel (sorted by name) and sets format_version and
   // config_digest. Restoring and continuing is bit-identical to never stopping.
   void SaveChannels(bayline::v1::Snapshot* out) const;
+  // Appends to *out the encoding of the Snapshot SaveChannels would fill, channel by channel, and
+  // returns the number of channels: memory beyond the encoded bytes stays constant. Encoded
+  // Snapshots concatenate into one (protobuf merges repeated fields; these scalars are equal).
+  uint64_t AppendSerializedChannels(std::string* out) const;
   // Restores the channels of `in`, each on its own. A channel whose record cannot be restored
   // (invalid or repeated name, unknown model, components that do not match its spec, a state that
   // fails its estimator's or detector's invariants, an inconsistent seq window) is set aside: it is

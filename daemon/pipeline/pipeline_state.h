@@ -1,7 +1,7 @@
 // PipelineState: the implementation behind Pipeline (pipeline.h). Split over files by job:
 //   pipeline.cc        construction, Process (the per-observation path), RejectFrame
 //   channel_queries.cc List, Ask, Reset, Reconfigure
-//   snapshot_codec.cc  SaveChannels, RestoreChannels
+//   snapshot_codec.cc  SaveChannels, AppendSerializedChannels, RestoreChannels
 #pragma once
 
 #include <array>
@@ -56,6 +56,7 @@ class PipelineState {
   std::optional<bayline::v1::ChannelReport> Ask(std::string_view channel) const;
   bool Reset(std::string_view channel);
   void SaveChannels(bayline::v1::Snapshot* out) const;
+  uint64_t AppendSerializedChannels(std::string* out) const;
   est::Status RestoreChannels(const bayline::v1::Snapshot& in, std::vector<std::string>* reset,
                               std::vector<std::string>* not_restored);
   est::Status Reconfigure(const bayline::v1::DaemonConfig& config, std::vector<std::string>* reset);
@@ -65,6 +66,7 @@ class PipelineState {
   const Counters& counters() const { return counters_; }
 
  private:
+  std::vector<const Channel*> ChannelsByName() const;  // every channel, sorted by name
   // Process with ChannelHash(obs.channel()) already computed (*hash) or not (nullptr).
   void ProcessHashed(const bayline::v1::Observation& obs, int64_t arrival_ns, const uint64_t* hash,
                      PublicationSink& sink);

@@ -1,4 +1,5 @@
-// SaveChannels / RestoreChannels: channel state <-> bayline.v1.Snapshot (snapshot.proto).
+// SaveChannels / AppendSerializedChannels / RestoreChannels: channel state <-> bayline.v1.Snapshot
+// (snapshot.proto).
 // Component order: the estimators in spec order, then the detectors in spec order; each is a kind
 // name and the packed doubles of its state (EstimatorSlot::Pack, DetectorSlot::Pack).
 // Restoring is per channel: a record that fails is set aside on its own (pipeline.h).
@@ -69,49 +70,72 @@ est::Status RestoreChannel(const bayline::v1::ChannelSnapshot& c, const Resolved
   return est::Status::Ok();
 }
 
+// Fills `c` (empty) with the record of `ch`; `values` is scratch space.
+void SaveChannel(const Channel& ch, bayline::v1::ChannelSnapshot* c, std::vector<double>* values) {
+  const ResolvedSpec& spec = *ch.spec;
+  c->set_name(std::string(ch.name()));
+  c->set_rule(spec.rule_name);
+  c->set_spec_digest(spec.digest);
+  c->set_model(std::string(ModelName(spec.model)));
+  c->set_regressor_count(spec.regressor_count);
+  c->mutable_seq()->set_last_seq(ch.seq.last);
+  c->mutable_seq()->set_seen_window(ch.seq.seen);
+  c->mutable_counters()->set_accepted(ch.accepted);
+  c->mutable_counters()->set_last_time_ns(ch.last_time_ns);
+  c->mutable_publish()->set_since_publish(ch.publish.since_publish);
+  c->mutable_publish()->set_last_publish_time_ns(ch.publish.last_publish_ns);
+  c->mutable_publish()->set_published(ch.publish.published);
+  for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
+    values->clear();
+    ch.estimator(i).Pack(values);
+    auto* comp = c->add_components();
+    comp->set_kind(std::string(EstimatorKindName(spec.estimators[i])));
+    comp->mutable_values()->Assign(values->begin(), values->end());
+  }
+  const std::span<const DetectorSlot> detectors = ch.detectors();
+  for (std::size_t d = 0; d < detectors.size(); ++d) {
+    values->clear();
+    detectors[d].Pack(values);
+    auto* comp = c->add_components();
+    comp->set_kind(std::string(DetectorKindName(spec.detectors[d].kind)));
+    comp->mutable_values()->Assign(values->begin(), values->end());
+  }
+}
+
 }  // namespace
 
-void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
-  out->set_format_version(kFormatVersion);
-  out->set_config_digest(ConfigDigest(config_));
+std::vector<const Channel*> PipelineState::ChannelsByName() const {
   std::vector<const Channel*> sorted;
   sorted.reserve(channels_.size());
   channels_.ForEach([&](const Channel& ch) { sorted.push_back(&ch); });
   std::sort(sorted.begin(), sorted.end(),
             [](const Channel* a, const Channel* b) { return a->name() < b->name(); });
+  return sorted;
+}
+
+void PipelineState::SaveChannels(bayline::v1::Snapshot* out) const {
+  out->set_format_version(kFormatVersion);
+  out->set_config_digest(ConfigDigest(config_));
   std::vector<double> values;
-  for (const Channel* entry : sorted) {
-    const Channel& ch = *entry;
-    const ResolvedSpec& spec = *ch.spec;
-    auto* c = out->add_channels();
-    c->set_name(std::string(ch.name()));
-    c->set_rule(spec.rule_name);
-    c->set_spec_digest(spec.digest);
-    c->set_model(std::string(ModelName(spec.model)));
-    c->set_regressor_count(spec.regressor_count);
-    c->mutable_seq()->set_last_seq(ch.seq.last);
-    c->mutable_seq()->set_seen_window(ch.seq.seen);
-    c->mutable_counters()->set_accepted(ch.accepted);
-    c->mutable_counters()->set_last_time_ns(ch.last_time_ns);
-    c->mutable_publish()->set_since_publish(ch.publish.since_publish);
-    c->mutable_publish()->set_last_publish_time_ns(ch.publish.last_publish_ns);
-    c->mutable_publish()->set_published(ch.publish.published);
-    for (std::size_t i = 0; i < ch.estimator_count(); ++i) {
-      values.clear();
-      ch.estimator(i).Pack(&values);
-      auto* comp = c->add_components();
-      comp->set_kind(std::string(EstimatorKindName(spec.estimators[i])));
-      comp->mutable_values()->Assign(values.begin(), values.end());
-    }
-    const std::span<const DetectorSlot> detectors = ch.detectors();
-    for (std::size_t d = 0; d < detectors.size(); ++d) {
-      values.clear();
-      detectors[d].Pack(&values);
-      auto* comp = c->add_components();
-      comp->set_kind(std::string(DetectorKindName(spec.detectors[d].kind)));
-      comp->mutable_values()->Assign(values.begin(), values.end());
-    }
+  for (const Channel* ch : ChannelsByName()) SaveChannel(*ch, out->add_channels(), &values);
+}
+
+uint64_t PipelineState::AppendSerializedChannels(std::string* out) const {
+  bayline::v1::Snapshot header;
+  header.set_format_version(kFormatVersion);
+  header.set_config_digest(ConfigDigest(config_));
+  header.AppendToString(out);
+  // A Snapshot holding only channels[0] encodes as exactly that one repeated-field entry.
+  bayline::v1::Snapshot one;
+  bayline::v1::ChannelSnapshot* record = one.add_channels();
+  std::vector<double> values;
+  const std::vector<const Channel*> sorted = ChannelsByName();
+  for (const Channel* ch : sorted) {
+    record->Clear();
+    SaveChannel(*ch, record, &values);
+    one.AppendToString(out);
   }
+  return sorted.size();
 }
 
 est::Status PipelineState::RestoreChannels(const bayline::v1::Snapshot& in,

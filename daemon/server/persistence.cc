@@ -35,12 +35,12 @@ SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& 
                                     bool urgent) {
   SnapshotCapture capture;
   for (const auto& worker : workers) {
-    auto task = std::make_shared<std::promise<bayline::v1::Snapshot>>();
+    auto task = std::make_shared<std::promise<CapturedChannels>>();
     capture.push_back(task->get_future());
     auto capture_task = [task](pipeline::Pipeline& p) {
-      bayline::v1::Snapshot s;
-      p.SaveChannels(&s);
-      task->set_value(std::move(s));
+      CapturedChannels captured;
+      captured.channels = p.AppendSerializedChannels(&captured.encoded);
+      task->set_value(std::move(captured));
     };
     if (urgent) {
       worker->PostUrgent(std::move(capture_task));
@@ -54,24 +54,29 @@ SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& 
 bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,
                            const bayline::v1::DaemonConfig& config, uint64_t journal_segment,
                            bayline::v1::SnapshotInfo* info, std::string* error) {
-  bayline::v1::Snapshot all;
+  std::vector<CapturedChannels> parts;
+  uint64_t channels = 0;
   for (auto& future : capture) {
-    bayline::v1::Snapshot part = future.get();
-    all.set_format_version(part.format_version());
-    all.set_config_digest(part.config_digest());
-    for (auto& channel : *part.mutable_channels()) all.add_channels()->Swap(&channel);
+    parts.push_back(future.get());
+    channels += parts.back().channels;
   }
-  all.set_journal_segment(journal_segment);
-  all.set_written_time_ns(std::chrono::duration_cast<std::chrono::nanoseconds>(
-                              std::chrono::system_clock::now().time_since_epoch())
-                              .count());
-  info->set_channels(uint64_t(all.channels_size()));
-  const std::string not_saved = std::to_string(all.channels_size()) + " channels not saved: ";
-  std::string payload;
-  if (!all.SerializeToString(&payload)) {
+  // The journal segment and the write time go last, in a message of their own (the workers'
+  // encodings do not set them).
+  bayline::v1::Snapshot trailer;
+  trailer.set_journal_segment(journal_segment);
+  trailer.set_written_time_ns(std::chrono::duration_cast<std::chrono::nanoseconds>(
+                                  std::chrono::system_clock::now().time_since_epoch())
+                                  .count());
+  std::string trailer_bytes;
+  const std::string not_saved = std::to_string(channels) + " channels not saved: ";
+  if (!trailer.SerializeToString(&trailer_bytes)) {
     *error = not_saved + "serialize snapshot: failed";
     return false;
   }
+  std::vector<std::string_view> payload;
+  for (const CapturedChannels& part : parts) payload.push_back(part.encoded);
+  payload.push_back(trailer_bytes);
+  info->set_channels(channels);
   std::filesystem::path path;
   uint64_t bytes = 0;
   if (!store.Write(payload, ConfigDigest(config), &path, &bytes, error)) {

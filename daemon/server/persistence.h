@@ -33,8 +33,14 @@ namespace bayline::server {
 // everything queued before it is processed (or, `urgent`, once the batch in progress is: prompt
 // under load, but not a cut across workers), and returns without waiting; WriteCapturedSnapshot
 // waits for the copies and writes one file recording `journal_segment` (the first journal
-// segment the snapshot does not cover; 0 without a journal).
-using SnapshotCapture = std::vector<std::future<bayline::v1::Snapshot>>;
+// segment the snapshot does not cover; 0 without a journal). The copies are encoded Snapshots
+// (Pipeline::AppendSerializedChannels) written one after the other, so a snapshot needs memory
+// for its encoded bytes only, not for a message of every channel.
+struct CapturedChannels {
+  std::string encoded;  // a serialized bayline.v1.Snapshot of one worker's channels
+  uint64_t channels = 0;
+};
+using SnapshotCapture = std::vector<std::future<CapturedChannels>>;
 SnapshotCapture PostSnapshotCapture(const std::vector<std::unique_ptr<Worker>>& workers,
                                     bool urgent);
 bool WriteCapturedSnapshot(SnapshotCapture capture, SnapshotStore& store,

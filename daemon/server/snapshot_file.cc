@@ -44,16 +44,22 @@ uint64_t GenerationOf(const std::string& name) {
 
 }  // namespace
 
-std::string EncodeSnapshotFile(std::string_view payload, uint64_t config_digest) {
+std::string EncodeSnapshotHeader(uint32_t payload_crc, uint64_t payload_bytes,
+                                 uint64_t config_digest) {
   std::string out;
-  out.reserve(kSnapshotHeaderBytes + payload.size());
+  out.reserve(kSnapshotHeaderBytes);
   out.append(kMagic, sizeof kMagic);
   PutLittleEndian32(out, kSnapshotFormatVersion);
-  PutLittleEndian32(out, Crc32(payload));
-  PutLittleEndian64(out, payload.size());
+  PutLittleEndian32(out, payload_crc);
+  PutLittleEndian64(out, payload_bytes);
   PutLittleEndian64(out, config_digest);
   PutLittleEndian32(out, Crc32(std::string_view(out.data(), 32)));
   PutLittleEndian32(out, 0);
+  return out;
+}
+
+std::string EncodeSnapshotFile(std::string_view payload, uint64_t config_digest) {
+  std::string out = EncodeSnapshotHeader(Crc32(payload), payload.size(), config_digest);
   out.append(payload);
   return out;
 }
@@ -107,6 +113,11 @@ bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* o
 
 bool WriteFileAtomically(const std::filesystem::path& path, std::string_view bytes,
                          std::string* error) {
+  return WriteFileAtomically(path, std::span<const std::string_view>(&bytes, 1), error);
+}
+
+bool WriteFileAtomically(const std::filesystem::path& path,
+                         std::span<const std::string_view> pieces, std::string* error) {
   const std::filesystem::path temp = path.string() + std::string(kTempSuffix);
   // Whatever has the temporary name (a stale file, or a planted link: unlink removes the link, not
   // its target) goes first; the file is then created exclusively and not through a link.
@@ -119,17 +130,13 @@ bool WriteFileAtomically(const std::filesystem::path& path, std::string_view byt
     *error = ErrnoText("create", temp);
     return false;
   }
-  size_t done = 0;
-  while (done < bytes.size()) {
-    ssize_t n = ::write(fd, bytes.data() + done, bytes.size() - done);
-    if (n < 0 && errno == EINTR) continue;
-    if (n < 0) {
+  for (const std::string_view piece : pieces) {
+    if (!WriteAll(fd, piece.data(), piece.size())) {
       *error = ErrnoText("write", temp);
       ::close(fd);
       ::unlink(temp.c_str());
       return false;
     }
-    done += size_t(n);
   }
   if (::fsync(fd) != 0) {
     *error = ErrnoText("fsync", temp);
@@ -251,6 +258,13 @@ std::filesystem::path SnapshotStore::PathOf(uint64_t generation) const {
 bool SnapshotStore::Write(std::string_view payload, uint64_t config_digest,
                           std::filesystem::path* written_path, uint64_t* written_bytes,
                           std::string* error) {
+  return Write(std::span<const std::string_view>(&payload, 1), config_digest, written_path,
+               written_bytes, error);
+}
+
+bool SnapshotStore::Write(std::span<const std::string_view> payload, uint64_t config_digest,
+                          std::filesystem::path* written_path, uint64_t* written_bytes,
+                          std::string* error) {
   const uint64_t generation = newest_generation_ + 1;
   if (generation > kMaxSnapshotGeneration) {
     *error = "snapshot generation " + std::to_string(generation) + " in " + dir_.string() +
@@ -258,11 +272,19 @@ bool SnapshotStore::Write(std::string_view payload, uint64_t config_digest,
     return false;
   }
   const std::filesystem::path path = PathOf(generation);
-  const std::string bytes = EncodeSnapshotFile(payload, config_digest);
-  if (!WriteFileAtomically(path, bytes, error)) return false;
+  uint32_t crc = 0;
+  uint64_t payload_bytes = 0;
+  for (const std::string_view piece : payload) {
+    crc = Crc32(piece, crc);
+    payload_bytes += piece.size();
+  }
+  const std::string header = EncodeSnapshotHeader(crc, payload_bytes, config_digest);
+  std::vector<std::string_view> pieces{header};
+  pieces.insert(pieces.end(), payload.begin(), payload.end());
+  if (!WriteFileAtomically(path, pieces, error)) return false;
   newest_generation_ = generation;
   *written_path = path;
-  *written_bytes = bytes.size();
+  *written_bytes = header.size() + payload_bytes;
   // Prune only after the new generation is durable.
   std::vector<std::filesystem::path> all = ListNewestFirst();
   std::error_code ec;

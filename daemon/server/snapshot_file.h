@@ -36,6 +36,7 @@
 
 #include <cstdint>
 #include <filesystem>
+#include <span>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -53,6 +54,9 @@ struct SnapshotFileContents {
   uint64_t config_digest = 0;
 };
 
+// The header of a payload of `payload_bytes` bytes with CRC-32 `payload_crc`.
+std::string EncodeSnapshotHeader(uint32_t payload_crc, uint64_t payload_bytes,
+                                 uint64_t config_digest);
 // Header + payload, ready to be written.
 std::string EncodeSnapshotFile(std::string_view payload, uint64_t config_digest);
 
@@ -70,6 +74,9 @@ bool ReadSnapshotFile(const std::filesystem::path& path, SnapshotFileContents* o
 // and `path` still holds its previous content (the temporary file is removed).
 bool WriteFileAtomically(const std::filesystem::path& path, std::string_view bytes,
                          std::string* error);
+// The same, writing the concatenation of `pieces` (no copy of them is made).
+bool WriteFileAtomically(const std::filesystem::path& path,
+                         std::span<const std::string_view> pieces, std::string* error);
 
 class SnapshotStore {
  public:
@@ -91,6 +98,9 @@ class SnapshotStore {
   // when the next generation would exceed kMaxSnapshotGeneration.
   bool Write(std::string_view payload, uint64_t config_digest, std::filesystem::path* written_path,
              uint64_t* written_bytes, std::string* error);
+  // The same with the payload in pieces (their concatenation), so large payloads are not copied.
+  bool Write(std::span<const std::string_view> payload, uint64_t config_digest,
+             std::filesystem::path* written_path, uint64_t* written_bytes, std::string* error);
 
   // Moves one snapshot file of this directory into `damaged/` as `<name>.<UTC time>` (a numeric
   // suffix is added if that name exists), creating the subdirectory, and relearns the newest

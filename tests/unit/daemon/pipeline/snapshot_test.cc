@@ -105,6 +105,36 @@ TEST(SnapshotTest, RestoreAndContinueIsByteIdenticalToUninterruptedRun) {
   EXPECT_EQ(SnapshotBytes(second), SnapshotBytes(whole));
 }
 
+// The daemon writes the workers' channels encoded one at a time and concatenated: that decodes to
+// the very message SaveChannels fills, and the concatenation of two pipelines' encodings to the
+// union of their channels.
+TEST(SnapshotTest, AppendedEncodingsDecodeToTheSavedSnapshot) {
+  const auto config = RichConfig();
+  Pipeline left(config);
+  Pipeline right(config);
+  RecordingSink sink;
+  const auto stream = Stream(30);
+  for (const auto& o : stream) {  // each channel in one of them, as the daemon's workers hold them
+    (o.channel() < "m" ? left : right).Process(o, kArrival, sink);
+  }
+  std::string encoded;
+  const uint64_t left_channels = left.AppendSerializedChannels(&encoded);
+  bayline::v1::Snapshot decoded;
+  ASSERT_TRUE(decoded.ParseFromString(encoded));
+  bayline::v1::Snapshot saved;
+  left.SaveChannels(&saved);
+  ASSERT_GT(left_channels, 0u);
+  EXPECT_EQ(left_channels, uint64_t(saved.channels_size()));
+  EXPECT_EQ(decoded.SerializeAsString(), saved.SerializeAsString());
+
+  const uint64_t right_channels = right.AppendSerializedChannels(&encoded);
+  ASSERT_TRUE(decoded.ParseFromString(encoded));
+  ASSERT_EQ(uint64_t(decoded.channels_size()), left_channels + right_channels);
+  Pipeline both(config);
+  ASSERT_TRUE(both.RestoreChannels(decoded).ok());
+  EXPECT_EQ(both.counters().channels, left_channels + right_channels);
+}
+
 // A channel whose record does not restore is set aside alone (named, with the reason, and
 // counted); the other channels of the snapshot are restored.
 TEST(SnapshotTest, ChannelThatDoesNotUnpackIsSetAsideAlone) {
