@@ -3,9 +3,11 @@
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
+#include <optional>
 #include <random>
 
 #include "estimators/core/distributions.h"
+#include "estimators/detect/delay_simulation.h"
 
 namespace bayline::est {
 namespace {
@@ -215,38 +217,13 @@ double SimulateArl(const Options& o, double shift, const SimulationBudget& b,
 template <typename Chart, typename Options>
 double SimulateDelay(const Options& o, double shift, int change_at, const SimulationBudget& b,
                      double* standard_error) {
-  if (!o.Validate().ok() || !std::isfinite(shift) || b.runs < 1 || change_at < 0) return kNaN;
-  const double cap = b.max_length > 0 ? std::min(b.max_length, kMaxSimulatedRunLength) : 1e7;
-  std::mt19937_64 rng(b.seed);
-  std::normal_distribution<double> normal(0.0, 1.0);
+  if (!o.Validate().ok()) return kNaN;
   Chart chart(o);
-  double sum = 0.0, sum_sq = 0.0;
-  int done = 0;
-  const std::int64_t max_attempts = 1000 * static_cast<std::int64_t>(b.runs);
-  for (std::int64_t attempt = 0; done < b.runs && attempt < max_attempts; ++attempt) {
-    chart.Reset();
-    double t = 0;
-    bool early = false;
-    while (t < change_at + cap) {
-      t += 1.0;
-      const double z = normal(rng) + (t > change_at ? shift : 0.0);
-      if (chart.Update(z, ObservationMark{}).raised) {
-        early = t <= change_at;
-        break;
-      }
-    }
-    if (early) continue;
-    sum += t - change_at;
-    sum_sq += (t - change_at) * (t - change_at);
-    ++done;
-  }
-  if (done < b.runs) return kNaN;
-  const double mean = sum / b.runs;
-  if (standard_error) {
-    const double var = b.runs > 1 ? std::max(0.0, (sum_sq - sum * mean) / (b.runs - 1)) : kNaN;
-    *standard_error = std::sqrt(var / b.runs);
-  }
-  return mean;
+  return SimulateMeanDelay([&chart] { chart.Reset(); },
+                           [&chart](double z) -> std::optional<bool> {
+                             return chart.Update(z, ObservationMark{}).raised;
+                           },
+                           shift, change_at, b, standard_error);
 }
 
 }  // namespace

@@ -2,8 +2,11 @@
 
 #include <algorithm>
 #include <cmath>
+#include <optional>
 #include <random>
 #include <string>
+
+#include "estimators/detect/delay_simulation.h"
 
 namespace bayline::est {
 namespace {
@@ -359,44 +362,17 @@ double BocpdStatisticToLogScale(double statistic) {
 
 double SimulateBocpdDelay(const Bocpd::Options& o, double shift, int change_at,
                           const SimulationBudget& b, double* standard_error) {
-  if (!o.Validate().ok() || !std::isfinite(shift) || b.runs < 1 || change_at < 0) return kNaN;
-  if (o.model != BocpdModel::kNormalGamma) return kNaN;
-  const double cap = b.max_length > 0 ? std::min(b.max_length, kMaxSimulatedRunLength) : 1e7;
-  std::mt19937_64 rng(b.seed);
-  std::normal_distribution<double> normal(0.0, 1.0);
+  if (!o.Validate().ok() || o.model != BocpdModel::kNormalGamma) return kNaN;
   Bocpd chart(o);
-  double sum = 0.0, sum_sq = 0.0;
-  int done = 0;
-  // Runs with a false alarm before the change are redrawn; the bound keeps the loop finite when
-  // they all do (then NaN).
-  const std::int64_t max_attempts = 1000 * static_cast<std::int64_t>(b.runs);
-  for (std::int64_t attempt = 0; done < b.runs && attempt < max_attempts; ++attempt) {
-    (void)chart.Restore(Bocpd::State{});
-    double t = 0;
-    bool early = false;
-    while (t < change_at + cap) {
-      t += 1.0;
-      Sample s;
-      s.y = normal(rng) + (t > change_at ? shift : 0.0);
-      DetectorEvent ev;
-      if (!chart.Update(s, ObservationMark{}, &ev).ok()) return kNaN;
-      if (ev.raised) {
-        early = t <= change_at;
-        break;
-      }
-    }
-    if (early) continue;
-    sum += t - change_at;
-    sum_sq += (t - change_at) * (t - change_at);
-    ++done;
-  }
-  if (done < b.runs) return kNaN;
-  const double mean = sum / b.runs;
-  if (standard_error) {
-    const double var = b.runs > 1 ? std::max(0.0, (sum_sq - sum * mean) / (b.runs - 1)) : kNaN;
-    *standard_error = std::sqrt(var / b.runs);
-  }
-  return mean;
+  return SimulateMeanDelay([&chart] { (void)chart.Restore(Bocpd::State{}); },
+                           [&chart](double z) -> std::optional<bool> {
+                             Sample s;
+                             s.y = z;
+                             DetectorEvent ev;
+                             if (!chart.Update(s, ObservationMark{}, &ev).ok()) return std::nullopt;
+                             return ev.raised;
+                           },
+                           shift, change_at, b, standard_error);
 }
 
 std::vector<double> CusumArlProfile(const CusumOptions& o, std::span<const double> shifts,
