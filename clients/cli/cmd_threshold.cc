@@ -45,7 +45,7 @@ constexpr std::uint64_t kCheckSeed = 97531;  // differs from the calibration's S
 constexpr int kChangeAt = 100;
 
 struct ThresholdOptions {
-  double arl0 = 500;
+  double arl0 = est::kDefaultArl0;
   double shift = 1;
   std::string detector = "cusum";
   std::string direction = "both";

@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "bayline/v1/config.pb.h"
+#include "estimators/detect/calibration.h"
 
 namespace bayline::cli {
 
@@ -18,7 +19,7 @@ struct ReplaySpecFlags {
   double forgetting = 0;         // lambda in (0, 1]; 0 = unset
   double half_life_s = 0;        // > 0: forget by elapsed time
   std::string detect = "cusum";  // comma-separated detector kinds, or "none"
-  double arl0 = 500;
+  double arl0 = est::kDefaultArl0;
   double shift = 1;
   bool has_target = false;
   double target_mean = 0;

@@ -10,6 +10,7 @@
 #include "daemon/pipeline/estimator_slot.h"
 #include "daemon/pipeline/resolved_spec.h"
 #include "daemon/pipeline/resource_limits.h"
+#include "estimators/detect/calibration.h"
 
 namespace bayline::pipeline {
 namespace {
@@ -136,7 +137,7 @@ Status ValidateDetector(const DetectorSpec& d, const std::vector<Model>& models,
     return Bad(path + ".inflate_on_alarm",
                "must be > 1 (or 0: off), got " + Num(d.inflate_on_alarm()));
   }
-  const double arl0 = d.arl0() > 0 ? d.arl0() : kDefaultArl0;
+  const double arl0 = d.arl0() > 0 ? d.arl0() : est::kDefaultArl0;
   if ((kind == DetectorKind::kPageHinkley || kind == DetectorKind::kGlr ||
        kind == DetectorKind::kBocpd) &&
       d.threshold() == 0 && arl0 > kMaxSimulatedArl0) {

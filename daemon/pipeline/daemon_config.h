@@ -18,7 +18,7 @@ bayline::est::Status ValidateConfig(const bayline::v1::DaemonConfig& config);
 
 // The embedded default configuration: loopback endpoints from daemon/defaults.h, default limits,
 // and one rule "default": match "**", model "auto", all estimators the model allows, a
-// self-starting CUSUM with arl0 1000 watching the first estimator.
+// self-starting CUSUM with the default arl0 (est::kDefaultArl0, 500) watching the first estimator.
 bayline::v1::DaemonConfig DefaultConfig();
 
 // Digest (16 hex digits) of a configuration (deterministic serialization), stored in snapshots.

@@ -26,7 +26,8 @@ bayline::v1::DaemonConfig DefaultConfig() {
   spec->set_model("auto");
   auto* cusum = spec->add_detectors();
   cusum->set_kind("cusum");
-  cusum->set_arl0(1000);
+  // arl0 unset: est::kDefaultArl0, the default of every detector spec, replay and threshold; a
+  // top-level false_alarms_per_day budget applies to it.
   return c;
 }
 

@@ -98,7 +98,7 @@ est::Status CalibrateDetector(const bayline::v1::DetectorSpec& spec, const std::
   d.band_parameter = spec.parameter();
   const int64_t holdoff = spec.holdoff();
   est::AlarmTarget target;
-  target.arl0 = spec.arl0() > 0 ? spec.arl0() : kDefaultArl0;
+  target.arl0 = spec.arl0() > 0 ? spec.arl0() : est::kDefaultArl0;
   const bool budgeted = spec.false_alarms_per_day() > 0;  // fleet_budget.h
   if (budgeted) {
     if (est::Status v = ValidateFleetBudget(spec, path); !v.ok()) return v;

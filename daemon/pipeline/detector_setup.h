@@ -58,7 +58,6 @@ enum class DetectorKind : uint8_t {
   kBand
 };
 
-inline constexpr double kDefaultArl0 = 500.0;
 inline constexpr double kMaxSimulatedArl0 = 1e4;
 inline constexpr int kSimulationRuns = 1000;
 // A bocpd update costs about 100 times a chart's, so its simulation is bounded in observations:

@@ -46,9 +46,15 @@
 
 namespace bayline::est {
 
+// The one default in-control ARL: a detector spec without arl0 (the daemon's default rule
+// included), `bayline replay` and `bayline threshold` without --arl0, so a file alarms offline as
+// it does live.
+inline constexpr double kDefaultArl0 = 500.0;
+
 struct AlarmTarget {
-  double arl0 = 500.0;  // in-control ARL: mean observations between false alarms, in [2, 1e7]
-  double shift = 1.0;   // design shift D in sd units, finite and > 0
+  double arl0 =
+      kDefaultArl0;    // in-control ARL: mean observations between false alarms, in [2, 1e7]
+  double shift = 1.0;  // design shift D in sd units, finite and > 0
   Status Validate() const;
 };
 

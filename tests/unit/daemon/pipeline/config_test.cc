@@ -33,7 +33,7 @@ TEST(ConfigValidationTest, DefaultConfigIsValidAndUsesSharedEndpoints) {
   EXPECT_EQ(c.rules(0).spec().model(), "auto");
   ASSERT_EQ(c.rules(0).spec().detectors_size(), 1);
   EXPECT_EQ(c.rules(0).spec().detectors(0).kind(), "cusum");
-  EXPECT_EQ(c.rules(0).spec().detectors(0).arl0(), 1000);
+  EXPECT_EQ(c.rules(0).spec().detectors(0).arl0(), 0);  // unset: est::kDefaultArl0 applies
 }
 
 TEST(ConfigValidationTest, ErrorsNameTheFieldPath) {
