@@ -24,6 +24,17 @@
 namespace bayline::cli {
 namespace {
 
+// A fleet budget anywhere in `config`: at the top level or on a detector of a rule.
+bool BudgetsFalseAlarmsPerDay(const bayline::v1::DaemonConfig& config) {
+  if (config.false_alarms_per_day() > 0) return true;
+  for (const auto& rule : config.rules()) {
+    for (const auto& detector : rule.spec().detectors()) {
+      if (detector.false_alarms_per_day() > 0) return true;
+    }
+  }
+  return false;
+}
+
 struct ReplayOptions {
   std::string input;
   std::string output;
@@ -102,6 +113,11 @@ int RunReplay(ReplayOptions& o) {
     }
     config = ReadConfigFile(o.config_file);
     CheckConfig(config, o.config_file);
+    if (BudgetsFalseAlarmsPerDay(config) && o.flags.mapping.time.empty()) {
+      throw InputError(o.config_file +
+                       ": false_alarms_per_day sets each channel's threshold from its observation "
+                       "rate, learned from elapsed time: it needs --time COL");
+    }
   } else {
     if (o.spec.half_life_s > 0 && o.flags.mapping.time.empty()) {
       throw InputError("--half-life forgets by elapsed time: it needs --time COL");

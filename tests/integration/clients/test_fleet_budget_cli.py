@@ -103,3 +103,15 @@ def test_replay_of_a_fleet_raises_the_budgeted_false_alarms(tmp_path):
     lo, hi = poisson.interval(0.95, BUDGET * days)
     print(f"total {total} over {days} days, 95 % interval around {BUDGET * days}: [{lo}, {hi}]")
     assert lo <= total <= hi
+
+
+def test_replay_of_a_budgeted_config_needs_the_time_column(tmp_path):
+    # Without --time every row has time 0: the budget could never learn a channel's rate.
+    conf = tmp_path / "fleet.conf"
+    conf.write_text(CONFIG)
+    data = tmp_path / "few.csv"
+    data.write_text("channel,seq,y\nsite/probe1,1,20.5\nsite/probe1,2,19.8\n")
+    r = run_cli("replay", "--input", data, "--config", conf, "--channel", "channel", "--seq", "seq",
+                "--y", "y")
+    assert r.returncode != 0 and r.stdout == ""
+    assert "false_alarms_per_day" in r.stderr and "needs --time COL" in r.stderr
