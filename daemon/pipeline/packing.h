@@ -5,6 +5,7 @@
 // whole input).
 #pragma once
 
+#include <cmath>
 #include <cstdint>
 #include <span>
 #include <vector>
@@ -41,10 +42,10 @@ inline bool NextSection(std::span<const double> values, std::size_t* pos,
                         std::span<const double>* section) {
   if (*pos >= values.size()) return false;
   const double n = values[*pos];
-  if (!(n >= 0) || n != static_cast<double>(static_cast<std::size_t>(n)) ||
-      static_cast<std::size_t>(n) > values.size() - *pos - 1) {
-    return false;
-  }
+  // Compared as doubles before any conversion: a length beyond the values left (say 4e227, from a
+  // damaged file) must not reach the cast, whose result would be undefined.
+  const double left = static_cast<double>(values.size() - *pos - 1);
+  if (!(n >= 0) || !(n <= left) || n != std::floor(n)) return false;
   *section = values.subspan(*pos + 1, static_cast<std::size_t>(n));
   *pos += 1 + static_cast<std::size_t>(n);
   return true;

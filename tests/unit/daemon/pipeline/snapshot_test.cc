@@ -1,9 +1,11 @@
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <random>
 #include <string>
 #include <vector>
 
+#include "daemon/pipeline/packing.h"
 #include "tests/unit/daemon/pipeline/test_util.h"
 
 namespace bayline::pipeline {
@@ -133,6 +135,24 @@ TEST(SnapshotTest, AppendedEncodingsDecodeToTheSavedSnapshot) {
   Pipeline both(config);
   ASSERT_TRUE(both.RestoreChannels(decoded).ok());
   EXPECT_EQ(both.counters().channels, left_channels + right_channels);
+}
+
+// Section lengths from a damaged snapshot are refused before any conversion to an integer (found by
+// fuzz_snapshot_restore under UBSan: a length of 4e227 reached a double-to-size_t cast).
+TEST(SnapshotTest, SectionLengthsOutOfRangeAreRefused) {
+  for (const double length : {4.02722e227, 1e20, 3.0, 2.5, -1.0, std::nan("")}) {
+    const std::vector<double> values = {length, 7.0, 8.0};
+    std::size_t pos = 0;
+    std::span<const double> section;
+    EXPECT_FALSE(NextSection(values, &pos, &section)) << length;
+    EXPECT_EQ(pos, 0u);
+  }
+  const std::vector<double> values = {2.0, 7.0, 8.0};
+  std::size_t pos = 0;
+  std::span<const double> section;
+  ASSERT_TRUE(NextSection(values, &pos, &section));
+  EXPECT_EQ(pos, 3u);
+  EXPECT_EQ(section.size(), 2u);
 }
 
 // A channel whose record does not restore is set aside alone (named, with the reason, and
